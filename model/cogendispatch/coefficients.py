@@ -1,0 +1,81 @@
+"""The linear coefficients the model uses, as tables a planner can sanity-check."""
+
+from __future__ import annotations
+
+import pandas as pd
+
+from .equipment import boiler as boiler_mod
+from .equipment import drive as drive_mod
+from .equipment import turbine as turbine_mod
+from .equipment.common import SiteStates
+from .equipment.deaerator import heating_steam_ratio
+from .equipment.letdown import outlet_ratio
+from .plant.schema import SiteConfig
+from .steam import state_pT, state_px
+
+
+def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
+    """Tables of header states and per-unit linear coefficients, keyed by table name."""
+    st = SiteStates.of(cfg)
+    hdr = pd.DataFrame([
+        {"header": h.id, "pressure_bar_a": s.p, "temperature_C": s.T, "enthalpy_kJ_kg": s.h,
+         "entropy_kJ_kgK": s.s, "superheat_K": s.superheat, "state": s.phase}
+        for h, s in ((h, st.headers[h.id]) for h in cfg.headers)])
+
+    brows = []
+    for b in cfg.boilers:
+        co = boiler_mod.coefficients(b, st)
+        for load, eta, s, f in zip(b.efficiency_curve.load, b.efficiency_curve.efficiency, co.steam, co.fuel):
+            brows.append({"boiler": b.id, "load": load, "steam_t_h": s, "efficiency": eta, "fuel_GJ_h": f,
+                          "fuel_GJ_per_t": f / s, "heat_to_steam_GJ_per_t": co.heat_per_t,
+                          "curve": "convex" if co.convex else "non-convex (binaries)"})
+    boilers = pd.DataFrame(brows)
+
+    trows = []
+    for tg in cfg.turbogenerators:
+        co = turbine_mod.coefficients(tg, st)
+        for k, sec in enumerate(co.sections):
+            arrival = None if sec.to_condenser else st.arrival_ratio(sec.outlet.h, sec.to)
+            trows.append({"turbine": tg.id, "kind": co.kind, "section": k + 1, "to": sec.to,
+                          "p_out_bar_a": sec.p_out, "isentropic_drop_kJ_kg": sec.drop_s,
+                          "efficiency": sec.efficiency, "kW_per_t_h": 1000 * sec.mw_per_tph,
+                          "steam_rate_kg_kWh": sec.steam_rate, "exhaust_T_C": sec.outlet.T,
+                          "exhaust_quality": sec.outlet.x, "exhaust_h_kJ_kg": sec.outlet.h,
+                          "header_t_per_t": arrival})
+    turbines = pd.DataFrame(trows)
+
+    drows = []
+    for d in cfg.drives:
+        co = drive_mod.coefficients(d, st)
+        row = {"drive": d.id, "count": d.count, "duty_kW": 1000 * d.duty,
+               "drivers": "steam+motor" if co.dual else ("steam" if co.steam_rate else "motor"),
+               "steam_rate_kg_kWh": co.steam_rate, "efficiency": co.efficiency,
+               "steam_t_h_per_machine": (co.steam_rate * d.duty) if co.steam_rate else None,
+               "exhaust_h_kJ_kg": co.exhaust_h,
+               "header_t_per_t": st.arrival_ratio(co.exhaust_h, d.steam_turbine.exhaust) if co.steam_rate else None,
+               "motor_efficiency": co.motor_efficiency,
+               "motor_MW_per_machine": (d.duty / co.motor_efficiency) if co.motor_efficiency else None}
+        drows.append(row)
+    drives = pd.DataFrame(drows)
+
+    lrows = []
+    for ld in cfg.letdowns:
+        r = outlet_ratio(ld, st)
+        out = state_pT(st.headers[ld.to].p, st.headers[ld.to].T) if st.headers[ld.to].superheat > 0 else st.headers[ld.to]
+        lrows.append({"letdown": ld.id, "from": ld.source, "to": ld.to, "outlet_t_per_t": r,
+                      "water_t_per_t": r - 1.0, "valve_outlet_h_kJ_kg": st.headers[ld.source].h,
+                      "header_h_kJ_kg": out.h})
+    letdowns = pd.DataFrame(lrows)
+
+    da = cfg.deaerator
+    h_mu = state_pT(da.pressure, da.makeup_temperature).h
+    h_ret = state_pT(da.pressure, da.condensate_temperature).h
+    frac = da.process_condensate_return
+    h_mix = frac * h_ret + (1 - frac) * h_mu
+    dea = pd.DataFrame([{
+        "pressure_bar_a": da.pressure, "saturation_C": state_px(da.pressure, 0.0).T,
+        "feedwater_h_kJ_kg": st.h_feedwater, "heating_steam": da.heating_steam,
+        "steam_t_per_t_feedwater": heating_steam_ratio(st.h_feedwater, h_mix, st.headers[da.heating_steam].h),
+        "water_in_h_kJ_kg": h_mix, "note": f"at {frac:.0%} condensate return, no hotwell condensate"}])
+    return {"headers": hdr, "boilers": boilers, "turbines": turbines, "drives": drives,
+            "letdowns": letdowns, "deaerator": dea}

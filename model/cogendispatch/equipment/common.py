@@ -1,0 +1,202 @@
+"""What every equipment block shares: header states, feedwater enthalpy and the term registry.
+
+An equipment block never writes a header or power balance itself. It registers the flows it
+puts into (+) or takes out of (-) each header, the power it makes or uses, the feedwater it
+draws and the costs it causes; :mod:`cogendispatch.site` sums the registered terms into the
+balances and the objective. That keeps one module per equipment kind and lets the results
+code list every term of every balance by name.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from dataclasses import dataclass, field
+from typing import Callable
+
+import pyomo.environ as pyo
+
+from ..plant.schema import SiteConfig
+from ..plant.series import Series
+from ..steam import SteamState, header_state, state_px
+
+Expr = Callable[[int], object]  # hour index -> Pyomo expression or number
+
+
+@dataclass(frozen=True)
+class SiteStates:
+    """Fixed thermodynamic states of the site: the linearisation point of the model.
+
+    Attributes
+    ----------
+    headers : header id -> state at header pressure and temperature
+    condensers : condenser id -> saturated vapour state at condenser pressure (for pressure)
+    h_feedwater : deaerator outlet, saturated liquid at deaerator pressure [kJ/kg]
+    """
+
+    headers: dict[str, SteamState]
+    condensers: dict[str, SteamState]
+    h_feedwater: float
+
+    @classmethod
+    def of(cls, cfg: SiteConfig) -> "SiteStates":
+        return cls(
+            headers={h.id: header_state(h.pressure, h.temperature) for h in cfg.headers},
+            condensers={c.id: state_px(c.pressure, 1.0) for c in cfg.condensers},
+            h_feedwater=state_px(cfg.deaerator.pressure, 0.0).h,
+        )
+
+    def arrival_ratio(self, h_in: float, header: str) -> float:
+        """Header steam made per unit of steam arriving at enthalpy ``h_in`` [t/t].
+
+        The header is held at its own enthalpy h_H. Steam arriving hotter is desuperheated
+        with feedwater (ratio > 1, the excess is spray water); steam arriving colder gives
+        up the difference by condensing a share to feedwater-enthalpy drains (ratio < 1):
+        r = (h_in - h_fw) / (h_H - h_fw), an energy balance on the header.
+        """
+        h_hdr = self.headers[header].h
+        return (h_in - self.h_feedwater) / (h_hdr - self.h_feedwater)
+
+
+@dataclass
+class Term:
+    """One named flow in a balance: ``expr(t)`` is its signed value in hour ``t``."""
+
+    unit: str
+    label: str
+    expr: Expr
+
+
+@dataclass
+class ModelContext:
+    """Everything a block builder needs, and the registry it fills."""
+
+    cfg: SiteConfig
+    series: Series
+    states: SiteStates
+    hours: list[int]
+    header_terms: dict[str, list[Term]] = field(default_factory=lambda: defaultdict(list))
+    power_terms: list[Term] = field(default_factory=list)
+    feedwater_terms: list[Term] = field(default_factory=list)  # drawn from deaerator [t/h]
+    condensate_terms: list[Term] = field(default_factory=list)  # returned to deaerator [t/h] at h
+    cost_terms: dict[str, list[Expr]] = field(default_factory=lambda: defaultdict(list))
+    fuel_use: dict[str, list[Expr]] = field(default_factory=lambda: defaultdict(list))  # [GJ/h]
+    boilers: list[pyo.Block] = field(default_factory=list)
+    condenser_users: dict[str, list[pyo.Block]] = field(default_factory=lambda: defaultdict(list))
+    condensate_enthalpy: dict[str, float] = field(default_factory=dict)
+
+    def add_arrival(self, header: str, unit: str, label: str, flow: Expr, h_in: float) -> float:
+        """Register steam arriving at ``header`` with enthalpy ``h_in`` [kJ/kg].
+
+        Adds the steam itself and, where the enthalpy differs from the header's, the
+        desuperheating water drawn from feedwater (or the drain returned to it).
+        Returns the arrival ratio (header steam per tonne arriving).
+        """
+        r = self.states.arrival_ratio(h_in, header)
+        self.header_terms[header].append(Term(unit, label, flow))
+        if abs(r - 1.0) > 1e-9:
+            water = lambda t, r=r: (r - 1.0) * flow(t)  # noqa: E731
+            tag = "desuperheater water" if r > 1.0 else "drain"
+            self.header_terms[header].append(Term(unit, f"{label} {tag}", water))
+            self.feedwater_terms.append(Term(unit, f"{label} {tag}", water))
+        return r
+
+    def take(self, header: str, unit: str, label: str, flow: Expr) -> None:
+        """Register steam taken out of ``header`` (``flow`` is positive, stored negated)."""
+        self.header_terms[header].append(Term(unit, label, lambda t: -flow(t)))
+
+
+def time_set(m: pyo.ConcreteModel) -> pyo.Set:
+    """The model's hour set."""
+    return m.T
+
+
+def commitment(blk: pyo.Block, hours: list[int], min_up: float, min_down: float,
+               initial_on: bool, initial_hours: float) -> None:
+    """On/off status with start-up and shut-down indicators and minimum up/down times.
+
+    Adds ``on`` (binary), ``start`` and ``stop`` (continuous in [0, 1], integral because
+    ``on`` is) with on_t - on_{t-1} = start_t - stop_t and the turn-on/turn-off
+    inequalities sum(start over last UT hours) <= on_t, sum(stop over last DT hours) <= 1 - on_t.
+    Hours already spent in the initial state count towards the minimum times.
+
+    Parameters
+    ----------
+    min_up, min_down : minimum up and down times [h]
+    initial_on : status before the first hour
+    initial_hours : hours already spent in that status [h]
+
+    References
+    ----------
+    Rajan & Takriti, Minimum up/down polytopes of the unit commitment problem with start-up
+    costs, IBM Research Report RC23628 (2005).
+    """
+    T = blk.model().T
+    blk.on = pyo.Var(T, within=pyo.Binary)
+    blk.start = pyo.Var(T, bounds=(0, 1))
+    blk.stop = pyo.Var(T, bounds=(0, 1))
+    u0 = 1.0 if initial_on else 0.0
+    UT, DT = max(1, int(round(min_up))), max(1, int(round(min_down)))
+
+    def _trans(b, t):
+        prev = b.on[t - 1] if t > 0 else u0
+        return b.on[t] - prev == b.start[t] - b.stop[t]
+
+    blk.transition = pyo.Constraint(T, rule=_trans)
+    if UT > 1:
+        blk.min_up = pyo.Constraint(
+            T, rule=lambda b, t: sum(b.start[k] for k in range(max(0, t - UT + 1), t + 1)) <= b.on[t])
+    if DT > 1:
+        blk.min_down = pyo.Constraint(
+            T, rule=lambda b, t: sum(b.stop[k] for k in range(max(0, t - DT + 1), t + 1)) <= 1 - b.on[t])
+    # carry-over: a unit that has not yet served its minimum time keeps its status
+    hold = (UT - initial_hours) if initial_on else (DT - initial_hours)
+    for t in hours:
+        if t < hold:
+            blk.on[t].fix(u0)
+    blk.commit_info = CommitInfo(UT, DT, bool(initial_on), float(initial_hours))
+
+
+@dataclass(frozen=True)
+class CommitInfo:
+    """Minimum up/down times [h] and initial status of a committed unit (for heuristics)."""
+
+    min_up: int
+    min_down: int
+    initial_on: bool
+    initial_hours: float
+
+
+def repair_commitment(wanted: list[int], fixed: dict[int, int], info: CommitInfo) -> list[int]:
+    """Nearest on/off sequence to ``wanted`` that honours minimum up and down times.
+
+    Greedy forward pass: a change of status is accepted only once the unit has spent its
+    minimum time in the current status; hours in ``fixed`` keep their value.
+    """
+    u = 1 if info.initial_on else 0
+    tau = info.initial_hours
+    out = []
+    for t, d in enumerate(wanted):
+        if t in fixed:
+            nxt = fixed[t]
+        elif d != u and tau < (info.min_up if u == 1 else info.min_down):
+            nxt = u
+        else:
+            nxt = d
+        tau = tau + 1 if nxt == u else 1
+        u = nxt
+        out.append(u)
+    return out
+
+
+def repair_switching(wanted: list[int], min_gap: int, initial: int | None) -> list[int]:
+    """Nearest driver sequence to ``wanted`` with at least ``min_gap`` hours between switches."""
+    out: list[int] = []
+    last = -(10**9)
+    cur = initial
+    for t, d in enumerate(wanted):
+        if cur is None:
+            cur = d
+        elif d != cur and t - last >= min_gap:
+            cur, last = d, t
+        out.append(cur)
+    return out

@@ -1,0 +1,53 @@
+"""Surface condenser with vacuum ejectors, serving the condensing sections exhausting to it."""
+
+from __future__ import annotations
+
+import pyomo.environ as pyo
+
+from ..plant.schema import Condenser
+from ..steam import state_px
+from .common import ModelContext, Term
+
+
+def cooling_duty(flow: float, h_exhaust: float, h_condensate: float) -> float:
+    """Heat the condenser must reject [MW].
+
+    Q = m * (h_exhaust - h_f) with m in t/h: Q [MW] = m * dh / 3600.
+
+    Parameters
+    ----------
+    flow : exhaust steam condensed [t/h]
+    h_exhaust : enthalpy of the turbine exhaust [kJ/kg]
+    h_condensate : saturated-liquid enthalpy at condenser pressure [kJ/kg]
+    """
+    return flow * (h_exhaust - h_condensate) / 3600.0
+
+
+def add_condenser(m: pyo.ConcreteModel, c: Condenser, ctx: ModelContext) -> pyo.Block:
+    """Add a condenser block: ``in_service`` and the cooling and ejector constraints."""
+    blk = pyo.Block()
+    m.add_component(f"condenser_{c.id}", blk)
+    T = m.T
+    users = ctx.condenser_users.get(c.id, [])
+    h_f = state_px(c.pressure, 0.0).h
+    ctx.condensate_enthalpy[c.id] = h_f
+    blk.in_service = pyo.Var(T, bounds=(0, 1))
+    if users:
+        # in service whenever any turbine exhausting into it runs; the ejector steam it
+        # costs pushes it to zero otherwise
+        blk.serves = pyo.Constraint(range(len(users)), T,
+                                    rule=lambda b, i, t: b.in_service[t] >= users[i].on[t])
+    else:
+        for t in ctx.hours:
+            blk.in_service[t].fix(0)
+    flow = lambda t: sum(u.condenser_flow(t) for u in users)  # noqa: E731
+    duty = lambda t: sum(u.condenser_flow(t) * (u.condenser_exhaust_h - h_f) / 3600.0 for u in users)  # noqa: E731
+    blk.flow = flow
+    blk.duty = duty
+    if users:
+        blk.cooling = pyo.Constraint(T, rule=lambda b, t: duty(t) <= c.cooling_capacity)
+    if c.ejector_steam > 0 and c.ejector_header is not None:
+        ctx.take(c.ejector_header, c.id, f"{c.id} ejectors", lambda t: c.ejector_steam * blk.in_service[t])
+    ctx.condensate_terms.append(Term(c.id, f"{c.id} hotwell condensate", flow))
+    blk.unit = c
+    return blk

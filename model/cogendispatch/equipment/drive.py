@@ -1,0 +1,119 @@
+"""Machine drives: a pump, compressor or fan driven by a steam turbine, a motor, or either.
+
+Identical machines in service together form one drive entry with ``count``; position k is
+on steam only if position k-1 is (``on_steam[k] <= on_steam[k-1]``), so the solver never
+explores the symmetric copies of "which of the identical pumps is on steam".
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import pyomo.environ as pyo
+
+from ..plant.schema import Drive
+from ..steam import isentropic_drop
+from .common import ModelContext, SiteStates, Term
+
+
+@dataclass(frozen=True)
+class DriveCoefficients:
+    """steam_rate : steam per shaft energy of the driver turbine [kg/kWh = t/MWh];
+    exhaust_h : enthalpy of its exhaust [kJ/kg]; efficiency : isentropic efficiency [-];
+    motor_efficiency : [-]; dual : both drivers present."""
+
+    steam_rate: float | None
+    exhaust_h: float | None
+    efficiency: float | None
+    motor_efficiency: float | None
+    dual: bool
+
+
+def turbine_steam_rate(drop_s: float, efficiency: float) -> float:
+    """Actual steam rate of a turbine driver [kg/kWh].
+
+    SR = 3600 / (eta_s * (h_in - h_out,s))
+
+    Parameters
+    ----------
+    drop_s : isentropic enthalpy drop [kJ/kg]
+    efficiency : isentropic efficiency, shaft losses included [-]
+
+    References
+    ----------
+    MIL-HDBK-1003/7 (1990), Table 8 (theoretical steam rate, eta = 1).
+    """
+    return 3600.0 / (efficiency * drop_s)
+
+
+def coefficients(d: Drive, states: SiteStates) -> DriveCoefficients:
+    st = d.steam_turbine
+    sr = h_ex = eff = None
+    if st is not None:
+        inlet = states.headers[st.inlet]
+        drop = isentropic_drop(inlet, states.headers[st.exhaust].p)
+        if st.efficiency is not None:
+            eff = st.efficiency
+            sr = turbine_steam_rate(drop, eff)
+        else:
+            sr = st.steam_rate
+            eff = 3600.0 / (sr * drop)
+        h_ex = inlet.h - 3600.0 / sr  # all shaft work leaves the steam
+    return DriveCoefficients(sr, h_ex, eff, d.motor.efficiency if d.motor else None,
+                             st is not None and d.motor is not None)
+
+
+def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:
+    """Add a drive block: ``on_steam[k, t]`` (binary for dual drivers) per machine position."""
+    co = coefficients(d, ctx.states)
+    blk = pyo.Block()
+    m.add_component(f"drive_{d.id}", blk)
+    T, hours = m.T, ctx.hours
+    K = list(range(d.count))
+    duty = ctx.series.duty[d.id].to_numpy()  # [MW] per machine
+    if co.dual:
+        blk.on_steam = pyo.Var(K, T, within=pyo.Binary)
+        if d.count > 1:
+            blk.order = pyo.Constraint(K[1:], T, rule=lambda b, k, t: b.on_steam[k, t] <= b.on_steam[k - 1, t])
+        L = max(1, int(round(d.min_hours_between_switches)))
+        if L > 1:
+            blk.switch = pyo.Var(K, T, bounds=(0, 1))
+            init = d.initial_on_steam
+
+            def _prev(b, k, t):
+                if t > 0:
+                    return b.on_steam[k, t - 1]
+                return None if init is None else (1.0 if k < init else 0.0)
+
+            def _sw_up(b, k, t):
+                p = _prev(b, k, t)
+                return pyo.Constraint.Skip if p is None else b.switch[k, t] >= b.on_steam[k, t] - p
+
+            def _sw_dn(b, k, t):
+                p = _prev(b, k, t)
+                return pyo.Constraint.Skip if p is None else b.switch[k, t] >= p - b.on_steam[k, t]
+
+            blk.switch_up = pyo.Constraint(K, T, rule=_sw_up)
+            blk.switch_down = pyo.Constraint(K, T, rule=_sw_dn)
+            blk.switch_gap = pyo.Constraint(
+                K, T, rule=lambda b, k, t: sum(b.switch[k, j] for j in range(max(0, t - L + 1), t + 1)) <= 1)
+        steam_n = lambda t: sum(blk.on_steam[k, t] for k in K)  # noqa: E731
+    else:
+        fixed = d.count if d.steam_turbine is not None else 0
+        steam_n = lambda t: fixed  # noqa: E731
+    blk.machines_on_steam = steam_n
+
+    if co.steam_rate is not None:
+        sr, st = co.steam_rate, d.steam_turbine
+        flow = lambda t: sr * float(duty[t]) * steam_n(t)  # noqa: E731  [t/h]
+        ctx.take(st.inlet, d.id, f"{d.id} turbine inlet", flow)
+        ctx.add_arrival(st.exhaust, d.id, f"{d.id} turbine exhaust", flow, co.exhaust_h)
+        blk.steam_flow = flow
+    if co.motor_efficiency is not None:
+        eta = co.motor_efficiency
+        ctx.power_terms.append(Term(d.id, f"{d.id} motors",
+                                    lambda t: -float(duty[t]) / eta * (d.count - steam_n(t))))
+    blk.switch_info = (max(1, int(round(d.min_hours_between_switches))), d.initial_on_steam)
+    blk.coefficients = co
+    blk.unit = d
+    return blk

@@ -1,0 +1,34 @@
+"""Grid connection: import and export with hourly prices and limits."""
+
+from __future__ import annotations
+
+import pyomo.environ as pyo
+
+from ..plant.schema import Grid
+from .common import ModelContext, Term
+
+
+def add_grid(m: pyo.ConcreteModel, g: Grid, ctx: ModelContext) -> pyo.Block:
+    """Add the grid block: ``imp`` and ``exp`` [MW].
+
+    Where an hour pays more for export than it charges for import, a binary keeps the site
+    from importing and exporting at once; elsewhere the prices already prevent it.
+    """
+    blk = pyo.Block()
+    m.add_component("grid", blk)
+    T = m.T
+    pi = ctx.series.price_import.to_numpy()
+    pe = ctx.series.price_export.to_numpy()
+    blk.imp = pyo.Var(T, bounds=(g.min_import, g.max_import))
+    blk.exp = pyo.Var(T, bounds=(0, g.max_export))
+    arb = [t for t in ctx.hours if pe[t] > pi[t] and g.max_export > 0]
+    if arb:
+        blk.importing = pyo.Var(arb, within=pyo.Binary)
+        blk.imp_side = pyo.Constraint(arb, rule=lambda b, t: b.imp[t] <= g.max_import * b.importing[t])
+        blk.exp_side = pyo.Constraint(arb, rule=lambda b, t: b.exp[t] <= g.max_export * (1 - b.importing[t]))
+    ctx.power_terms.append(Term("grid", "import", lambda t: blk.imp[t]))
+    ctx.power_terms.append(Term("grid", "export", lambda t: -blk.exp[t]))
+    ctx.cost_terms["import"].append(lambda t: float(pi[t]) * blk.imp[t])
+    ctx.cost_terms["export"].append(lambda t: -float(pe[t]) * blk.exp[t])
+    blk.unit = g
+    return blk

@@ -1,0 +1,71 @@
+"""Write result files whole or not at all: into a fresh folder beside the target, then swap."""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import tempfile
+from pathlib import Path
+from typing import Callable
+
+import pandas as pd
+
+from .errors import InputError
+
+MARKER = "summary.json"  # a folder holding this was written by cogendispatch
+
+
+def check_out_dir(out: Path) -> None:
+    """Refuse to replace a folder that is not an earlier cogendispatch output."""
+    if out.exists() and not out.is_dir():
+        raise InputError(out, "--out", "exists and is not a folder")
+    if out.is_dir() and any(out.iterdir()) and not (out / MARKER).exists():
+        raise InputError(out, "--out", "is a non-empty folder that does not hold cogendispatch results; "
+                         "choose a new or empty folder (nothing was written)")
+
+
+def atomic_dir(out: str | Path, write: Callable[[Path], None]) -> Path:
+    """Call ``write(tmp)`` to fill a temporary folder, then put it in place of ``out``.
+
+    An interruption before the swap leaves ``out`` exactly as it was; the swap itself is two
+    renames on the same file system.
+    """
+    out = Path(out).resolve()
+    check_out_dir(out)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
+    try:
+        write(tmp)
+        old = None
+        if out.exists():
+            old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
+            os.rmdir(old)
+            os.replace(out, old)
+        os.replace(tmp, out)
+        if old is not None:
+            shutil.rmtree(old, ignore_errors=True)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    return out
+
+
+def _safe_text(x: object) -> object:
+    """Quote text a spreadsheet would read as a formula (starting with = + - @)."""
+    if isinstance(x, str) and x[:1] in ("=", "+", "-", "@"):
+        return "'" + x
+    return x
+
+
+def write_csv(df: pd.DataFrame, path: Path, index: bool = True) -> None:
+    """CSV with text cells that could be read as formulas quoted."""
+    out = df.copy()
+    for c in out.columns:
+        if out[c].dtype == object or pd.api.types.is_string_dtype(out[c]):
+            out[c] = out[c].map(_safe_text)
+    out.to_csv(path, index=index, float_format="%.6g")
+
+
+def write_json(obj: object, path: Path) -> None:
+    path.write_text(json.dumps(obj, indent=2, default=str) + "\n", encoding="utf-8")

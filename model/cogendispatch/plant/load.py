@@ -1,0 +1,282 @@
+"""Read a site file (TOML), validate it and check that its references and physics agree."""
+
+from __future__ import annotations
+
+import tomllib
+from pathlib import Path
+from typing import Any
+
+from pydantic import ValidationError
+
+from ..errors import InputError, InputErrors
+from ..steam import P_CRIT_BAR, SteamPropertyError, header_state, saturation_temperature
+from .schema import SiteConfig
+
+_TABLE_NAMES = {
+    "headers": "header", "fuels": "fuel", "boilers": "boiler", "turbogenerators": "turbogenerator",
+    "drives": "drive", "letdowns": "letdown", "vents": "vent", "condensers": "condenser",
+    "sections": "section",
+}
+
+
+def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
+    """Turn a pydantic error location into 'boiler 'B2' (2nd [[boiler]]) > max_steam'."""
+    parts: list[str] = []
+    node = raw
+    i = 0
+    while i < len(loc):
+        key = loc[i]
+        name = _TABLE_NAMES.get(str(key), str(key))
+        nxt = loc[i + 1] if i + 1 < len(loc) else None
+        if isinstance(nxt, int):
+            item = None
+            if isinstance(node, dict):
+                seq = node.get(name, node.get(key))
+                if isinstance(seq, list) and nxt < len(seq):
+                    item = seq[nxt]
+            ident = item.get("id") if isinstance(item, dict) else None
+            label = f"[[{name}]] #{nxt + 1}"
+            if ident is not None:
+                label += f" (id '{ident}')"
+            parts.append(label)
+            node = item
+            i += 2
+            continue
+        parts.append(name)
+        node = node.get(name, node.get(key)) if isinstance(node, dict) else None
+        i += 1
+    return " > ".join(parts) if parts else "(top level)"
+
+
+def _pydantic_problems(path: Path, raw: dict[str, Any], err: ValidationError) -> list[InputError]:
+    out = []
+    for e in err.errors():
+        loc = tuple(x for x in e["loc"] if not (isinstance(x, str) and x.startswith("function-")))
+        msg = e["msg"]
+        if e["type"] == "extra_forbidden":
+            msg = "unknown key (check the spelling; see plant_configs/ for a complete example)"
+        elif e["type"] == "missing":
+            msg = "required key is missing"
+        msg = msg.removeprefix("Value error, ")
+        out.append(InputError(path, _describe_loc(raw, loc), msg))
+    return out
+
+
+def parse_site(raw: dict[str, Any], path: str | Path = "<site>") -> SiteConfig:
+    """Validate a parsed site table and check its references and physics.
+
+    Raises
+    ------
+    InputErrors with one entry per problem, each naming the table and key.
+    """
+    path = Path(path)
+    try:
+        cfg = SiteConfig.model_validate(raw)
+    except ValidationError as err:
+        raise InputErrors(_pydantic_problems(path, raw, err)) from None
+    problems = check_site(cfg, path)
+    if problems:
+        raise InputErrors(problems)
+    return cfg
+
+
+def load_site(path: str | Path) -> SiteConfig:
+    """Load and validate a site file.
+
+    Parameters
+    ----------
+    path : a TOML file describing the site (see ``plant_configs/`` for an example)
+    """
+    path = Path(path)
+    try:
+        text = path.read_bytes().decode("utf-8")
+    except FileNotFoundError:
+        raise InputError(path, "", "file not found") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(path, "", f"cannot read the file ({exc})") from None
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(path, "", f"not valid TOML: {exc}") from None
+    return parse_site(raw, path)
+
+
+def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
+    """Cross-table checks: ids, references, pressure order, saturation, min <= max."""
+    problems: list[InputError] = []
+
+    def bad(where: str, msg: str) -> None:
+        problems.append(InputError(path, where, msg))
+
+    tables = {
+        "header": cfg.headers, "fuel": cfg.fuels, "boiler": cfg.boilers,
+        "turbogenerator": cfg.turbogenerators, "drive": cfg.drives, "letdown": cfg.letdowns,
+        "vent": cfg.vents, "condenser": cfg.condensers,
+    }
+    seen: dict[str, str] = {}
+    for kind, items in tables.items():
+        for k, item in enumerate(items):
+            if item.id in seen:
+                bad(f"[[{kind}]] #{k + 1} > id", f"duplicated id '{item.id}' (also a {seen[item.id]})")
+            else:
+                seen[item.id] = kind
+
+    headers = {h.id: h for h in cfg.headers}
+    condensers = {c.id: c for c in cfg.condensers}
+    fuels = {f.id: f for f in cfg.fuels}
+
+    def where(kind: str, uid: str, key: str) -> str:
+        return f"[[{kind}]] '{uid}' > {key}"
+
+    def need_header(kind: str, uid: str, key: str, ref: str) -> bool:
+        if ref not in headers:
+            known = ", ".join(headers) or "none"
+            bad(where(kind, uid, key), f"unknown header '{ref}' (headers: {known})")
+            return False
+        return True
+
+    for h in cfg.headers:
+        if h.pressure >= P_CRIT_BAR:
+            bad(where("header", h.id, "pressure"), f"{h.pressure:.2f} bar(a) is above the critical pressure")
+            continue
+        try:
+            header_state(h.pressure, h.temperature)
+        except SteamPropertyError as exc:
+            bad(where("header", h.id, "temperature"), str(exc))
+        if h.pressure <= 0:
+            bad(where("header", h.id, "pressure"), "pressure must be positive")
+
+    if not cfg.boilers:
+        bad("[[boiler]]", "the site has no boiler: nothing raises steam")
+
+    for b in cfg.boilers:
+        need_header("boiler", b.id, "header", b.header)
+        for f in b.fuels:
+            if f not in fuels:
+                bad(where("boiler", b.id, "fuels"), f"unknown fuel '{f}' (fuels: {', '.join(fuels) or 'none'})")
+        if b.max_steam <= 0:
+            bad(where("boiler", b.id, "max_steam"), "must be positive")
+        if b.min_steam < 0:
+            bad(where("boiler", b.id, "min_steam"), "must not be negative")
+        if b.min_steam > b.max_steam:
+            bad(where("boiler", b.id, "min_steam"), f"min_steam {b.min_steam:g} t/h exceeds max_steam {b.max_steam:g} t/h")
+        if b.efficiency_curve.load[-1] < 1.0 - 1e-9:
+            bad(where("boiler", b.id, "efficiency_curve"), "the curve must reach full load (load = 1.0)")
+        if b.max_steam > 0 and b.efficiency_curve.load[0] > b.min_steam / b.max_steam + 1e-9:
+            bad(where("boiler", b.id, "efficiency_curve"), "the curve must start at or below the minimum stable load")
+        for key in ("ramp_up", "ramp_down"):
+            v = getattr(b, key)
+            if v is not None and v <= 0:
+                bad(where("boiler", b.id, key), "must be positive")
+        if b.initial_steam is not None and b.initial_on and not (b.min_steam - 1e-9 <= b.initial_steam <= b.max_steam + 1e-9):
+            bad(where("boiler", b.id, "initial_steam"), "must lie between min_steam and max_steam")
+        if b.min_up < 1 or b.min_down < 1:
+            bad(where("boiler", b.id, "min_up"), "min_up and min_down must be at least 1 h")
+
+    for t in cfg.turbogenerators:
+        if not need_header("turbogenerator", t.id, "inlet", t.inlet):
+            continue
+        p_prev = headers[t.inlet].pressure
+        for k, sec in enumerate(t.sections):
+            key = f"section #{k + 1} > to"
+            last = k == len(t.sections) - 1
+            if sec.to in headers:
+                p_to = headers[sec.to].pressure
+            elif sec.to in condensers and last:
+                p_to = condensers[sec.to].pressure
+            elif sec.to in condensers:
+                bad(where("turbogenerator", t.id, key), f"'{sec.to}' is a condenser: only the last section may exhaust to it")
+                break
+            else:
+                bad(where("turbogenerator", t.id, key), f"unknown header or condenser '{sec.to}'")
+                break
+            if p_to >= p_prev:
+                bad(where("turbogenerator", t.id, key),
+                    f"'{sec.to}' at {p_to:.2f} bar(a) is not below the previous point at {p_prev:.2f} bar(a): steam cannot expand upwards")
+            p_prev = p_to
+            if sec.efficiency is None and (t.envelope is None or sec.to in condensers):
+                bad(where("turbogenerator", t.id, f"section #{k + 1} > efficiency"),
+                    "required unless the turbine gives an 'envelope' (and always for a section exhausting to a condenser,"
+                    " whose exhaust enthalpy sets the cooling duty)")
+            if last and sec.max_extraction is not None:
+                bad(where("turbogenerator", t.id, f"section #{k + 1} > max_extraction"), "the last section exhausts; use max_flow")
+            if sec.max_extraction is not None and sec.min_extraction > sec.max_extraction:
+                bad(where("turbogenerator", t.id, f"section #{k + 1} > min_extraction"), "exceeds max_extraction")
+            if sec.max_flow is not None and sec.min_flow > sec.max_flow:
+                bad(where("turbogenerator", t.id, f"section #{k + 1} > min_flow"), "exceeds max_flow")
+        if t.min_throttle > t.max_throttle:
+            bad(where("turbogenerator", t.id, "min_throttle"), f"min_throttle {t.min_throttle:g} t/h exceeds max_throttle {t.max_throttle:g} t/h")
+        if t.max_throttle <= 0:
+            bad(where("turbogenerator", t.id, "max_throttle"), "must be positive")
+        if t.generator_rating <= 0:
+            bad(where("turbogenerator", t.id, "generator_rating"), "must be positive")
+        if t.no_load_loss < 0:
+            bad(where("turbogenerator", t.id, "no_load_loss"), "must not be negative")
+        if t.envelope is not None:
+            extr = {s.to for s in t.sections[:-1]}
+            for key in t.envelope.extraction:
+                if key not in extr:
+                    bad(where("turbogenerator", t.id, f"envelope > extraction > {key}"),
+                        f"'{key}' is not an extraction of this turbine (extractions: {', '.join(sorted(extr)) or 'none'})")
+        if t.fixed_throttle is not None and not (t.min_throttle <= t.fixed_throttle <= t.max_throttle):
+            bad(where("turbogenerator", t.id, "fixed_throttle"), "must lie between min_throttle and max_throttle")
+
+    for d in cfg.drives:
+        if d.duty <= 0:
+            bad(where("drive", d.id, "duty"), "must be positive")
+        st = d.steam_turbine
+        if st is not None:
+            ok = need_header("drive", d.id, "steam_turbine > inlet", st.inlet)
+            ok = need_header("drive", d.id, "steam_turbine > exhaust", st.exhaust) and ok
+            if ok and headers[st.exhaust].pressure >= headers[st.inlet].pressure:
+                bad(where("drive", d.id, "steam_turbine > exhaust"),
+                    f"exhaust header '{st.exhaust}' is not at a lower pressure than inlet '{st.inlet}'")
+        if d.normal == "steam" and st is None:
+            bad(where("drive", d.id, "normal"), "'steam' but the machine has no steam_turbine")
+        if d.normal == "motor" and d.motor is None:
+            bad(where("drive", d.id, "normal"), "'motor' but the machine has no motor")
+        if d.initial_on_steam is not None and not (0 <= d.initial_on_steam <= d.count):
+            bad(where("drive", d.id, "initial_on_steam"), f"must be between 0 and count ({d.count})")
+
+    for ld in cfg.letdowns:
+        ok = need_header("letdown", ld.id, "from", ld.source)
+        ok = need_header("letdown", ld.id, "to", ld.to) and ok
+        if ok and headers[ld.to].pressure >= headers[ld.source].pressure:
+            bad(where("letdown", ld.id, "to"), f"'{ld.to}' is not at a lower pressure than '{ld.source}'")
+        if ld.max_flow <= 0:
+            bad(where("letdown", ld.id, "max_flow"), "must be positive")
+        if ld.min_flow > ld.max_flow:
+            bad(where("letdown", ld.id, "min_flow"), "exceeds max_flow")
+
+    for v in cfg.vents:
+        need_header("vent", v.id, "header", v.header)
+        if v.max_flow < 0:
+            bad(where("vent", v.id, "max_flow"), "must not be negative")
+
+    for c in cfg.condensers:
+        if c.ejector_header is not None:
+            need_header("condenser", c.id, "ejector_header", c.ejector_header)
+        elif c.ejector_steam > 0:
+            bad(where("condenser", c.id, "ejector_header"), "required when ejector_steam is given")
+        if c.cooling_capacity <= 0:
+            bad(where("condenser", c.id, "cooling_capacity"), "must be positive")
+        if c.pressure >= 1.0:
+            bad(where("condenser", c.id, "pressure"), f"{c.pressure:.3f} bar(a) is not a vacuum; a back-pressure exhaust goes to a header")
+
+    da = cfg.deaerator
+    if need_header("deaerator", "deaerator", "heating_steam", da.heating_steam):
+        if headers[da.heating_steam].pressure <= da.pressure:
+            bad("[deaerator] > heating_steam", "the heating-steam header must be above the deaerator pressure")
+    try:
+        t_da = saturation_temperature(da.pressure)
+        if da.makeup_temperature >= t_da or da.condensate_temperature >= t_da:
+            bad("[deaerator] > makeup_temperature", f"make-up and condensate must be below the deaerator saturation temperature {t_da:.1f} degC")
+    except SteamPropertyError as exc:
+        bad("[deaerator] > pressure", str(exc))
+
+    g = cfg.grid
+    if g.max_import < 0 or g.max_export < 0 or g.min_import < 0:
+        bad("[grid]", "limits must not be negative")
+    if g.min_import > g.max_import:
+        bad("[grid] > min_import", "exceeds max_import")
+    return problems

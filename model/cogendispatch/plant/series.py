@@ -1,0 +1,212 @@
+"""Hourly time series: process steam demand, site electric load and prices.
+
+File layout (CSV, or the first sheet of an Excel workbook), one row per hour::
+
+    time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh],price:export [per MWh],price:fuel:NG [per GJ],price:co2 [per t],duty:P101 [kW]
+
+Every column but ``time`` names its unit in brackets; values are converted to the internal
+units on load. ``price:fuel:<id>``, ``price:co2``, ``price:export`` and ``duty:<drive>`` are
+optional: a missing fuel price or drive duty falls back to the site file, a missing CO2 or
+export price to zero. Demand may be negative (a process waste-heat boiler exporting steam).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..errors import InputError
+from ..units import UnitError, column_factor
+from .schema import SiteConfig
+
+_COL_RE = re.compile(r"^\s*([A-Za-z][A-Za-z0-9_:\-]*)\s*\[\s*([^\]]+?)\s*\]\s*$")
+
+
+@dataclass(frozen=True)
+class Series:
+    """Validated hourly inputs in internal units, all indexed by the same hourly ``time``."""
+
+    time: pd.DatetimeIndex
+    demand: pd.DataFrame  # [t/h] columns: header ids
+    load: pd.Series  # [MW]
+    price_import: pd.Series  # [currency/MWh]
+    price_export: pd.Series  # [currency/MWh]
+    fuel_price: pd.DataFrame  # [currency/GJ] columns: fuel ids
+    co2_price: pd.Series  # [currency/t]
+    duty: pd.DataFrame  # [MW] columns: drive ids (shaft power of one machine)
+    source: str = ""
+
+    @property
+    def hours(self) -> int:
+        return len(self.time)
+
+    def window(self, start: int, length: int) -> "Series":
+        """Hours ``start`` .. ``start + length - 1`` as a new Series."""
+        sl = slice(start, start + length)
+        return Series(
+            time=self.time[sl], demand=self.demand.iloc[sl], load=self.load.iloc[sl],
+            price_import=self.price_import.iloc[sl], price_export=self.price_export.iloc[sl],
+            fuel_price=self.fuel_price.iloc[sl], co2_price=self.co2_price.iloc[sl],
+            duty=self.duty.iloc[sl], source=self.source,
+        )
+
+
+_KIND = {
+    "demand": "mass_flow", "load": "power", "duty": "power",
+    "price:import": "price_power", "price:export": "price_power",
+    "price:fuel": "price_energy", "price:co2": "price_mass",
+}
+
+
+def _read_table(path: Path) -> pd.DataFrame:
+    try:
+        if path.suffix.lower() in (".xlsx", ".xlsm", ".xls"):
+            return pd.read_excel(path, dtype=str, sheet_name=0)
+        return pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+    except FileNotFoundError:
+        raise InputError(path, "", "file not found") from None
+    except Exception as exc:  # parser errors from pandas/openpyxl come in many types
+        raise InputError(path, "", f"cannot read the table ({type(exc).__name__}: {exc})") from None
+
+
+def load_series(path: str | Path, site: SiteConfig) -> Series:
+    """Load and validate an hourly series for ``site``.
+
+    Parameters
+    ----------
+    path : CSV or Excel file, one row per hour (see the module docstring)
+    site : the validated site, used to check header, fuel and drive references
+
+    Raises
+    ------
+    InputError naming the file and the column or row at fault.
+    """
+    path = Path(path)
+    raw = _read_table(path)
+    return parse_series(raw, site, path)
+
+
+def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<series>") -> Series:
+    """Validate a table of strings (as read from CSV/Excel) into a :class:`Series`."""
+    path = Path(path)
+    if raw.shape[0] == 0:
+        raise InputError(path, "", "no rows")
+    cols = [str(c) for c in raw.columns]
+    if "time" not in cols:
+        raise InputError(path, "header row", "missing column 'time'")
+    time = _parse_time(raw["time"], path)
+
+    headers = {h.id for h in site.headers}
+    fuels = {f.id for f in site.fuels}
+    drives = {d.id for d in site.drives}
+    values: dict[tuple[str, str], pd.Series] = {}
+    for col in cols:
+        if col == "time":
+            continue
+        m = _COL_RE.match(col)
+        if not m:
+            raise InputError(path, f"column '{col}'", "write the column as 'name [unit]', e.g. 'demand:LP [t/h]'")
+        name, unit = m.group(1), m.group(2)
+        parts = name.split(":")
+        if parts[0] == "demand" and len(parts) == 2:
+            kind, ref, known = "demand", parts[1], headers
+        elif parts[0] == "duty" and len(parts) == 2:
+            kind, ref, known = "duty", parts[1], drives
+        elif parts[:2] == ["price", "fuel"] and len(parts) == 3:
+            kind, ref, known = "price:fuel", parts[2], fuels
+        elif name in ("load", "price:import", "price:export", "price:co2"):
+            kind, ref, known = name, "", None
+        else:
+            raise InputError(path, f"column '{col}'", f"unknown column '{name}' (expected demand:<header>, load, "
+                             "price:import, price:export, price:fuel:<fuel>, price:co2, duty:<drive>)")
+        if known is not None and ref not in known:
+            raise InputError(path, f"column '{col}'", f"unknown {'header' if kind == 'demand' else 'fuel' if kind == 'price:fuel' else 'drive'} '{ref}'")
+        try:
+            scale, offset = column_factor(unit, _KIND[kind])
+        except UnitError as exc:
+            raise InputError(path, f"column '{col}'", str(exc)) from None
+        key = (kind, ref)
+        if key in values:
+            raise InputError(path, f"column '{col}'", "duplicated column")
+        values[key] = _numeric(raw[col], path, col) * scale + offset
+
+    n = len(time)
+    idx = time
+
+    def col_or(kind: str, ref: str, default: float | None, what: str) -> pd.Series:
+        s = values.get((kind, ref))
+        if s is None:
+            if default is None:
+                raise InputError(path, "header row", f"missing column for {what}")
+            return pd.Series(np.full(n, default), index=idx)
+        return pd.Series(s.to_numpy(), index=idx)
+
+    demand = pd.DataFrame({h.id: col_or("demand", h.id, 0.0, "") for h in site.headers}, index=idx)
+    load = col_or("load", "", None, "the site electric load, e.g. 'load [MW]'")
+    if (load < 0).any():
+        row = int(np.argmax(load.to_numpy() < 0))
+        raise InputError(path, f"row {row + 2}, column 'load'", "the site electric load must not be negative")
+    price_import = col_or("price:import", "", None, "the import price, e.g. 'price:import [per MWh]'")
+    price_export = col_or("price:export", "", 0.0, "")
+    fuel_price = pd.DataFrame({f.id: col_or("price:fuel", f.id, f.price, "") for f in site.fuels}, index=idx)
+    co2 = col_or("price:co2", "", 0.0, "")
+    duty = pd.DataFrame({d.id: col_or("duty", d.id, d.duty, "") for d in site.drives}, index=idx)
+    for d in site.drives:
+        if (duty[d.id] < 0).any():
+            row = int(np.argmax(duty[d.id].to_numpy() < 0))
+            raise InputError(path, f"row {row + 2}, column 'duty:{d.id}'", "duty must not be negative")
+    return Series(time=idx, demand=demand, load=load, price_import=price_import, price_export=price_export,
+                  fuel_price=fuel_price, co2_price=co2, duty=duty, source=str(path))
+
+
+def _numeric(col: pd.Series, path: Path, name: str) -> pd.Series:
+    """Parse a column of strings to floats; a blank, text or NaN cell is an error naming its row."""
+    text = col.astype(str).str.strip()
+    num = pd.to_numeric(text, errors="coerce")
+    bad = num.isna() | ~np.isfinite(num.to_numpy(dtype=float, na_value=np.nan))
+    if bad.any():
+        i = int(np.argmax(bad.to_numpy()))
+        cell = text.iloc[i]
+        what = "an empty cell" if cell in ("", "nan", "None") else f"'{cell}' is not a finite number"
+        raise InputError(path, f"row {i + 2}, column '{name}'", what)
+    return num.astype(float).reset_index(drop=True)
+
+
+def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
+    """Parse the ``time`` column and check it is strictly hourly with no gap or repeat."""
+    text = col.astype(str).str.strip()
+    has_offset = text.str.contains(r"(?:[+-]\d\d:?\d\d|Z)$", regex=True)
+    if has_offset.any() and not has_offset.all():
+        i = int(np.argmax((has_offset != has_offset.iloc[0]).to_numpy()))
+        raise InputError(path, f"row {i + 2}, column 'time'",
+                         "mixes times with and without a UTC offset; give every row an offset or none")
+    parsed = []
+    for i, t in enumerate(text):
+        try:
+            ts = pd.Timestamp(t)
+        except (ValueError, TypeError):
+            raise InputError(path, f"row {i + 2}, column 'time'", f"'{t}' is not a date and time") from None
+        if ts is pd.NaT or (isinstance(ts, float) and math.isnan(ts)) or pd.isna(ts):
+            raise InputError(path, f"row {i + 2}, column 'time'", "empty time")
+        parsed.append(ts.tz_convert("UTC") if ts.tzinfo is not None else ts)
+    idx = pd.DatetimeIndex(parsed)
+    if len(idx) > 1:
+        step = np.diff(((idx - idx[0]) / pd.Timedelta(hours=1)).to_numpy(dtype=float))  # [h]
+        for i, d in enumerate(step):
+            if d == 1.0:
+                continue
+            row = i + 3
+            if d == 0:
+                raise InputError(path, f"row {row}, column 'time'", f"duplicated hour {text.iloc[i + 1]}")
+            if d < 0:
+                raise InputError(path, f"row {row}, column 'time'", f"{text.iloc[i + 1]} is before the previous row: rows must be in time order")
+            if d > 1:
+                raise InputError(path, f"row {row}, column 'time'",
+                                 f"{d - 1:g} missing hour(s) before {text.iloc[i + 1]} (a daylight-saving gap? give UTC offsets)")
+            raise InputError(path, f"row {row}, column 'time'", "rows must be exactly one hour apart")
+    return idx

@@ -1,0 +1,192 @@
+"""Solved schedules as tidy pandas DataFrames, cost breakdowns and shortfall diagnoses."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+import pyomo.environ as pyo
+
+from .plant.schema import Boiler, Condenser, Drive, Letdown, TurboGenerator, Vent
+from .site import SiteModel
+
+TOL = 1e-5  # [t/h] or [MW]: below this a slack counts as zero
+
+
+def _val(x: object) -> float:
+    """Numeric value of a Pyomo expression, variable or number (unset variables count 0)."""
+    if isinstance(x, (int, float, np.floating)):
+        return float(x)
+    v = pyo.value(x, exception=False)
+    return 0.0 if v is None else float(v)
+
+
+def _series(fn, hours: list[int]) -> np.ndarray:  # noqa: ANN001
+    return np.array([_val(fn(t)) for t in hours])
+
+
+@dataclass
+class PlanResults:
+    """Everything a plan writes: the schedule, the balances, costs and the diagnosis."""
+
+    schedule: pd.DataFrame
+    balances: pd.DataFrame
+    power: pd.DataFrame
+    hourly_cost: pd.DataFrame
+    totals: dict[str, object]
+    diagnosis: list[str] = field(default_factory=list)
+
+    @property
+    def feasible(self) -> bool:
+        return not self.diagnosis
+
+
+def schedule_frame(sm: SiteModel) -> pd.DataFrame:
+    """One row per hour, one column per unit quantity: ``<unit>.<quantity>_<unit of measure>``."""
+    ctx, m = sm.ctx, sm.model
+    hours = ctx.hours
+    cols: dict[str, np.ndarray] = {}
+    for uid, blk in sm.blocks.items():
+        u = getattr(blk, "unit", None)
+        if isinstance(u, Boiler):
+            cols[f"{uid}.on"] = _series(lambda t: blk.on[t], hours).round()
+            cols[f"{uid}.steam_t_h"] = _series(lambda t: blk.steam[t], hours)
+            cols[f"{uid}.fuel_GJ_h"] = _series(lambda t: blk.fuel[t], hours)
+            for f in u.fuels:
+                cols[f"{uid}.fuel_{f}_GJ_h"] = _series(lambda t, f=f: blk.burn[f, t], hours)
+            cols[f"{uid}.start"] = _series(lambda t: blk.start[t], hours).round()
+        elif isinstance(u, TurboGenerator):
+            co = blk.coefficients
+            cols[f"{uid}.on"] = _series(lambda t: blk.on[t], hours).round()
+            cols[f"{uid}.throttle_t_h"] = _series(lambda t: blk.throttle[t], hours)
+            for k, sec in enumerate(co.sections[:-1]):
+                cols[f"{uid}.extraction_{sec.to}_t_h"] = _series(lambda t, k=k: blk.extraction[k, t], hours)
+            last = co.sections[-1]
+            n = len(co.sections) - 1
+            cols[f"{uid}.exhaust_{last.to}_t_h"] = _series(lambda t: blk.flow[n, t], hours)
+            cols[f"{uid}.power_MW"] = _series(lambda t: blk.power[t], hours)
+        elif isinstance(u, Drive):
+            on_steam = _series(blk.machines_on_steam, hours).round()
+            cols[f"{uid}.on_steam"] = on_steam
+            cols[f"{uid}.on_motor"] = u.count - on_steam
+            if hasattr(blk, "steam_flow"):
+                cols[f"{uid}.steam_t_h"] = _series(blk.steam_flow, hours)
+            if u.motor is not None:
+                duty = ctx.series.duty[uid].to_numpy()
+                cols[f"{uid}.motor_MW"] = duty / u.motor.efficiency * (u.count - on_steam)
+        elif isinstance(u, Letdown):
+            cols[f"{uid}.flow_t_h"] = _series(lambda t: blk.flow[t], hours)
+            cols[f"{uid}.water_t_h"] = cols[f"{uid}.flow_t_h"] * (blk.ratio - 1.0)
+        elif isinstance(u, Vent):
+            cols[f"{uid}.flow_t_h"] = _series(lambda t: blk.flow[t], hours)
+        elif isinstance(u, Condenser):
+            cols[f"{uid}.in_service"] = _series(lambda t: blk.in_service[t], hours).round()
+            cols[f"{uid}.flow_t_h"] = _series(blk.flow, hours)
+            cols[f"{uid}.duty_MW"] = _series(blk.duty, hours)
+    da = m.deaerator
+    cols["deaerator.steam_t_h"] = _series(lambda t: da.steam[t], hours)
+    cols["deaerator.makeup_t_h"] = _series(lambda t: da.makeup[t], hours)
+    cols["deaerator.feedwater_t_h"] = _series(da.feedwater, hours)
+    cols["grid.import_MW"] = _series(lambda t: m.grid.imp[t], hours)
+    cols["grid.export_MW"] = _series(lambda t: m.grid.exp[t], hours)
+    df = pd.DataFrame(cols, index=pd.Index(ctx.series.time, name="time"))
+    return df.where(df.abs() > 1e-9, 0.0)
+
+
+def balance_frames(sm: SiteModel) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Every term of every header balance [t/h] and of the electric balance [MW], long format.
+
+    Positive flows go into the header (or bus), negative ones leave it; each (time, header)
+    group sums to zero.
+    """
+    ctx = sm.ctx
+    hours, time = ctx.hours, ctx.series.time
+    rows = []
+    for h in [hh.id for hh in ctx.cfg.headers]:
+        for term in ctx.header_terms[h]:
+            rows.append(pd.DataFrame({"time": time, "header": h, "term": term.label,
+                                      "flow_t_h": _series(term.expr, hours)}))
+    bal = pd.concat(rows, ignore_index=True)
+    prow = [pd.DataFrame({"time": time, "term": term.label, "power_MW": _series(term.expr, hours)})
+            for term in ctx.power_terms]
+    power = pd.concat(prow, ignore_index=True)
+    return bal, power
+
+
+def cost_frame(sm: SiteModel) -> pd.DataFrame:
+    """Cost per hour and category [currency]."""
+    ctx = sm.ctx
+    data = {cat: sum((_series(term, ctx.hours) for term in terms), np.zeros(len(ctx.hours)))
+            for cat, terms in ctx.cost_terms.items()}
+    return pd.DataFrame(data, index=pd.Index(ctx.series.time, name="time"))
+
+
+def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
+    """Consecutive runs of True as (first, last) hour indices."""
+    out, start = [], None
+    for i, v in enumerate(mask):
+        if v and start is None:
+            start = i
+        if not v and start is not None:
+            out.append((start, i - 1))
+            start = None
+    if start is not None:
+        out.append((start, len(mask) - 1))
+    return out
+
+
+def diagnose(sm: SiteModel) -> list[str]:
+    """Name each header (or the electric bus, or the reserve) that is short, when and by how much."""
+    m, ctx = sm.model, sm.ctx
+    hours, time = ctx.hours, ctx.series.time
+    msgs = []
+
+    def report(values: np.ndarray, what: str, unit: str, hint: str) -> None:
+        for a, b in _runs(values > TOL):
+            peak = values[a:b + 1].max()
+            span = f"hour {a}" if a == b else f"hours {a}-{b}"
+            msgs.append(f"{what} {peak:.2f} {unit} at most in {span} "
+                        f"({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M}); {hint}")
+
+    for h in ctx.cfg.headers:
+        report(_series(lambda t, h=h.id: m.steam_short[h, t], hours), f"{h.id} header short", "t/h",
+               "the units that feed it are at their limits")
+        report(_series(lambda t, h=h.id: m.steam_surplus[h, t], hours), f"{h.id} header surplus", "t/h",
+               "nothing can take this steam (add a vent or letdown, or lower minimum flows)")
+    report(_series(lambda t: m.power_short[t], hours), "electric bus short", "MW",
+           "generation plus the import limit cannot meet the load")
+    report(_series(lambda t: m.power_surplus[t], hours), "electric bus surplus", "MW",
+           "generation above load plus the export limit")
+    report(_series(lambda t: m.reserve_short[t], hours), "steam reserve short", "t/h",
+           "losing the largest running boiler could not be covered")
+    return msgs
+
+
+def plan_results(sm: SiteModel) -> PlanResults:
+    """Collect the schedule, balances, costs, totals and diagnosis of a solved model."""
+    cfg, ctx = sm.ctx.cfg, sm.ctx
+    sched = schedule_frame(sm)
+    bal, power = balance_frames(sm)
+    cost = cost_frame(sm)
+    fuel = {}
+    co2 = 0.0
+    factors = {f.id: f.co2_factor for f in cfg.fuels}
+    for b in cfg.boilers:
+        for f in b.fuels:
+            used = float(sched[f"{b.id}.fuel_{f}_GJ_h"].sum())
+            fuel[f] = fuel.get(f, 0.0) + used
+            co2 += used * factors[f]
+    totals: dict[str, object] = {
+        "cost": {k: float(v) for k, v in cost.sum().items()},
+        "fuel_GJ": {k: float(v) for k, v in fuel.items()},
+        "fuel_total_GJ": float(sum(fuel.values())),
+        "import_MWh": float(sched["grid.import_MW"].sum()),
+        "export_MWh": float(sched["grid.export_MW"].sum()),
+        "co2_t": float(co2),
+        "boiler_starts": {b.id: int(sched[f"{b.id}.start"].sum()) for b in cfg.boilers},
+        "running_hours": {u.id: int(sched[f"{u.id}.on"].sum()) for u in (*cfg.boilers, *cfg.turbogenerators)},
+        "drive_hours": {d.id: {"steam": float(sched[f"{d.id}.on_steam"].sum()),
+                               "motor": float(sched[f"{d.id}.on_motor"].sum())} for d in cfg.drives},
+    }
+    return PlanResults(sched, bal, power, cost, totals, diagnose(sm))

@@ -1,0 +1,124 @@
+"""The site model: equipment blocks joined by header, power and feedwater balances.
+
+Balances carry shortfall and surplus slacks priced far above any real cost, so an
+impossible week still has a schedule and the slacks say where and when it breaks.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import pyomo.environ as pyo
+
+from .equipment import REGISTRY
+from .equipment.common import ModelContext, SiteStates, Term
+from .equipment.deaerator import add_deaerator
+from .equipment.grid import add_grid
+from .plant.schema import SiteConfig
+from .plant.series import Series
+
+
+@dataclass(frozen=True)
+class BuildOptions:
+    """Switches for the model: ``reserve`` overrides the site file's reserve setting."""
+
+    reserve: bool | None = None
+
+
+@dataclass
+class SiteModel:
+    """A built Pyomo model with its registry and build time."""
+
+    model: pyo.ConcreteModel
+    ctx: ModelContext
+    build_seconds: float
+    blocks: dict[str, pyo.Block] = field(default_factory=dict)
+
+
+def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = BuildOptions()) -> SiteModel:
+    """Build the dispatch MILP for ``series.hours`` hours.
+
+    Parameters
+    ----------
+    cfg : validated site
+    series : hourly demands and prices
+    options : model switches
+
+    Returns
+    -------
+    SiteModel with the Pyomo model; objective in currency over the horizon.
+    """
+    t0 = time.perf_counter()
+    states = SiteStates.of(cfg)
+    hours = list(range(series.hours))
+    ctx = ModelContext(cfg=cfg, series=series, states=states, hours=hours)
+    m = pyo.ConcreteModel(name=cfg.site.name)
+    m.T = pyo.Set(initialize=hours, ordered=True)
+    blocks: dict[str, pyo.Block] = {}
+    for attr, builder in REGISTRY:
+        for unit in getattr(cfg, attr):
+            blocks[unit.id] = builder(m, unit, ctx)
+    blocks["grid"] = add_grid(m, cfg.grid, ctx)
+    blocks["deaerator"] = add_deaerator(m, cfg.deaerator, ctx)
+
+    # process demand
+    demand = series.demand
+    for h in cfg.headers:
+        d = demand[h.id].to_numpy()
+        if (d != 0).any():
+            ctx.header_terms[h.id].append(Term("process", "process demand", lambda t, d=d: -float(d[t])))
+
+    # shortfall/surplus slacks and the balances
+    H = [h.id for h in cfg.headers]
+    pen = cfg.penalties
+    m.steam_short = pyo.Var(H, m.T, within=pyo.NonNegativeReals)
+    m.steam_surplus = pyo.Var(H, m.T, within=pyo.NonNegativeReals)
+    for h in H:
+        ctx.header_terms[h].append(Term("balance", "shortfall (unmet)", lambda t, h=h: m.steam_short[h, t]))
+        ctx.header_terms[h].append(Term("balance", "surplus (unabsorbed)", lambda t, h=h: -m.steam_surplus[h, t]))
+    m.header_balance = pyo.Constraint(
+        H, m.T, rule=lambda mm, h, t: sum(term.expr(t) for term in ctx.header_terms[h]) == 0)
+
+    load = series.load.to_numpy()
+    ctx.power_terms.append(Term("process", "site load", lambda t: -float(load[t])))
+    m.power_short = pyo.Var(m.T, within=pyo.NonNegativeReals)
+    m.power_surplus = pyo.Var(m.T, within=pyo.NonNegativeReals)
+    ctx.power_terms.append(Term("balance", "shortfall (unmet)", lambda t: m.power_short[t]))
+    ctx.power_terms.append(Term("balance", "surplus (unabsorbed)", lambda t: -m.power_surplus[t]))
+    m.power_balance = pyo.Constraint(
+        m.T, rule=lambda mm, t: sum(term.expr(t) for term in ctx.power_terms) == 0)
+
+    # fuel availability
+    for f in cfg.fuels:
+        if f.max_supply is not None and ctx.fuel_use.get(f.id):
+            uses = ctx.fuel_use[f.id]
+            m.add_component(f"supply_{f.id}", pyo.Constraint(
+                m.T, rule=lambda mm, t, uses=uses, cap=f.max_supply: sum(u(t) for u in uses) <= cap))
+
+    # steam reserve: the spare capacity of the other running boilers covers any one of them
+    use_reserve = cfg.reserve.enabled if options.reserve is None else options.reserve
+    m.reserve_short = pyo.Var(m.T, within=pyo.NonNegativeReals)
+    if use_reserve and ctx.boilers:
+        bs = ctx.boilers
+        cover = cfg.reserve.cover
+        spare = lambda t: sum(b.unit.max_steam * b.on[t] - b.steam[t] for b in bs)  # noqa: E731
+        m.reserve = pyo.Constraint(
+            range(len(bs)), m.T,
+            rule=lambda mm, i, t: spare(t) - (bs[i].unit.max_steam * bs[i].on[t] - bs[i].steam[t])
+            + m.reserve_short[t] >= cover * bs[i].steam[t])
+        # number of boilers in service as a general integer: branching on it moves the
+        # bound of the reserve much faster than branching on single boilers
+        m.boilers_on = pyo.Var(m.T, within=pyo.NonNegativeIntegers, bounds=(0, len(bs)))
+        m.boilers_on_def = pyo.Constraint(m.T, rule=lambda mm, t: mm.boilers_on[t] == sum(b.on[t] for b in bs))
+    else:
+        for t in hours:
+            m.reserve_short[t].fix(0)
+
+    ctx.cost_terms["penalty"].append(lambda t: sum(
+        pen.steam_shortfall * m.steam_short[h, t] + pen.steam_surplus * m.steam_surplus[h, t] for h in H)
+        + pen.power_shortfall * m.power_short[t] + pen.power_surplus * m.power_surplus[t]
+        + pen.steam_shortfall * m.reserve_short[t])
+    m.cost = pyo.Objective(expr=sum(term(t) for terms in ctx.cost_terms.values() for term in terms
+                                    for t in hours), sense=pyo.minimize)
+    return SiteModel(m, ctx, time.perf_counter() - t0, blocks)

@@ -1,0 +1,280 @@
+"""Solve a site model with HiGHS: a rounding start, the MILP, status, gap and timings.
+
+Pyomo builds the model and hands it to HiGHS once (``load``). HiGHS's own heuristics find
+it hard to commit boilers so that every header is supplied in every hour, so the solve
+first builds a start: the LP relaxation, its commitment and driver choices rounded and
+repaired to honour minimum up/down times and switching limits, the rest re-optimised.
+The MILP then starts from that schedule and closes the gap.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+from typing import Callable
+
+import highspy
+import numpy as np
+import pyomo.environ as pyo
+from pyomo.contrib.solver.solvers.highs import Highs
+
+from .equipment.common import repair_commitment, repair_switching
+from .errors import SolveError
+from .site import SiteModel
+
+Progress = Callable[[str], None]
+
+
+@dataclass(frozen=True)
+class SolveOptions:
+    """gap : relative MIP gap [-]; time_limit : [s]; threads : HiGHS threads;
+    warm_start : build the rounding start first."""
+
+    gap: float = 1e-3
+    time_limit: float = 120.0
+    threads: int = 1
+    warm_start: bool = True
+
+
+@dataclass
+class SolveReport:
+    status: str  # "optimal", "time limit", "infeasible", ...
+    objective: float
+    bound: float
+    gap: float
+    seconds: dict[str, float] = field(default_factory=dict)
+    start_objective: float | None = None
+
+    @property
+    def has_solution(self) -> bool:
+        return math.isfinite(self.objective)
+
+
+_STATUS = {
+    highspy.HighsModelStatus.kOptimal: "optimal",
+    highspy.HighsModelStatus.kTimeLimit: "time limit",
+    highspy.HighsModelStatus.kInfeasible: "infeasible",
+    highspy.HighsModelStatus.kUnboundedOrInfeasible: "infeasible",
+    highspy.HighsModelStatus.kUnbounded: "unbounded",
+    highspy.HighsModelStatus.kInterrupt: "interrupted",
+    highspy.HighsModelStatus.kIterationLimit: "iteration limit",
+    highspy.HighsModelStatus.kSolutionLimit: "solution limit",
+}
+
+
+class LoadedModel:
+    """A site model loaded into a persistent HiGHS instance, with the column map."""
+
+    def __init__(self, sm: SiteModel, threads: int = 1) -> None:
+        t0 = time.perf_counter()
+        self.sm = sm
+        self.opt = Highs()
+        self.opt.config.threads = threads
+        self.opt.set_instance(sm.model)
+        self.h: highspy.Highs = self.opt._solver_model
+        self.h.setOptionValue("output_flag", False)
+        self.h.setOptionValue("threads", threads)
+        colmap = self.opt._pyomo_var_to_solver_var_map
+        self.vars = [entry[0] for entry in self.opt._vars.values()]
+        self.cols = np.array([colmap[id(v)] for v in self.vars], dtype=np.int64)
+        lp = self.h.getLp()
+        self.integrality = np.array(lp.integrality_, dtype=np.int64) if len(lp.integrality_) else np.zeros(lp.num_col_, dtype=np.int64)
+        self.int_cols = np.flatnonzero(self.integrality != 0)
+        self.col_lower = np.array(lp.col_lower_, dtype=float)
+        self.col_upper = np.array(lp.col_upper_, dtype=float)
+        self.colmap = colmap
+        self.load_seconds = time.perf_counter() - t0
+
+    def col(self, v: pyo.Var) -> int | None:
+        return self.colmap.get(id(v))
+
+    def _set_integrality(self, integral: bool) -> None:
+        if len(self.int_cols) == 0:
+            return
+        kind = self.integrality[self.int_cols] if integral else np.zeros(len(self.int_cols), dtype=np.int64)
+        self.h.changeColsIntegrality(len(self.int_cols), self.int_cols.astype(np.int32),
+                                     np.array([highspy.HighsVarType(int(k)) for k in kind]))
+
+    def _run(self, time_limit: float, gap: float | None = None) -> None:
+        self.h.setOptionValue("time_limit", max(0.1, float(time_limit)))
+        if gap is not None:
+            self.h.setOptionValue("mip_rel_gap", gap)
+        self.h.run()
+
+    def solution(self) -> np.ndarray:
+        return np.array(self.h.getSolution().col_value, dtype=float)
+
+    def rounding_start(self, time_limit: float, threshold: float = 0.05, fix_drives: bool = True) -> np.ndarray | None:
+        """LP relaxation, rounded and repaired commitment and drivers, then re-optimised.
+
+        Returns the full column vector of a feasible schedule, or None.
+        """
+        t_end = time.perf_counter() + time_limit
+        self._set_integrality(False)
+        self._run(time_limit)
+        lp_ok = self.h.getModelStatus() == highspy.HighsModelStatus.kOptimal
+        x = self.solution()
+        self._set_integrality(True)
+        if not lp_ok:
+            return None
+        fix_cols: list[int] = []
+        fix_vals: list[float] = []
+        m = self.sm.model
+        for blk in m.component_data_objects(pyo.Block, descend_into=False):
+            info = getattr(blk, "commit_info", None)
+            if info is not None:
+                on = [blk.on[t] for t in m.T]
+                fixed = {t: int(round(v.value)) for t, v in enumerate(on) if v.fixed}
+                # round up: a unit partly on in the relaxation is there for its capacity
+                # (reserve, minimum loads elsewhere); committing it keeps the start feasible
+                wanted = [int(round(v.value)) if v.fixed else int(x[self.col(v)] >= threshold) for v in on]
+                seq = repair_commitment(wanted, fixed, info)
+                for v, s in zip(on, seq):
+                    c = self.col(v)
+                    if c is not None:
+                        fix_cols.append(c)
+                        fix_vals.append(float(s))
+            sw = getattr(blk, "switch_info", None)
+            if fix_drives and sw is not None and hasattr(blk, "on_steam"):
+                gap_h, init = sw
+                count = blk.unit.count
+                avg = [sum(x[self.col(blk.on_steam[k, t])] for k in range(count)) / count for t in m.T]
+                init01 = None if init is None else int(round(init / count))
+                seq = repair_switching([int(a >= 0.5) for a in avg], gap_h, init01)
+                for k in range(count):
+                    for t, s in zip(m.T, seq):
+                        fix_cols.append(self.col(blk.on_steam[k, t]))
+                        fix_vals.append(float(s))
+        if not fix_cols:
+            return x
+        idx = np.array(fix_cols, dtype=np.int32)
+        vals = np.array(fix_vals)
+        self.h.changeColsBounds(len(idx), idx, vals, vals)
+        try:
+            self._run(max(0.5, t_end - time.perf_counter()), gap=1e-3)
+            ok = self.h.getModelStatus() == highspy.HighsModelStatus.kOptimal or (
+                self.h.getInfo().primal_solution_status == 2)
+            start = self.solution() if ok else None
+            self.start_objective = float(self.h.getInfo().objective_function_value) if ok else None
+        finally:
+            self.h.changeColsBounds(len(idx), idx, self.col_lower[idx], self.col_upper[idx])
+        return start
+
+    def unit_int_cols(self) -> list[tuple[str, np.ndarray]]:
+        """Integer columns of each committed unit (boilers, turbo-generators), by unit id."""
+        out = []
+        for blk in self.sm.model.component_data_objects(pyo.Block, descend_into=False):
+            if getattr(blk, "commit_info", None) is None:
+                continue
+            cols = [self.col(v) for v in blk.component_data_objects(pyo.Var) if v.is_integer()]
+            cols = [c for c in cols if c is not None]
+            if cols:
+                out.append((blk.unit.id, np.array(sorted(cols), dtype=np.int32)))
+        return out
+
+    def improve(self, x: np.ndarray, obj: float, time_limit: float) -> tuple[np.ndarray, float]:
+        """Fix-and-optimise: free one committed unit's (then each pair's) on/off decisions,
+        hold every other integer decision at the incumbent, re-solve; keep improvements.
+
+        A local search around the incumbent that the MILP's own heuristics do not reach
+        quickly on reserve-constrained sites.
+        """
+        t_end = time.perf_counter() + time_limit
+        units = self.unit_int_cols()
+        groups = [[u] for u in range(len(units))]
+        groups += [[a, b] for a in range(len(units)) for b in range(a + 1, len(units))]
+        for g in groups:
+            left = t_end - time.perf_counter()
+            if left < 0.5:
+                break
+            free = np.concatenate([units[i][1] for i in g])
+            hold = np.setdiff1d(self.int_cols, free).astype(np.int32)
+            vals = np.round(x[hold])
+            self.h.changeColsBounds(len(hold), hold, vals, vals)
+            try:
+                sol = highspy.HighsSolution()
+                sol.col_value = list(x)
+                sol.value_valid = True
+                self.h.setSolution(sol)
+                self._run(min(left, 10.0), gap=1e-4)
+                info = self.h.getInfo()
+                if info.primal_solution_status == 2 and info.objective_function_value < obj - 1e-6 * abs(obj):
+                    x, obj = self.solution(), float(info.objective_function_value)
+            finally:
+                self.h.changeColsBounds(len(hold), hold, self.col_lower[hold], self.col_upper[hold])
+        return x, obj
+
+    def solve_mip(self, options: SolveOptions, progress: Progress | None = None) -> SolveReport:
+        """Solve the MILP (after the rounding start) and load the schedule into the model."""
+        secs: dict[str, float] = {"build": self.sm.build_seconds, "load": self.load_seconds}
+        t0 = time.perf_counter()
+        start_obj = None
+        start = None
+        if options.warm_start and len(self.int_cols) > 0:
+            if progress:
+                progress("finding a starting schedule (LP relaxation, rounded)")
+            start = self.rounding_start(min(options.time_limit / 2, 60.0), fix_drives=False, threshold=0.01)
+            if start is not None:
+                start_obj = self.start_objective
+                if progress:
+                    progress(f"improving the start ({start_obj:,.0f}) unit by unit")
+                start, start_obj = self.improve(start, start_obj, min(options.time_limit / 3, 30.0))
+        secs["start"] = time.perf_counter() - t0
+        t1 = time.perf_counter()
+        if start is not None:
+            sol = highspy.HighsSolution()
+            sol.col_value = list(start)
+            sol.value_valid = True
+            self.h.setSolution(sol)
+        if progress:
+            self.h.setOptionValue("mip_improving_solution_save", False)
+            last = [0.0]
+
+            def _cb(callback_type, message, data_out, data_in, user_data):  # noqa: ANN001
+                now = time.perf_counter()
+                if now - last[0] >= 2.0:
+                    last[0] = now
+                    p, d = data_out.objective_function_value, data_out.mip_dual_bound
+                    g = data_out.mip_gap
+                    progress(f"solving: best {p:,.0f}, bound {d:,.0f}, gap {100 * g:.2f} %")
+
+            self.h.setCallback(_cb, None)
+            self.h.startCallback(highspy.cb.HighsCallbackType.kCallbackMipInterrupt)
+        remaining = max(1.0, options.time_limit - (time.perf_counter() - t0))
+        self._run(remaining, gap=options.gap)
+        if progress:
+            self.h.stopCallback(highspy.cb.HighsCallbackType.kCallbackMipInterrupt)
+        secs["solve"] = time.perf_counter() - t1
+        status = _STATUS.get(self.h.getModelStatus(), str(self.h.getModelStatus()).split(".")[-1])
+        info = self.h.getInfo()
+        has = info.primal_solution_status == 2
+        obj = float(info.objective_function_value) if has else float("nan")
+        if len(self.int_cols):
+            bound = float(info.mip_dual_bound)
+            gap = float(info.mip_gap) if has else float("inf")
+        else:
+            bound, gap = obj, 0.0
+        if has:
+            x = self.solution()
+            for v, c in zip(self.vars, self.cols):
+                v.set_value(x[c], skip_validation=True)
+        secs["total"] = sum(secs[k] for k in ("build", "load", "start", "solve"))
+        return SolveReport(status=status, objective=obj, bound=bound, gap=gap, seconds=secs,
+                           start_objective=start_obj)
+
+
+def solve(sm: SiteModel, options: SolveOptions = SolveOptions(), progress: Progress | None = None) -> SolveReport:
+    """Load ``sm`` into HiGHS and solve it; the schedule is loaded back into the Pyomo model.
+
+    Raises
+    ------
+    SolveError when the solver stops with no schedule at all.
+    """
+    lm = LoadedModel(sm, threads=options.threads)
+    rep = lm.solve_mip(options, progress)
+    if not rep.has_solution:
+        raise SolveError(f"HiGHS stopped ({rep.status}) without any schedule; "
+                         "try a longer --time-limit or check the site for contradictory limits")
+    sm.loaded = lm  # kept for re-solves (marginal prices)
+    return rep

@@ -1,0 +1,192 @@
+"""Quantities with units, converted once on load into the plant's internal SI units.
+
+Internal units: pressure bar(a), temperature degC, mass flow t/h, power MW, energy GJ,
+specific enthalpy kJ/kg, steam rate kg/kWh, emission factor t/GJ, time h. Prices are
+numbers of the site's currency per internal unit (per GJ, per MWh, per t).
+
+A value is written as a number followed by its unit, e.g. ``"42 bar(a)"``, ``"150 psig"``,
+``"400 degC"``, ``"120 t/h"``, ``"850 kW"``; a price as ``"7.5 per GJ"`` or ``"7.5 /MMBtu"``.
+Gauge pressures (``bar(g)``, ``barg``, ``psig``, ``kPa(g)``) are referred to the standard
+atmosphere, 1.01325 bar (ISO 2533 / ICAO standard atmosphere).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from functools import lru_cache
+
+import pint
+
+STANDARD_ATMOSPHERE_BAR = 1.01325  # [bar] ISO 2533 standard atmosphere
+
+
+class UnitError(ValueError):
+    """A value has no unit, an unknown unit, or a unit of the wrong dimension."""
+
+
+_ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+_ureg.define("MMBtu = 1e6 * british_thermal_unit")
+_ureg.define("MMBTU = MMBtu")
+_ureg.define("klb = 1000 * pound")
+_ureg.define("Mlb = 1e6 * pound")
+
+# kind -> (internal unit, a description for messages)
+KINDS: dict[str, tuple[str, str]] = {
+    "pressure": ("bar", "a pressure such as '42 bar(a)', '40 bar(g)' or '600 psig'"),
+    "temperature": ("degC", "a temperature such as '400 degC', '750 degF' or '673 K'"),
+    "mass_flow": ("t/h", "a mass flow such as '120 t/h', '30 kg/s' or '250 klb/h'"),
+    "power": ("MW", "a power such as '12 MW', '850 kW' or '1200 hp'"),
+    "energy": ("GJ", "an energy such as '5 GJ' or '4.7 MMBtu'"),
+    "specific_energy": ("kJ/kg", "a specific energy such as '150 kJ/kg' or '65 Btu/lb'"),
+    "steam_rate": ("kg/kWh", "a steam rate such as '12 kg/kWh' or '26 lb/kWh'"),
+    "emission_factor": ("t/GJ", "an emission factor such as '0.0561 t/GJ' or '53 kg/MMBtu'"),
+    "power_per_flow": ("MWh/t", "power per unit flow such as '85 kWh/t' ('85 kW per t/h')"),
+    "time": ("h", "a duration such as '4 h' or '30 min'"),
+    "heat_rate": ("GJ/h", "a heat flow such as '150 GJ/h' or '140 MMBtu/h'"),
+}
+
+# kind -> (energy/mass/... unit the price is per, description)
+PRICE_KINDS: dict[str, tuple[str, str]] = {
+    "price_energy": ("GJ", "a price such as '7.5 per GJ' or '8 per MMBtu'"),
+    "price_power": ("MWh", "a price such as '85 per MWh' or '0.085 per kWh'"),
+    "price_mass": ("t", "a price such as '2.5 per t' or '1.1 per klb'"),
+    "price_start": ("", "a cost per event such as '1500'"),
+}
+
+_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
+_VALUE_RE = re.compile(rf"^\s*({_NUMBER})\s*(.*?)\s*$")
+_PRICE_RE = re.compile(rf"^\s*({_NUMBER})\s*(?:per\b|/)\s*(.+?)\s*$")
+
+_GAUGE = {"bar(g)": "bar", "barg": "bar", "psig": "psi", "kpa(g)": "kPa", "kpag": "kPa"}
+_ABS = {"bar(a)": "bar", "bara": "bar", "psia": "psi", "kpa(a)": "kPa", "mpa(a)": "MPa"}
+_ALIASES = {"°c": "degC", "°f": "degF", "c": "degC", "f": "degF", "tph": "t/h", "klb/hr": "klb/h"}
+
+
+def _normalise_unit(unit: str) -> tuple[str, bool]:
+    """Map trade spellings onto pint; return (pint unit, is_gauge)."""
+    key = unit.strip().lower().replace(" ", "")
+    if key in _GAUGE:
+        return _GAUGE[key], True
+    if key in _ABS:
+        return _ABS[key], False
+    if key in _ALIASES:
+        return _ALIASES[key], False
+    return unit.strip().replace("/hr", "/h"), False
+
+
+@lru_cache(maxsize=1024)
+def _factor(unit: str, target: str) -> tuple[float, float]:
+    """Linear map (scale, offset) from ``unit`` to ``target``: y = scale * x + offset."""
+    q0 = _ureg.Quantity(0.0, unit).to(target).magnitude
+    q1 = _ureg.Quantity(1.0, unit).to(target).magnitude
+    return q1 - q0, q0
+
+
+def convert(value: float, unit: str, kind: str) -> float:
+    """Convert a number in ``unit`` to the internal unit of ``kind``.
+
+    Parameters
+    ----------
+    value : the number, in ``unit``
+    unit : a unit string understood by pint or a trade spelling (psig, bar(g), t/h ...)
+    kind : one of :data:`KINDS`
+
+    Raises
+    ------
+    UnitError for an unknown unit or one of the wrong dimension.
+    """
+    target, desc = KINDS[kind]
+    pint_unit, gauge = _normalise_unit(unit)
+    if gauge and kind != "pressure":
+        raise UnitError(f"'{unit}' is a gauge pressure unit; expected {desc}")
+    try:
+        scale, offset = _factor(pint_unit, target)
+    except pint.errors.DimensionalityError:
+        raise UnitError(f"'{unit}' is not {desc}") from None
+    except (pint.errors.UndefinedUnitError, AttributeError, TypeError, ValueError, AssertionError):
+        raise UnitError(f"unknown unit '{unit}'; expected {desc}") from None
+    except Exception:  # pint raises assorted parser errors on malformed unit strings
+        raise UnitError(f"unknown unit '{unit}'; expected {desc}") from None
+    out = scale * value + offset
+    if gauge:
+        out += STANDARD_ATMOSPHERE_BAR
+    return out
+
+
+def parse_quantity(text: object, kind: str) -> float:
+    """Parse ``"<number> <unit>"`` into the internal unit of ``kind``.
+
+    Parameters
+    ----------
+    text : the value as written in the site file, e.g. ``"150 psig"``
+    kind : one of :data:`KINDS` or :data:`PRICE_KINDS`
+
+    Returns
+    -------
+    The value in the internal unit (see the module docstring).
+
+    Raises
+    ------
+    UnitError when the unit is missing, unknown or of the wrong dimension.
+    """
+    if kind in PRICE_KINDS:
+        return parse_price(text, kind)
+    desc = KINDS[kind][1]
+    if isinstance(text, bool) or not isinstance(text, str):
+        raise UnitError(f"{text!r} has no unit; write {desc}")
+    m = _VALUE_RE.match(text)
+    if not m:
+        raise UnitError(f"'{text}' is not a number followed by a unit; write {desc}")
+    number, unit = m.group(1), m.group(2)
+    if not unit:
+        raise UnitError(f"'{text}' has no unit; write {desc}")
+    out = convert(float(number), unit, kind)
+    if not math.isfinite(out):
+        raise UnitError(f"'{text}' is not a finite number")
+    return out
+
+
+def parse_price(text: object, kind: str) -> float:
+    """Parse a price ``"<number> per <unit>"`` into currency per internal unit.
+
+    Parameters
+    ----------
+    text : e.g. ``"7.5 per GJ"``, ``"8 /MMBtu"``, ``"85 per MWh"``, ``"2 per t"``; for
+        ``price_start`` a plain number (currency per start)
+    kind : one of :data:`PRICE_KINDS`
+    """
+    per, desc = PRICE_KINDS[kind]
+    if kind == "price_start":
+        if isinstance(text, bool) or not isinstance(text, (int, float)):
+            raise UnitError(f"{text!r} is not a number; write {desc}")
+        return float(text)
+    if isinstance(text, bool) or not isinstance(text, str):
+        raise UnitError(f"{text!r} has no unit; write {desc}")
+    m = _PRICE_RE.match(text)
+    if not m:
+        raise UnitError(f"'{text}' is not a price; write {desc}")
+    return float(m.group(1)) / price_unit_factor(m.group(2), kind)
+
+
+def price_unit_factor(unit: str, kind: str) -> float:
+    """How many internal units one ``unit`` is (e.g. 1 MMBtu = 1.055 GJ) [-]."""
+    per, desc = PRICE_KINDS[kind]
+    pint_unit, _ = _normalise_unit(unit)
+    try:
+        return float(_ureg.Quantity(1.0, pint_unit).to(per).magnitude)
+    except pint.errors.DimensionalityError:
+        raise UnitError(f"'per {unit}' is not {desc}") from None
+    except Exception:
+        raise UnitError(f"unknown unit '{unit}'; expected {desc}") from None
+
+
+def column_factor(unit: str, kind: str) -> tuple[float, float]:
+    """Scale and offset that take a series column in ``unit`` to the internal unit.
+
+    For prices (``kind`` in :data:`PRICE_KINDS`) ``unit`` is written ``per MWh`` etc.
+    """
+    if kind in PRICE_KINDS:
+        u = re.sub(r"^\s*(per\b|/)\s*", "", unit)
+        return 1.0 / price_unit_factor(u, kind), 0.0
+    return convert(1.0, unit, kind) - convert(0.0, unit, kind), convert(0.0, unit, kind)

@@ -1,0 +1,271 @@
+"""Checks of cogendispatch.units: parse_quantity, parse_price, column_factor.
+
+Internal units: pressure bar(a), temperature degC, mass flow t/h, power MW, energy GJ;
+prices per GJ, per MWh, per t.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from cogendispatch.units import UnitError, column_factor, parse_price, parse_quantity
+
+# --- conversion constants, each with its source ---------------------------------------
+ATM_BAR = 1.01325  # [bar] standard atmosphere, 101 325 Pa (ISO 2533:1975; exact)
+LB_KG = 0.45359237  # [kg] international avoirdupois pound (NIST SP 811, App. B; exact)
+G_N = 9.80665  # [m/s2] standard acceleration of gravity (NIST SP 811 / 3rd CGPM 1901; exact)
+INCH_M = 0.0254  # [m] (NIST SP 811, App. B; exact)
+FOOT_M = 0.3048  # [m] (NIST SP 811, App. B; exact)
+PSI_BAR = LB_KG * G_N / INCH_M**2 / 1e5  # lbf/in2 = 6894.757 Pa (NIST SP 811, App. B)
+HP_W = 550.0 * FOOT_M * LB_KG * G_N  # 550 ft lbf/s = 745.69987 W (NIST SP 811, App. B)
+BTU_J = 1055.056  # [J] British thermal unit, International Table (NIST SP 811, App. B)
+
+REL = 1e-9
+
+
+def P(text):
+    return parse_quantity(text, "pressure")
+
+
+# --- pressure ---------------------------------------------------------------------------
+
+
+def test_constants_sanity():
+    assert PSI_BAR * 1e5 == pytest.approx(6894.757, rel=1e-7)  # NIST SP 811: 6.894 757 E+03 Pa
+    assert HP_W == pytest.approx(745.69987, rel=1e-7)  # NIST SP 811: 7.456 999 E+02 W
+
+
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("42 bar(a)", 42.0),
+        ("42 bara", 42.0),
+        ("42 bar", 42.0),
+        ("40 bar(g)", 40.0 + ATM_BAR),  # gauge + standard atmosphere (ISO 2533)
+        ("40 barg", 40.0 + ATM_BAR),  # gauge + standard atmosphere (ISO 2533)
+        ("0 bar(g)", ATM_BAR),  # ISO 2533
+        ("-0.5 bar(g)", ATM_BAR - 0.5),  # vacuum below atmosphere
+        ("150 psig", 150.0 * PSI_BAR + ATM_BAR),  # NIST SP 811 psi; ISO 2533 atmosphere
+        ("150 PSIG", 150.0 * PSI_BAR + ATM_BAR),
+        ("0 psig", ATM_BAR),  # ISO 2533
+        ("150 psia", 150.0 * PSI_BAR),  # NIST SP 811 psi
+        ("14.6959487755 psia", ATM_BAR),  # 1 atm in psi (ISO 2533 / NIST SP 811)
+        ("101.325 kPa", ATM_BAR),  # ISO 2533
+        ("500 kPa(g)", 5.0 + ATM_BAR),  # ISO 2533
+        ("4.2 MPa", 42.0),  # SI: 1 MPa = 10 bar
+        ("4.2 MPa(a)", 42.0),
+        ("1e2 bar(a)", 100.0),
+        (" 7.5bar(a) ", 7.5),
+    ],
+)
+def test_pressure(text, expected):
+    assert P(text) == pytest.approx(expected, rel=REL)
+
+
+def test_psi_value():
+    # 150 psig = 11.3554 bar(a): 150 x 0.0689476 bar (NIST SP 811) + 1.01325 (ISO 2533)
+    assert P("150 psig") == pytest.approx(11.355386, abs=1e-6)
+
+
+# --- temperature ------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("400 degC", 400.0),
+        ("400 °C", 400.0),
+        ("400 C", 400.0),
+        ("673.15 K", 400.0),  # T/degC = T/K - 273.15 (SI Brochure / NIST SP 811)
+        ("273.15 K", 0.0),
+        ("32 degF", 0.0),  # degF: T/degC = (T/degF - 32)/1.8 (NIST SP 811, App. B)
+        ("212 degF", 100.0),
+        ("212 °F", 100.0),
+        ("-40 degF", -40.0),
+        ("750 degF", (750.0 - 32.0) / 1.8),
+    ],
+)
+def test_temperature(text, expected):
+    assert parse_quantity(text, "temperature") == pytest.approx(expected, rel=REL, abs=1e-9)
+
+
+# --- mass flow --------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("120 t/h", 120.0),
+        ("120 tph", 120.0),
+        ("1 kg/s", 3.6),  # 3600 s/h / 1000 kg/t
+        ("30 kg/s", 108.0),
+        ("250 klb/h", 250.0 * LB_KG),  # 1 lb = 0.45359237 kg (NIST SP 811; exact)
+        ("250 klb/hr", 250.0 * LB_KG),
+        ("1000 kg/h", 1.0),
+    ],
+)
+def test_mass_flow(text, expected):
+    assert parse_quantity(text, "mass_flow") == pytest.approx(expected, rel=REL)
+
+
+# --- power and energy -------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("12 MW", 12.0),
+        ("850 kW", 0.85),
+        ("1000 hp", 1000.0 * HP_W / 1e6),  # mechanical hp, 745.69987 W (NIST SP 811)
+    ],
+)
+def test_power(text, expected):
+    assert parse_quantity(text, "power") == pytest.approx(expected, rel=REL)
+
+
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("5 GJ", 5.0),
+        ("5000 MJ", 5.0),
+        ("1 MMBtu", BTU_J * 1e6 / 1e9),  # Btu_IT = 1055.056 J (NIST SP 811)
+        ("4.7 MMBtu", 4.7 * BTU_J * 1e-3),
+    ],
+)
+def test_energy(text, expected):
+    assert parse_quantity(text, "energy") == pytest.approx(expected, rel=REL)
+
+
+def test_other_kinds():
+    # 1 Btu/lb = 2.326 kJ/kg (IT Btu, NIST SP 811; pint's rounded 1055.056 J gives 2.3260003)
+    assert parse_quantity("1 Btu/lb", "specific_energy") == pytest.approx(2.326, rel=1e-6)
+    # 1 lb/kWh = 0.45359237 kg/kWh (NIST SP 811)
+    assert parse_quantity("26 lb/kWh", "steam_rate") == pytest.approx(26 * LB_KG, rel=REL)
+    # 140 MMBtu/h = 147.70784 GJ/h (Btu_IT, NIST SP 811)
+    assert parse_quantity("140 MMBtu/h", "heat_rate") == pytest.approx(140 * BTU_J * 1e-3, rel=REL)
+    assert parse_quantity("30 min", "time") == pytest.approx(0.5, rel=REL)
+    assert parse_quantity("85 kWh/t", "power_per_flow") == pytest.approx(0.085, rel=REL)
+    # 53 kg/MMBtu -> t/GJ with Btu_IT (NIST SP 811)
+    assert parse_quantity("53 kg/MMBtu", "emission_factor") == pytest.approx(
+        53e-3 / (BTU_J * 1e-3), rel=REL
+    )
+
+
+# --- prices -----------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "text, kind, expected",
+    [
+        ("7.5 per GJ", "price_energy", 7.5),
+        ("7.5 /GJ", "price_energy", 7.5),
+        ("8 per MMBtu", "price_energy", 8.0 / (BTU_J * 1e-3)),  # Btu_IT (NIST SP 811)
+        ("8 /MMBtu", "price_energy", 8.0 / (BTU_J * 1e-3)),
+        ("85 per MWh", "price_power", 85.0),
+        ("0.085 per kWh", "price_power", 85.0),
+        ("0.085/kWh", "price_power", 85.0),
+        ("2.5 per t", "price_mass", 2.5),
+        ("1.1 per klb", "price_mass", 1.1 / LB_KG),  # 1 lb = 0.45359237 kg (NIST SP 811)
+    ],
+)
+def test_parse_price(text, kind, expected):
+    assert parse_price(text, kind) == pytest.approx(expected, rel=REL)
+    # parse_quantity delegates price kinds to parse_price
+    assert parse_quantity(text, kind) == pytest.approx(expected, rel=REL)
+
+
+def test_price_start_is_plain_number():
+    assert parse_price(1500, "price_start") == 1500.0
+    assert parse_price(1500.5, "price_start") == 1500.5
+    with pytest.raises(UnitError, match="not a number"):
+        parse_price("1500", "price_start")
+    with pytest.raises(UnitError):
+        parse_price(True, "price_start")
+
+
+@pytest.mark.parametrize(
+    "text, kind, match",
+    [
+        ("7.5", "price_energy", "not a price"),
+        (7.5, "price_energy", "no unit"),
+        ("7.5 per foo", "price_energy", "unknown unit"),
+        ("7.5 per t", "price_power", "is not a price"),
+    ],
+)
+def test_price_errors(text, kind, match):
+    with pytest.raises(UnitError, match=match):
+        parse_price(text, kind)
+
+
+# --- errors -----------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "text, kind, match",
+    [
+        ("42", "pressure", "has no unit"),  # bare number in a string
+        (42, "pressure", "has no unit"),  # a number as int
+        (42.0, "pressure", "has no unit"),  # a number as float
+        (True, "pressure", "has no unit"),
+        (None, "pressure", "has no unit"),
+        ("42 foo", "pressure", "unknown unit"),
+        ("42 t/h", "pressure", "is not a pressure"),  # wrong dimension
+        ("10 degC", "pressure", "is not a pressure"),
+        ("5 kg", "mass_flow", "is not a mass flow"),
+        ("150 psig", "temperature", "gauge pressure"),  # gauge unit for a temperature
+        ("40 bar(g)", "temperature", "gauge pressure"),
+        ("abc bar", "pressure", "not a number followed by a unit"),
+        ("", "pressure", "not a number followed by a unit"),
+        ("1e400 bar", "pressure", "not a finite number"),
+    ],
+)
+def test_parse_quantity_errors(text, kind, match):
+    with pytest.raises(UnitError, match=match) as info:
+        parse_quantity(text, kind)
+    assert str(info.value)  # a message is given
+
+
+def test_unit_error_is_value_error():
+    assert issubclass(UnitError, ValueError)
+
+
+# --- column_factor ----------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "unit, kind, scale, offset",
+    [
+        ("bar(a)", "pressure", 1.0, 0.0),
+        ("psig", "pressure", PSI_BAR, ATM_BAR),  # NIST SP 811 psi; ISO 2533 atmosphere
+        ("bar(g)", "pressure", 1.0, ATM_BAR),  # ISO 2533
+        ("degF", "temperature", 1.0 / 1.8, -32.0 / 1.8),  # NIST SP 811, App. B
+        ("K", "temperature", 1.0, -273.15),
+        ("kg/s", "mass_flow", 3.6, 0.0),
+        ("klb/h", "mass_flow", LB_KG, 0.0),  # NIST SP 811
+        ("kW", "power", 1e-3, 0.0),
+        ("hp", "power", HP_W / 1e6, 0.0),  # NIST SP 811
+        ("per MMBtu", "price_energy", 1.0 / (BTU_J * 1e-3), 0.0),  # NIST SP 811 Btu_IT
+        ("/kWh", "price_power", 1000.0, 0.0),
+        ("per klb", "price_mass", 1.0 / LB_KG, 0.0),  # NIST SP 811
+    ],
+)
+def test_column_factor(unit, kind, scale, offset):
+    a, b = column_factor(unit, kind)
+    assert a == pytest.approx(scale, rel=1e-9)
+    assert b == pytest.approx(offset, rel=1e-9, abs=1e-9)
+
+
+def test_column_factor_matches_parse_quantity():
+    a, b = column_factor("psig", "pressure")
+    assert a * 600.0 + b == pytest.approx(P("600 psig"), rel=REL)
+    a, b = column_factor("degF", "temperature")
+    assert a * 825.0 + b == pytest.approx(parse_quantity("825 degF", "temperature"), rel=REL)
+
+
+def test_column_factor_errors():
+    with pytest.raises(UnitError):
+        column_factor("t/h", "pressure")
+    with pytest.raises(UnitError):
+        column_factor("psig", "temperature")
+    with pytest.raises(UnitError):
+        column_factor("per foo", "price_energy")
