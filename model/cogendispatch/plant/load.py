@@ -9,7 +9,7 @@ from typing import Any
 from pydantic import ValidationError
 
 from ..errors import InputError, InputErrors
-from ..steam import P_CRIT_BAR, SteamPropertyError, header_state, saturation_temperature
+from ..steam import P_CRIT_BAR, SteamPropertyError, header_state, saturation_temperature, theoretical_steam_rate
 from .schema import SiteConfig
 
 _TABLE_NAMES = {
@@ -26,7 +26,9 @@ def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
     i = 0
     while i < len(loc):
         key = loc[i]
-        name = _TABLE_NAMES.get(str(key), str(key))
+        name = str(key)
+        if isinstance(node, dict) and key not in node and _TABLE_NAMES.get(name) in node:
+            name = _TABLE_NAMES[name]
         nxt = loc[i + 1] if i + 1 < len(loc) else None
         if isinstance(nxt, int):
             item = None
@@ -231,6 +233,19 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
             if ok and headers[st.exhaust].pressure >= headers[st.inlet].pressure:
                 bad(where("drive", d.id, "steam_turbine > exhaust"),
                     f"exhaust header '{st.exhaust}' is not at a lower pressure than inlet '{st.inlet}'")
+                ok = False
+            if st.steam_rate is not None and st.steam_rate <= 0:
+                bad(where("drive", d.id, "steam_turbine > steam_rate"), "must be positive")
+            elif st.steam_rate is not None and ok:
+                try:
+                    h = headers[st.inlet]
+                    tsr = theoretical_steam_rate(header_state(h.pressure, h.temperature), headers[st.exhaust].pressure)
+                    if st.steam_rate < tsr:
+                        bad(where("drive", d.id, "steam_turbine > steam_rate"),
+                            f"{st.steam_rate:g} kg/kWh is below the theoretical (isentropic) steam rate {tsr:.2f} kg/kWh "
+                            f"from '{st.inlet}' to '{st.exhaust}'")
+                except SteamPropertyError:
+                    pass  # the header itself is reported above
         if d.normal == "steam" and st is None:
             bad(where("drive", d.id, "normal"), "'steam' but the machine has no steam_turbine")
         if d.normal == "motor" and d.motor is None:
@@ -262,6 +277,11 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
             bad(where("condenser", c.id, "cooling_capacity"), "must be positive")
         if c.pressure >= 1.0:
             bad(where("condenser", c.id, "pressure"), f"{c.pressure:.3f} bar(a) is not a vacuum; a back-pressure exhaust goes to a header")
+        else:
+            try:
+                saturation_temperature(c.pressure)
+            except SteamPropertyError as exc:
+                bad(where("condenser", c.id, "pressure"), str(exc))
 
     da = cfg.deaerator
     if need_header("deaerator", "deaerator", "heating_steam", da.heating_steam):
@@ -269,8 +289,12 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
             bad("[deaerator] > heating_steam", "the heating-steam header must be above the deaerator pressure")
     try:
         t_da = saturation_temperature(da.pressure)
-        if da.makeup_temperature >= t_da or da.condensate_temperature >= t_da:
-            bad("[deaerator] > makeup_temperature", f"make-up and condensate must be below the deaerator saturation temperature {t_da:.1f} degC")
+        for key in ("makeup_temperature", "condensate_temperature"):
+            t_w = getattr(da, key)
+            if t_w >= t_da:
+                bad(f"[deaerator] > {key}", f"make-up and condensate must be below the deaerator saturation temperature {t_da:.1f} degC")
+            elif t_w <= 0:
+                bad(f"[deaerator] > {key}", f"{t_w:g} degC: liquid water must be above 0 degC")
     except SteamPropertyError as exc:
         bad("[deaerator] > pressure", str(exc))
 

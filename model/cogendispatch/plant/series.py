@@ -193,10 +193,15 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
             raise InputError(path, f"row {i + 2}, column 'time'", f"'{t}' is not a date and time") from None
         if ts is pd.NaT or (isinstance(ts, float) and math.isnan(ts)) or pd.isna(ts):
             raise InputError(path, f"row {i + 2}, column 'time'", "empty time")
+        if parsed and (ts.tzinfo is None) != (parsed[0].tzinfo is None):  # offsets the pattern misses, e.g. '... UTC', '+01'
+            raise InputError(path, f"row {i + 2}, column 'time'",
+                             "mixes times with and without a UTC offset; give every row an offset or none")
         parsed.append(ts.tz_convert("UTC") if ts.tzinfo is not None else ts)
     idx = pd.DatetimeIndex(parsed)
     if len(idx) > 1:
         step = np.diff(((idx - idx[0]) / pd.Timedelta(hours=1)).to_numpy(dtype=float))  # [h]
+        if (step < 0).any():  # report disorder first: a swapped pair otherwise reads as a gap
+            step = np.where(step < 0, step, 1.0)
         for i, d in enumerate(step):
             if d == 1.0:
                 continue

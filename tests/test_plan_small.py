@@ -1,0 +1,153 @@
+"""Tiny sites whose optimum is known by reasoning, solved through the whole model."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from cogendispatch.results import plan_results
+from cogendispatch.site import build_site_model
+from cogendispatch.solve import SolveOptions, solve
+from tiny import series, site
+
+FAST = SolveOptions(gap=1e-6, time_limit=30)
+
+DRIVE = {"id": "P1", "duty": "2 MW", "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": 0.6},
+         "motor": {"efficiency": 0.95}}
+TG = {"id": "TG", "inlet": "HP", "max_throttle": "80 t/h", "min_throttle": "5 t/h",
+      "generator_rating": "10 MW", "no_load_loss": "0.2 MW", "section": [{"to": "LP", "efficiency": 0.75}]}
+
+
+def run(cfg, ser):  # noqa: ANN001, ANN201
+    sm = build_site_model(cfg, ser)
+    rep = solve(sm, FAST)
+    return sm, rep, plan_results(sm)
+
+
+def test_cheap_power_runs_motors_and_letdown_carries_the_steam():
+    # Power at 5 /MWh is far below the cost of making it from steam (about 10 /GJ fuel),
+    # so the pump runs on its motor, the turbo-generator stays off and LP steam comes
+    # through the letdown.
+    cfg = site(drive=[DRIVE], turbogenerator=[dict(TG, initial_on=False)])
+    ser = series(cfg, 3, demand_LP=40.0, price_import=5.0)
+    sm, rep, res = run(cfg, ser)
+    s = res.schedule
+    assert rep.status == "optimal"
+    assert (s["P1.on_steam"] == 0).all()
+    assert (s["TG.on"] == 0).all()
+    assert (s["LD.flow_t_h"] > 30).all()
+
+
+def test_expensive_power_puts_the_drive_on_steam():
+    # At 400 /MWh, expanding the LP steam the process needs anyway through the pump's turbine
+    # (about 12 kg/kWh) is far cheaper than 2.1 MW of motor power; the extra fuel is only the
+    # shaft work taken out of the steam.
+    cfg = site(drive=[DRIVE])
+    _, rep, res = run(cfg, series(cfg, 3, demand_LP=40.0, price_import=400.0))
+    assert rep.status == "optimal"
+    assert (res.schedule["P1.on_steam"] == 1).all()
+    assert (res.schedule["LD.flow_t_h"] < 40).all()
+
+
+def test_expensive_power_runs_the_turbo_generator_before_the_drive_turbine():
+    # With a 75 % efficient generator set beside the 60 % efficient drive turbine, a tonne
+    # expanded HP->LP makes more power in the set (0.75 * 0.97 of the isentropic drop) than
+    # it saves on the motor (0.60 / 0.95): the set takes the steam, the pump stays on motor.
+    cfg = site(drive=[DRIVE], turbogenerator=[dict(TG, initial_on=False)])
+    _, rep, res = run(cfg, series(cfg, 3, demand_LP=40.0, price_import=400.0))
+    s = res.schedule
+    assert rep.status == "optimal"
+    assert (s["TG.on"] == 1).all() and (s["TG.power_MW"] > 3).all()
+    assert (s["P1.on_steam"] == 0).all()
+
+
+def _two_boilers(startup_cost: float) -> dict:
+    return [
+        {"id": "OLD", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.75, 0.75]}, "initial_on": True},
+        {"id": "NEW", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.90, 0.90]}, "initial_on": False,
+         "startup_cost": startup_cost},
+    ]
+
+
+def test_boiler_start_avoided_when_start_cost_exceeds_saving():
+    # 3 h at 40 t/h: switching from 75 % to 90 % efficiency saves about
+    # 40 t/h * 2.9 GJ/t * (1/0.75 - 1/0.90) * 10 /GJ * 3 h ~ 770 plus CO2 -- less than 50 000.
+    cfg = site(boiler=_two_boilers(50_000))
+    _, rep, res = run(cfg, series(cfg, 3, demand_LP=40.0))
+    assert (res.schedule["NEW.on"] == 0).all()
+    cfg = site(boiler=_two_boilers(10))  # and more than 10: start it
+    _, rep, res = run(cfg, series(cfg, 3, demand_LP=40.0))
+    assert res.schedule["NEW.on"].iloc[0] == 1
+
+
+def test_min_up_time_keeps_a_boiler_on_after_a_short_peak():
+    # B1 alone cannot carry hour 2 (130 t/h of demand); B2 must start, and with a 4 h
+    # minimum up time it stays on for 4 h although B1 could carry the other hours alone.
+    boilers = [
+        {"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}},
+        {"id": "B2", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "20 t/h",
+         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.70, 0.70]}, "initial_on": False,
+         "min_up": "4 h"},
+    ]
+    cfg = site(boiler=boilers, letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
+    demand = [30, 30, 130, 30, 30, 30, 30, 30]
+    _, rep, res = run(cfg, series(cfg, 8, demand_LP=demand))
+    on = res.schedule["B2.on"].to_numpy().astype(int).tolist()
+    # it runs exactly once, for exactly its minimum up time, covering hour 2 (starting in
+    # hour 1 or 2 costs the same: both are optimal)
+    assert on[2] == 1 and sum(on) == 4
+    first = on.index(1)
+    assert on[first:first + 4] == [1, 1, 1, 1] and first in (0, 1, 2)
+    assert not res.diagnosis
+
+
+def test_min_down_time_holds_a_stopped_boiler_off():
+    # The boiler was stopped 1 h before the horizon with a 3 h minimum down time: it may
+    # not run in hours 0-1 even though the demand there is short without it.
+    boilers = [{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}, "initial_on": False,
+                "initial_hours": "1 h", "min_down": "3 h"}]
+    cfg = site(boiler=boilers)
+    _, rep, res = run(cfg, series(cfg, 4, demand_LP=30.0))
+    assert res.schedule["B1.on"].tolist() == [0, 0, 1, 1]
+    # ... and the diagnosis says a header is short, when: with no boiler the slack lands on
+    # HP, whose steam the letdown would carry to LP
+    assert len(res.diagnosis) == 1
+    assert res.diagnosis[0].startswith("HP header short") and "hours 0-1" in res.diagnosis[0]
+
+
+def test_impossible_demand_is_diagnosed_by_header_and_hour():
+    cfg = site()
+    _, rep, res = run(cfg, series(cfg, 4, demand_LP=[50, 150, 160, 50]))
+    assert rep.has_solution
+    assert len(res.diagnosis) == 1
+    d = res.diagnosis[0]
+    assert d.startswith("LP header short") and "hours 1-2" in d
+    # the boiler is at its 100 t/h limit in the short hours, and 10 t/h more demand in
+    # hour 2 than in hour 1 is 10 t/h more shortfall
+    bal = res.balances
+    short = bal[(bal.term == "shortfall (unmet)") & (bal.header == "LP")].flow_t_h.to_numpy()
+    assert short[0] == pytest.approx(0, abs=1e-6) and short[3] == pytest.approx(0, abs=1e-6)
+    # (mass balance of LP: the deaerator's heating steam changes with the condensate returned)
+    da = res.schedule["deaerator.steam_t_h"].to_numpy()
+    assert short[2] - short[1] == pytest.approx(10.0 + da[2] - da[1], rel=1e-6)
+    assert res.schedule["B1.steam_t_h"].iloc[1:3].tolist() == pytest.approx([100, 100])
+
+
+def test_balances_close_and_limits_hold_on_a_tiny_site():
+    cfg = site(drive=[DRIVE], turbogenerator=[TG])
+    ser = series(cfg, 6, demand_LP=[20, 40, 60, 50, 30, 25], demand_HP=5.0,
+                 price_import=[50, 80, 200, 200, 80, 50])
+    sm, rep, res = run(cfg, ser)
+    sums = res.balances.groupby(["time", "header"]).flow_t_h.sum()
+    assert np.abs(sums.to_numpy()).max() < 1e-6
+    psum = res.power.groupby("time").power_MW.sum()
+    assert np.abs(psum.to_numpy()).max() < 1e-6
+    s = res.schedule
+    assert (s["B1.steam_t_h"] <= 100 + 1e-6).all()
+    assert (s["TG.power_MW"] <= 10 + 1e-6).all()
+    on = s["TG.on"] == 1
+    assert (s.loc[on, "TG.throttle_t_h"] >= 5 - 1e-6).all()
