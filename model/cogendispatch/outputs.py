@@ -64,7 +64,7 @@ def write_csv(df: pd.DataFrame, path: Path, index: bool = True) -> None:
     for c in out.columns:
         if out[c].dtype == object or pd.api.types.is_string_dtype(out[c]):
             out[c] = out[c].map(_safe_text)
-    out.to_csv(path, index=index, float_format="%.6g")
+    out.to_csv(path, index=index, float_format="%.12g")
 
 
 def write_json(obj: object, path: Path) -> None:

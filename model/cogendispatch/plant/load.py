@@ -284,15 +284,16 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                 bad(where("condenser", c.id, "pressure"), str(exc))
 
     da = cfg.deaerator
-    if need_header("deaerator", "deaerator", "heating_steam", da.heating_steam):
-        if headers[da.heating_steam].pressure <= da.pressure:
-            bad("[deaerator] > heating_steam", "the heating-steam header must be above the deaerator pressure")
+    if da.heating_steam not in headers:  # [deaerator] is a single table, not [[deaerator]]
+        bad("[deaerator] > heating_steam", f"unknown header '{da.heating_steam}' (headers: {', '.join(headers) or 'none'})")
+    elif headers[da.heating_steam].pressure <= da.pressure:
+        bad("[deaerator] > heating_steam", "the heating-steam header must be above the deaerator pressure")
     try:
         t_da = saturation_temperature(da.pressure)
         for key in ("makeup_temperature", "condensate_temperature"):
             t_w = getattr(da, key)
             if t_w >= t_da:
-                bad(f"[deaerator] > {key}", f"make-up and condensate must be below the deaerator saturation temperature {t_da:.1f} degC")
+                bad(f"[deaerator] > {key}", f"{t_w:g} degC is not below the deaerator saturation temperature {t_da:.1f} degC")
             elif t_w <= 0:
                 bad(f"[deaerator] > {key}", f"{t_w:g} degC: liquid water must be above 0 degC")
     except SteamPropertyError as exc:

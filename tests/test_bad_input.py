@@ -1,0 +1,398 @@
+"""Bad input is refused with exit code 2 and a message naming the file and the place at fault.
+
+Every case starts from the valid demo site and series (copied into ``tmp_path``), breaks one
+thing, and runs the command line. Site errors go through ``cogen inspect`` (fast); series
+errors through ``cogen plan``, which must stop before building a model: every plan case here
+is invalid input, so nothing is solved and the ``--out`` folder is never created.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+from typing import Callable
+
+import pandas as pd
+import pytest
+
+from cogendispatch.cli import main
+
+DEMO_SITE_TEXT = (Path(__file__).resolve().parents[1] / "plant_configs" / "saltmarsh_refinery.toml").read_text(
+    encoding="utf-8")
+
+
+def _line_of(text: str) -> int:
+    """1-based line number of the first line of the demo site containing ``text``."""
+    return next(i for i, line in enumerate(DEMO_SITE_TEXT.splitlines(), start=1) if text in line)
+
+
+@pytest.fixture(autouse=True)
+def _wide_console(monkeypatch: pytest.MonkeyPatch) -> None:
+    # rich wraps at 80 columns when not on a terminal; keep each message on one line
+    monkeypatch.setenv("COLUMNS", "1000")
+
+
+# --------------------------------------------------------------------------- site edits
+Edit = Callable[[str], str]
+
+
+def sub(old: str, new: str) -> Edit:
+    """Replace the first ``old`` (which must be in the demo file) with ``new``."""
+
+    def edit(text: str) -> str:
+        assert old in text, f"the demo site no longer contains {old!r}"
+        return text.replace(old, new, 1)
+
+    return edit
+
+
+def chain(*edits: Edit) -> Edit:
+    def edit(text: str) -> str:
+        for e in edits:
+            text = e(text)
+        return text
+
+    return edit
+
+
+def drop_boilers(text: str) -> str:
+    """Remove every [[boiler]] table (the block between the 'boilers' and 'turbo-generators' rulers)."""
+    out, n = re.subn(r"(?ms)^# -+ boilers$.*?(?=^# -+ turbo-generators$)", "", text)
+    assert n == 1 and "[[boiler]]" not in out
+    return out
+
+
+B4_HEADER = 'id = "B4"\nname = "Auxiliary boiler 4"\nheader = "HP"'
+TG2_INLET = 'id = "TG2"\nname = "Back-pressure set 2"\ninlet = "HP"'
+WGC_TURBINE = 'steam_turbine = { inlet = "HP", exhaust = "MP", efficiency = 0.70 }'
+AIRB_RATE = 'steam_rate = "11.5 kg/kWh"'
+B1_MAX = 'max_steam = "120 t/h"'  # the first max_steam in the file
+B4_MAX = 'max_steam = "60 t/h"'
+
+SITE_CASES = [
+    # --- the file itself
+    pytest.param(sub('max_steam = "120 t/h"', 'max_steam = "120 t/h'),
+                 ["not valid TOML", f"line {_line_of(B1_MAX)}"], id="malformed-toml-unterminated-string"),
+    pytest.param(sub('max_steam = "60 t/h"', 'max_steam = "60 t/h"\nmax_steam = "70 t/h"'),
+                 ["not valid TOML", f"line {_line_of(B4_MAX) + 1}"], id="malformed-toml-repeated-key"),
+    # --- keys
+    pytest.param(sub("blowdown = 0.02", "blowdwn = 0.02"),
+                 ["[[boiler]] #4 (id 'B4') > blowdwn", "unknown key"], id="unknown-key"),
+    pytest.param(sub('max_steam = "60 t/h"\n', ""),
+                 ["[[boiler]] #4 (id 'B4') > max_steam", "required key is missing"], id="missing-required-key"),
+    pytest.param(lambda t: re.sub(r"(?ms)^\[grid\]$.*?(?=^\[reserve\]$)", "", t),
+                 ["grid", "required key is missing"], id="missing-required-table"),
+    # --- units
+    pytest.param(sub('max_steam = "60 t/h"', 'max_steam = "60"'),
+                 ["[[boiler]] #4 (id 'B4') > max_steam", "has no unit"], id="value-without-unit-text"),
+    pytest.param(sub('max_steam = "60 t/h"', "max_steam = 60"),
+                 ["[[boiler]] #4 (id 'B4') > max_steam", "60 has no unit"], id="value-without-unit-number"),
+    pytest.param(sub('max_steam = "120 t/h"', 'max_steam = "120 bar"'),
+                 ["[[boiler]] #1 (id 'B1') > max_steam", "'bar' is not a mass flow"], id="wrong-dimension-unit"),
+    pytest.param(sub('pressure = "42 bar(a)"', 'pressure = "42 t/h"'),
+                 ["[[header]] #1 (id 'HP') > pressure", "is not a pressure"], id="wrong-dimension-pressure"),
+    pytest.param(sub('max_steam = "60 t/h"', 'max_steam = "60 zorks/h"'),
+                 ["[[boiler]] #4 (id 'B4') > max_steam", "unknown unit 'zorks/h'"], id="unknown-unit"),
+    # --- references and ids
+    pytest.param(sub(B4_HEADER, B4_HEADER.replace('"HP"', '"XP"')),
+                 ["[[boiler]] 'B4' > header", "unknown header 'XP'"], id="boiler-unknown-header"),
+    pytest.param(sub('fuels = ["NG"]', 'fuels = ["NG", "COAL"]'),
+                 ["[[boiler]] 'B4' > fuels", "unknown fuel 'COAL'"], id="boiler-unknown-fuel"),
+    pytest.param(sub('fuels = ["NG"]', 'fuels = "NG"'),
+                 ["[[boiler]] #4 (id 'B4') > fuels", "valid list"], id="boiler-fuels-not-a-list"),
+    pytest.param(sub('id = "B2"', 'id = "B1"'),
+                 ["[[boiler]] #2 > id", "duplicated id 'B1'"], id="duplicate-id"),
+    pytest.param(sub('id = "V-LP"', 'id = "LP"'),
+                 ["[[vent]] #1 > id", "duplicated id 'LP' (also a header)"], id="duplicate-id-across-tables"),
+    pytest.param(sub('heating_steam = "LP"', 'heating_steam = "XLP"'),
+                 ["[deaerator] > heating_steam", "unknown header 'XLP'"], id="deaerator-heating-steam-unknown"),
+    # --- pressure order and steam states
+    pytest.param(chain(sub(TG2_INLET, TG2_INLET.replace('"HP"', '"LP"')), sub('  to = "LP"', '  to = "MP"')),
+                 ["[[turbogenerator]] 'TG2' > section #1 > to", "cannot expand upwards"], id="turbine-exhausts-upwards"),
+    pytest.param(sub('  to = "MP"\n  efficiency = 0.78', '  to = "COND"\n  efficiency = 0.78'),
+                 ["[[turbogenerator]] 'TG1' > section #1 > to", "only the last section"], id="turbine-condenser-not-last"),
+    pytest.param(sub(WGC_TURBINE, WGC_TURBINE.replace('inlet = "HP"', 'inlet = "LP"')),
+                 ["[[drive]] 'WGC' > steam_turbine > exhaust", "not at a lower pressure than inlet 'LP'"],
+                 id="drive-exhaust-above-inlet"),
+    pytest.param(sub('from = "MP"\nto = "LP"', 'from = "MP"\nto = "HP"'),
+                 ["[[letdown]] 'LD-ML' > to", "'HP' is not at a lower pressure than 'MP'"], id="letdown-upwards"),
+    pytest.param(sub('temperature = "175 degC"', 'temperature = "120 degC"'),
+                 ["[[header]] 'LP' > temperature", "saturation temperature"], id="header-below-saturation"),
+    pytest.param(sub('pressure = "0.12 bar(a)"', 'pressure = "0.001 bar(a)"'),
+                 ["[[condenser]] 'COND' > pressure", "outside IAPWS-IF97"], id="condenser-pressure-out-of-range"),
+    pytest.param(sub('makeup_temperature = "20 degC"', 'makeup_temperature = "-50 degC"'),
+                 ["[deaerator] > makeup_temperature", "above 0 degC"], id="deaerator-makeup-frozen"),
+    pytest.param(sub('condensate_temperature = "85 degC"', 'condensate_temperature = "150 degC"'),
+                 ["[deaerator] > condensate_temperature", "saturation temperature"], id="deaerator-condensate-too-hot"),
+    # --- limits
+    pytest.param(sub('min_steam = "12 t/h"', 'min_steam = "70 t/h"'),
+                 ["[[boiler]] 'B4' > min_steam", "exceeds max_steam"], id="min-steam-above-max"),
+    pytest.param(sub('min_throttle = "15 t/h"', 'min_throttle = "90 t/h"'),
+                 ["[[turbogenerator]] 'TG2' > min_throttle", "exceeds max_throttle"], id="min-throttle-above-max"),
+    pytest.param(sub("efficiency = 0.72", "efficiency = 0"),
+                 ["[[turbogenerator]] #2 (id 'TG2') > [[section]] #1 > efficiency", "greater than 0"],
+                 id="efficiency-zero"),
+    pytest.param(sub("generator_efficiency = 0.975", "generator_efficiency = 1.2"),
+                 ["[[turbogenerator]] #1 (id 'TG1') > generator_efficiency", "less than or equal to 1"],
+                 id="efficiency-above-one"),
+    pytest.param(sub("motor = { efficiency = 0.92 }", "motor = { efficiency = 1.2 }"),
+                 ["[[drive]] #8 (id 'FANS') > motor > efficiency", "less than or equal to 1"],
+                 id="motor-efficiency-above-one"),
+    pytest.param(sub('max_flow = "40 t/h"', 'max_flow = "-40 t/h"'),
+                 ["[[vent]] 'V-LP' > max_flow", "must not be negative"], id="vent-negative-max-flow"),
+    pytest.param(sub('max_flow = "100 t/h"', 'max_flow = "-100 t/h"'),
+                 ["[[letdown]] 'LD-HM' > max_flow", "must be positive"], id="letdown-negative-max-flow"),
+    pytest.param(sub(AIRB_RATE, 'steam_rate = "0 kg/kWh"'),
+                 ["[[drive]] 'AIRB' > steam_turbine > steam_rate", "must be positive"], id="drive-steam-rate-zero"),
+    pytest.param(sub(AIRB_RATE, 'steam_rate = "0.5 kg/kWh"'),
+                 ["[[drive]] 'AIRB' > steam_turbine > steam_rate", "below the theoretical"],
+                 id="drive-steam-rate-below-isentropic"),
+    # --- structure
+    pytest.param(drop_boilers, ["[[boiler]]", "no boiler"], id="no-boilers"),
+    pytest.param(sub("efficiency = [0.82, 0.86, 0.875, 0.872]", "efficiency = [0.82, 0.86, 0.875]"),
+                 ["[[boiler]] #1 (id 'B1') > efficiency_curve", "same number of points"], id="curve-length-mismatch"),
+    pytest.param(sub("motor = { efficiency = 0.92 }\n", ""),
+                 ["[[drive]] #8 (id 'FANS')", "needs a 'steam_turbine', a 'motor' or both"], id="drive-without-driver"),
+]
+
+
+def _assert_refused(rc: int, capsys: pytest.CaptureFixture[str], file_name: str, expected: list[str],
+                    out: Path | None = None) -> str:
+    cap = capsys.readouterr()
+    text = cap.out + cap.err
+    assert rc == 2, text
+    assert "Traceback" not in text
+    assert file_name in cap.err, cap.err
+    for piece in expected:
+        assert piece in cap.err, f"{piece!r} not in:\n{cap.err}"
+    if out is not None:
+        assert not out.exists()
+        assert not list(out.parent.glob(f".{out.name}.*")), "a temporary output folder was left behind"
+    return cap.err
+
+
+@pytest.mark.parametrize(("edit", "expected"), SITE_CASES)
+def test_bad_site_is_refused(edit: Edit, expected: list[str], demo_site: Path, tmp_path: Path,
+                             capsys: pytest.CaptureFixture[str]) -> None:
+    demo_site.write_text(edit(demo_site.read_text(encoding="utf-8")), encoding="utf-8")
+    rc = main(["inspect", str(demo_site)])
+    _assert_refused(rc, capsys, demo_site.name, expected, tmp_path / "out")
+
+
+def test_bad_site_is_refused_by_plan_before_writing(demo_site: Path, demo_series: Path, tmp_path: Path,
+                                                    capsys: pytest.CaptureFixture[str]) -> None:
+    demo_site.write_text(sub('max_steam = "120 t/h"', 'max_steam = "120 bar"')(demo_site.read_text()))
+    out = tmp_path / "out"
+    rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out)])
+    _assert_refused(rc, capsys, demo_site.name, ["[[boiler]] #1 (id 'B1') > max_steam"], out)
+
+
+@pytest.mark.parametrize(("name", "make", "expected"), [
+    pytest.param("missing.toml", None, ["file not found"], id="missing-file"),
+    pytest.param("latin1.toml", lambda p: p.write_bytes(DEMO_SITE_TEXT.encode() + b"\n# caf\xe9\n"),
+                 ["cannot read the file", "utf-8"], id="not-utf8"),
+    pytest.param("folder.toml", lambda p: p.mkdir(), ["cannot read the file"], id="a-folder"),
+])
+def test_unreadable_site_is_refused(name: str, make: Callable[[Path], object] | None, expected: list[str],
+                                    tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    site = tmp_path / name
+    if make is not None:
+        make(site)
+    rc = main(["inspect", str(site)])
+    _assert_refused(rc, capsys, name, expected, tmp_path / "out")
+
+
+# --------------------------------------------------------------------------- series edits
+Frame = Callable[[pd.DataFrame], pd.DataFrame]
+LP, LOAD, IMPORT = "demand:LP [t/h]", "load [MW]", "price:import [per MWh]"
+# the file has a header line, so data row i (0-based) is line i + 2 of the file
+
+
+def cell(row: int, col: str, value: str) -> Frame:
+    def edit(df: pd.DataFrame) -> pd.DataFrame:
+        df.loc[row, col] = value
+        return df
+
+    return edit
+
+
+def rename(old: str, new: str) -> Frame:
+    return lambda df: df.rename(columns={old: new})
+
+
+def add_column(name: str, value: str, row: int | None = None, row_value: str = "") -> Frame:
+    def edit(df: pd.DataFrame) -> pd.DataFrame:
+        df[name] = value
+        if row is not None:
+            df.loc[row, name] = row_value
+        return df
+
+    return edit
+
+
+def swap_rows(a: int, b: int) -> Frame:
+    def edit(df: pd.DataFrame) -> pd.DataFrame:
+        order = list(range(len(df)))
+        order[a], order[b] = order[b], order[a]
+        return df.iloc[order].reset_index(drop=True)
+
+    return edit
+
+
+def with_offset(first: int, suffix: str) -> Frame:
+    def edit(df: pd.DataFrame) -> pd.DataFrame:
+        df.loc[first:, "time"] = df.loc[first:, "time"] + suffix
+        return df
+
+    return edit
+
+
+SERIES_CASES = [
+    # --- time column
+    pytest.param(lambda df: df.drop(index=4).reset_index(drop=True),
+                 ["row 6, column 'time'", "missing hour"], id="missing-hour"),
+    pytest.param(lambda df: df.assign(time=df["time"].where(df.index != 5, df.loc[4, "time"])),
+                 ["row 7, column 'time'", "duplicated hour"], id="duplicated-hour"),
+    pytest.param(swap_rows(5, 6), ["row 8, column 'time'", "time order"], id="unordered-rows"),
+    pytest.param(with_offset(10, "+01:00"), ["row 12, column 'time'", "UTC offset"], id="mixed-time-zones"),
+    pytest.param(with_offset(10, " UTC"), ["row 12, column 'time'", "UTC offset"], id="mixed-time-zones-named"),
+    pytest.param(cell(6, "time", "2027-13-45T00:00"), ["row 8, column 'time'", "is not a date and time"],
+                 id="unparseable-timestamp"),
+    pytest.param(cell(6, "time", ""), ["row 8, column 'time'", "empty time"], id="empty-timestamp"),
+    pytest.param(lambda df: df.drop(columns="time"), ["header row", "missing column 'time'"], id="no-time-column"),
+    # --- cells
+    pytest.param(cell(7, LP, "abc"), [f"row 9, column '{LP}'", "'abc' is not a finite number"], id="non-numeric-cell"),
+    pytest.param(cell(3, LOAD, ""), [f"row 5, column '{LOAD}'", "empty cell"], id="empty-cell"),
+    pytest.param(cell(2, IMPORT, "nan"), [f"row 4, column '{IMPORT}'"], id="nan-text"),
+    pytest.param(cell(2, IMPORT, "inf"), [f"row 4, column '{IMPORT}'", "not a finite number"], id="inf-text"),
+    pytest.param(cell(10, LOAD, "-5"), ["row 12, column 'load'", "must not be negative"], id="negative-load"),
+    pytest.param(add_column("duty:FANS [kW]", "300", row=3, row_value="-10"),
+                 ["row 5, column 'duty:FANS'", "must not be negative"], id="negative-duty"),
+    # --- columns
+    pytest.param(lambda df: df.drop(columns=LOAD), ["header row", "site electric load", "load [MW]"],
+                 id="missing-load-column"),
+    pytest.param(rename(LP, "demand:XX [t/h]"), ["column 'demand:XX [t/h]'", "unknown header 'XX'"],
+                 id="demand-unknown-header"),
+    pytest.param(rename(LOAD, "load"), ["column 'load'", "'name [unit]'"], id="column-without-unit"),
+    pytest.param(rename(LP, "demand:LP [MW]"), ["column 'demand:LP [MW]'", "is not a mass flow"],
+                 id="demand-wrong-unit"),
+    pytest.param(rename(IMPORT, "price:import [per t]"), ["column 'price:import [per t]'", "per MWh"],
+                 id="price-wrong-unit"),
+    pytest.param(add_column("temperature [degC]", "15"),
+                 ["column 'temperature [degC]'", "unknown column 'temperature'"], id="unknown-column"),
+    pytest.param(add_column("price:fuel:COAL [per GJ]", "3"),
+                 ["column 'price:fuel:COAL [per GJ]'", "unknown fuel 'COAL'"], id="price-unknown-fuel"),
+    pytest.param(add_column("duty:XYZ [kW]", "100"), ["column 'duty:XYZ [kW]'", "unknown drive 'XYZ'"],
+                 id="duty-unknown-drive"),
+    pytest.param(add_column("load [kW]", "30000"), ["column 'load [kW]'", "duplicated column"],
+                 id="duplicated-column"),
+    pytest.param(lambda df: df.iloc[:0], ["no rows"], id="header-only"),
+]
+
+
+@pytest.mark.parametrize(("edit", "expected"), SERIES_CASES)
+def test_bad_series_is_refused(edit: Frame, expected: list[str], demo_site: Path, demo_series: Path,
+                               tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    df = pd.read_csv(demo_series, dtype=str, keep_default_na=False)
+    edit(df).to_csv(demo_series, index=False)
+    out = tmp_path / "out"
+    rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out)])
+    _assert_refused(rc, capsys, demo_series.name, expected, out)
+
+
+@pytest.mark.parametrize(("name", "make", "expected"), [
+    pytest.param("missing.csv", None, ["file not found"], id="missing-file"),
+    pytest.param("empty.csv", lambda p: p.write_bytes(b""), ["cannot read the table"], id="empty-file"),
+])
+def test_unreadable_series_is_refused(name: str, make: Callable[[Path], object] | None, expected: list[str],
+                                      demo_site: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    series = tmp_path / name
+    if make is not None:
+        make(series)
+    out = tmp_path / "out"
+    rc = main(["plan", str(demo_site), "--series", str(series), "--out", str(out)])
+    _assert_refused(rc, capsys, name, expected, out)
+
+
+# --------------------------------------------------------------------------- command line
+@pytest.mark.parametrize(("extra", "expected"), [
+    pytest.param(["--gap", "-1"], ["--gap", "'-1' must be positive"], id="negative-gap"),
+    pytest.param(["--gap", "tiny"], ["--gap", "'tiny' is not a number"], id="gap-not-a-number"),
+    pytest.param(["--time-limit", "0"], ["--time-limit", "must be positive"], id="zero-time-limit"),
+])
+def test_bad_option_exits_2(extra: list[str], expected: list[str], demo_site: Path, demo_series: Path,
+                            tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    out = tmp_path / "out"
+    with pytest.raises(SystemExit) as exc:
+        main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out), *extra])
+    assert exc.value.code == 2
+    err = capsys.readouterr().err
+    assert "Traceback" not in err
+    for piece in expected:
+        assert piece in err, err
+    assert not out.exists()
+
+
+@pytest.mark.parametrize(("argv", "expected"), [
+    pytest.param(["optimise", "site.toml"], "invalid choice: 'optimise'", id="unknown-subcommand"),
+    pytest.param([], "required: command", id="no-subcommand"),
+    pytest.param(["plan", "site.toml", "--out", "x"], "--series", id="plan-without-series"),
+])
+def test_usage_error_exits_2(argv: list[str], expected: str, capsys: pytest.CaptureFixture[str]) -> None:
+    with pytest.raises(SystemExit) as exc:
+        main(argv)
+    assert exc.value.code == 2
+    err = capsys.readouterr().err
+    assert expected in err and "usage: cogen" in err
+    assert "Traceback" not in err
+
+
+@pytest.mark.parametrize(("argv", "expected"), [
+    pytest.param(["--help"], ["usage: cogen", "inspect", "plan"], id="cogen"),
+    pytest.param(["plan", "--help"], ["usage: cogen plan", "--series", "--out", "--gap"], id="plan"),
+    pytest.param(["inspect", "--help"], ["usage: cogen inspect", "--csv"], id="inspect"),
+])
+def test_help_exits_0(argv: list[str], expected: list[str], capsys: pytest.CaptureFixture[str]) -> None:
+    with pytest.raises(SystemExit) as exc:
+        main(argv)
+    assert exc.value.code in (0, None)
+    text = capsys.readouterr().out
+    for piece in expected:
+        assert piece in text
+
+
+# --------------------------------------------------------------------------- output folder
+def _snapshot(folder: Path) -> dict[str, tuple[bytes, int]]:
+    return {str(p.relative_to(folder)): (p.read_bytes() if p.is_file() else b"", p.stat().st_mtime_ns)
+            for p in sorted(folder.rglob("*"))}
+
+
+def test_foreign_out_folder_is_refused(demo_site: Path, demo_series: Path, tmp_path: Path,
+                                       capsys: pytest.CaptureFixture[str]) -> None:
+    out = tmp_path / "results"
+    (out / "sub").mkdir(parents=True)
+    (out / "notes.txt").write_text("my own notes\n")
+    (out / "sub" / "data.csv").write_text("a,b\n1,2\n")
+    before = _snapshot(out)
+    siblings = sorted(p.name for p in tmp_path.iterdir())
+
+    rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out)])
+
+    cap = capsys.readouterr()
+    assert rc == 2, cap.err
+    assert "Traceback" not in cap.out + cap.err
+    assert "results" in cap.err and "--out" in cap.err and "non-empty folder" in cap.err
+    assert _snapshot(out) == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == siblings  # no temporary folder left beside it
+
+
+def test_out_path_that_is_a_file_is_refused(demo_site: Path, demo_series: Path, tmp_path: Path,
+                                            capsys: pytest.CaptureFixture[str]) -> None:
+    out = tmp_path / "results.txt"
+    out.write_text("keep me\n")
+    rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out)])
+    cap = capsys.readouterr()
+    assert rc == 2, cap.err
+    assert "Traceback" not in cap.out + cap.err
+    assert "results.txt" in cap.err and "not a folder" in cap.err
+    assert out.read_text() == "keep me\n"

@@ -1,0 +1,141 @@
+"""Linear coefficients of the equipment modules against worked examples and hand calculations."""
+
+from __future__ import annotations
+
+import pytest
+
+from cogendispatch.equipment import boiler as boiler_mod
+from cogendispatch.equipment import drive as drive_mod
+from cogendispatch.equipment import turbine as turbine_mod
+from cogendispatch.equipment.common import SiteStates
+from cogendispatch.equipment.deaerator import heating_steam_ratio
+from cogendispatch.equipment.letdown import outlet_ratio
+from cogendispatch.steam import state_pT, state_px
+from cogendispatch.units import parse_quantity
+from tiny import site
+
+BTU_PER_LB = 2.326  # [kJ/kg] per Btu/lb (NIST SP 811, International Table Btu)
+
+
+def _example_10_8_site():  # noqa: ANN202
+    """Cengel & Boles Example 10-8 as a site: 7 MPa/500 degC boiler, 500 kPa extraction,
+    5 kPa condenser, isentropic turbine (section efficiencies 1)."""
+    return site(
+        header=[{"id": "HP", "pressure": "70 bar(a)", "temperature": "500 degC"},
+                {"id": "LP", "pressure": "5 bar(a)"}],  # saturated process header
+        deaerator={"pressure": "1.5 bar(a)", "heating_steam": "LP"},
+        condenser=[{"id": "C", "pressure": "0.05 bar(a)", "cooling_capacity": "100 MW"}],
+        turbogenerator=[{"id": "T", "inlet": "HP", "max_throttle": "100 t/h", "generator_rating": "30 MW",
+                         "generator_efficiency": 1.0,
+                         "section": [{"to": "LP", "efficiency": 1.0, "max_extraction": "100 t/h"},
+                                     {"to": "C", "efficiency": 1.0}]}],
+    )
+
+
+def test_turbine_sections_reproduce_cengel_example_10_8():
+    cfg = _example_10_8_site()
+    co = turbine_mod.coefficients(cfg.turbogenerators[0], SiteStates.of(cfg))
+    s1, s2 = co.sections
+    assert co.kind == "extraction-condensing"
+    # Cengel & Boles, Example 10-8: h1 3411.4, h5 2739.3, h6 2073.0 kJ/kg (0.5 %)
+    assert s1.inlet.h == pytest.approx(3411.4, rel=5e-3)
+    assert s1.outlet.h == pytest.approx(2739.3, rel=5e-3)
+    assert s2.outlet.h == pytest.approx(2073.0, rel=5e-3)
+    m = 15.0 * 3.6  # 15 kg/s in t/h
+    # (b) no process heat, all 15 kg/s to the condenser: turbine work
+    # 15 * (3411.4 - 2073.0) = 20 076 kW (Example 10-8 (b), net 20.0 MW after ~0.1 MW pumps)
+    p_b = m * (s1.mw_per_tph + s2.mw_per_tph)
+    assert p_b == pytest.approx(20.076, rel=5e-3)
+    # (c) 13.5 kg/s through the first section, 10.5 kg/s extracted, 3 kg/s to the condenser:
+    # turbine work 13.5 * (3411.4 - 2739.3) + 3 * (2739.3 - 2073.0) = 11.07 MW
+    # (Example 10-8 (c), net 11.0 MW after the pumps' 0.1 MW)
+    p_c = 13.5 * 3.6 * s1.mw_per_tph + 3.0 * 3.6 * s2.mw_per_tph
+    assert p_c == pytest.approx(11.07, rel=5e-3)
+    # the 500 kPa header is saturated: the isentropic extraction (x ~ 0.99) arrives wet and
+    # gives up a drain to keep the header at saturated vapour (ratio just below 1)
+    r = SiteStates.of(cfg).arrival_ratio(s1.outlet.h, "LP")
+    assert 0.95 < r < 1.0
+
+
+def test_turbine_section_power_formula_by_hand():
+    # 42 bar(a)/400 degC to 12 bar(a) at 78 %: P = m dh_s eta / 3600 (hand calculation)
+    cfg = site(header=[{"id": "HP", "pressure": "42 bar(a)", "temperature": "400 degC"},
+                       {"id": "LP", "pressure": "12 bar(a)", "temperature": "250 degC"}],
+               deaerator={"pressure": "2 bar(a)", "heating_steam": "LP"},
+               turbogenerator=[{"id": "T", "inlet": "HP", "max_throttle": "100 t/h", "generator_rating": "30 MW",
+                                "section": [{"to": "LP", "efficiency": 0.78}]}])
+    co = turbine_mod.coefficients(cfg.turbogenerators[0], SiteStates.of(cfg))
+    h_in = state_pT(42, 400).h
+    from cogendispatch.steam import state_ps
+    h_s = state_ps(12, state_pT(42, 400).s).h
+    assert co.sections[0].mw_per_tph == pytest.approx((h_in - h_s) * 0.78 / 3600, rel=1e-12)
+    assert co.sections[0].outlet.h == pytest.approx(h_in - 0.78 * (h_in - h_s), rel=1e-9)
+
+
+def test_boiler_fuel_cost_matches_doe_steam_tip_15():
+    # US DOE Steam Tip Sheet #15: 150 psig saturated steam from 150 degF feedwater needs about
+    # 1073-1078 Btu/lb; at 8.00 $/MMBtu and 81 % efficiency, about 10.60 $ per 1000 lb.
+    p = parse_quantity("150 psig", "pressure")
+    h_fw = state_pT(p, parse_quantity("150 degF", "temperature")).h
+    q = boiler_mod.heat_to_steam(state_px(p, 1.0).h, h_fw, 0.0, state_px(p, 0.0).h)  # [kJ/kg]
+    assert q / BTU_PER_LB == pytest.approx(1078, abs=2)  # Tip Sheet #15, Table 1
+    cost_per_klb = 8.00 * (q / BTU_PER_LB) * 1000 / 1e6 / 0.81
+    assert cost_per_klb == pytest.approx(10.60, rel=1e-2)  # the sheet rounds 1073-1078 Btu/lb
+
+
+def test_boiler_fuel_points_and_blowdown_by_hand():
+    cfg = site()
+    b = cfg.boilers[0]
+    st = SiteStates.of(cfg)
+    co = boiler_mod.coefficients(b, st)
+    q = (st.headers["HP"].h - st.h_feedwater) / 1000  # [GJ/t], no blowdown in the tiny site
+    assert co.heat_per_t == pytest.approx(q, rel=1e-12)
+    assert co.fuel[-1] == pytest.approx(100 * q / 0.85, rel=1e-12)
+    # blowdown of 5 % of feedwater leaves as saturated liquid at drum pressure
+    h_bd = state_px(40, 0.0).h
+    q_bd = boiler_mod.heat_to_steam(st.headers["HP"].h, st.h_feedwater, 0.05, h_bd)
+    assert q_bd == pytest.approx(st.headers["HP"].h - st.h_feedwater + 0.05 / 0.95 * (h_bd - st.h_feedwater))
+
+
+def test_nonconvex_curve_is_detected():
+    cfg = site(boiler=[{"id": "B", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "20 t/h",
+                        "efficiency_curve": {"load": [0.2, 0.5, 0.8, 1.0], "efficiency": [0.78, 0.835, 0.85, 0.845]}}])
+    co = boiler_mod.coefficients(cfg.boilers[0], SiteStates.of(cfg))
+    sl = co.slopes
+    assert not co.convex and sl[1] < sl[0]
+
+
+def test_drive_steam_rate_and_exhaust_by_hand():
+    # MIL-HDBK-1003/7 Table 8 form: steam rate = 3600 / (eta * dh_s) [kg/kWh]
+    cfg = site(drive=[{"id": "P", "duty": "1 MW", "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": 0.5}},
+                      {"id": "Q", "duty": "1 MW", "steam_turbine": {"inlet": "HP", "exhaust": "LP", "steam_rate": "20 kg/kWh"}}])
+    st = SiteStates.of(cfg)
+    from cogendispatch.steam import isentropic_drop
+    drop = isentropic_drop(st.headers["HP"], 5.0)
+    p = drive_mod.coefficients(cfg.drives[0], st)
+    assert p.steam_rate == pytest.approx(3600 / (0.5 * drop))
+    assert p.exhaust_h == pytest.approx(st.headers["HP"].h - 0.5 * drop)
+    q = drive_mod.coefficients(cfg.drives[1], st)
+    assert q.exhaust_h == pytest.approx(st.headers["HP"].h - 3600 / 20)
+    assert q.efficiency == pytest.approx(3600 / (20 * drop))
+
+
+def test_letdown_water_ratio_matches_energy_balance():
+    # references.md sec. 6 [calc]: 42 bar(a)/400 degC let down to 11 bar(a), sprayed to 200 degC
+    # with 105 degC water needs about 0.163 kg water per kg of steam (1 %)
+    cfg = site(header=[{"id": "HP", "pressure": "42 bar(a)", "temperature": "400 degC"},
+                       {"id": "LP", "pressure": "11 bar(a)", "temperature": "200 degC"}],
+               deaerator={"pressure": "1.2 bar(a)", "heating_steam": "LP"})
+    st = SiteStates.of(cfg)
+    # the model sprays deaerator water (saturated at 1.2 bar(a), 104.8 degC): same check
+    assert outlet_ratio(cfg.letdowns[0], st) - 1.0 == pytest.approx(0.163, rel=1e-2)
+
+
+def test_deaerator_steam_ratio_by_hand():
+    # S/F = (h_fw - h_w)/(h_s - h_w): 2 bar(a) deaerator, water in at 50 degC, 5 bar(a) 180 degC steam
+    h_fw = state_px(2.0, 0.0).h
+    h_w = state_pT(2.0, 50.0).h
+    h_s = state_pT(5.0, 180.0).h
+    r = heating_steam_ratio(h_fw, h_w, h_s)
+    assert r * h_s + (1 - r) * h_w == pytest.approx(h_fw, rel=1e-12)  # energy balance closes
+    assert 0.1 < r < 0.15
