@@ -5,7 +5,7 @@ Conversions used below: 1 MPa = 10 bar; T[K] = T[degC] + 273.15; 1 Btu/lb = 2.32
 (International Table Btu, exact by definition of the IT calorie); 1 kg = 2.20462 lb
 (NIST SP 811: 1 lb = 0.45359237 kg exactly); degF = degC * 9/5 + 32.
 
-Sources are quoted as /work/shared/references.md gives them.
+Sources are quoted as the project's list of published check values (references.md) gives them.
 """
 
 from __future__ import annotations

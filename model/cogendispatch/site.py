@@ -107,10 +107,6 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
             range(len(bs)), m.T,
             rule=lambda mm, i, t: spare(t) - (bs[i].unit.max_steam * bs[i].on[t] - bs[i].steam[t])
             + m.reserve_short[t] >= cover * bs[i].steam[t])
-        # number of boilers in service as a general integer: branching on it moves the
-        # bound of the reserve much faster than branching on single boilers
-        m.boilers_on = pyo.Var(m.T, within=pyo.NonNegativeIntegers, bounds=(0, len(bs)))
-        m.boilers_on_def = pyo.Constraint(m.T, rule=lambda mm, t: mm.boilers_on[t] == sum(b.on[t] for b in bs))
     else:
         for t in hours:
             m.reserve_short[t].fix(0)

@@ -2,8 +2,8 @@
 
 Pyomo builds the model and hands it to HiGHS once (``load``). HiGHS's own heuristics find
 it hard to commit boilers so that every header is supplied in every hour, so the solve
-first builds a start: the LP relaxation, its commitment and driver choices rounded and
-repaired to honour minimum up/down times and switching limits, the rest re-optimised.
+first builds a start: the LP relaxation, its commitment rounded up and repaired to honour
+minimum up/down times, the rest re-optimised, then improved unit by unit.
 The MILP then starts from that schedule and closes the gap.
 """
 
@@ -19,7 +19,7 @@ import numpy as np
 import pyomo.environ as pyo
 from pyomo.contrib.solver.solvers.highs import Highs
 
-from .equipment.common import repair_commitment, repair_switching
+from .equipment.common import repair_commitment
 from .errors import SolveError
 from .site import SiteModel
 
@@ -105,8 +105,9 @@ class LoadedModel:
     def solution(self) -> np.ndarray:
         return np.array(self.h.getSolution().col_value, dtype=float)
 
-    def rounding_start(self, time_limit: float, threshold: float = 0.05, fix_drives: bool = True) -> np.ndarray | None:
-        """LP relaxation, rounded and repaired commitment and drivers, then re-optimised.
+    def rounding_start(self, time_limit: float, threshold: float = 0.01) -> np.ndarray | None:
+        """LP relaxation, its commitment rounded up and repaired, the rest (drivers included)
+        re-optimised as a small MILP.
 
         Returns the full column vector of a feasible schedule, or None.
         """
@@ -134,17 +135,6 @@ class LoadedModel:
                     c = self.col(v)
                     if c is not None:
                         fix_cols.append(c)
-                        fix_vals.append(float(s))
-            sw = getattr(blk, "switch_info", None)
-            if fix_drives and sw is not None and hasattr(blk, "on_steam"):
-                gap_h, init = sw
-                count = blk.unit.count
-                avg = [sum(x[self.col(blk.on_steam[k, t])] for k in range(count)) / count for t in m.T]
-                init01 = None if init is None else int(round(init / count))
-                seq = repair_switching([int(a >= 0.5) for a in avg], gap_h, init01)
-                for k in range(count):
-                    for t, s in zip(m.T, seq):
-                        fix_cols.append(self.col(blk.on_steam[k, t]))
                         fix_vals.append(float(s))
         if not fix_cols:
             return x
@@ -214,7 +204,7 @@ class LoadedModel:
         if options.warm_start and len(self.int_cols) > 0:
             if progress:
                 progress("finding a starting schedule (LP relaxation, rounded)")
-            start = self.rounding_start(min(options.time_limit / 2, 60.0), fix_drives=False, threshold=0.01)
+            start = self.rounding_start(min(options.time_limit / 2, 60.0))
             if start is not None:
                 start_obj = self.start_objective
                 if progress:
@@ -228,7 +218,6 @@ class LoadedModel:
             sol.value_valid = True
             self.h.setSolution(sol)
         if progress:
-            self.h.setOptionValue("mip_improving_solution_save", False)
             last = [0.0]
 
             def _cb(callback_type, message, data_out, data_in, user_data):  # noqa: ANN001
@@ -276,5 +265,4 @@ def solve(sm: SiteModel, options: SolveOptions = SolveOptions(), progress: Progr
     if not rep.has_solution:
         raise SolveError(f"HiGHS stopped ({rep.status}) without any schedule; "
                          "try a longer --time-limit or check the site for contradictory limits")
-    sm.loaded = lm  # kept for re-solves (marginal prices)
     return rep

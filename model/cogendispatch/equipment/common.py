@@ -105,11 +105,6 @@ class ModelContext:
         self.header_terms[header].append(Term(unit, label, lambda t: -flow(t)))
 
 
-def time_set(m: pyo.ConcreteModel) -> pyo.Set:
-    """The model's hour set."""
-    return m.T
-
-
 def commitment(blk: pyo.Block, hours: list[int], min_up: float, min_down: float,
                initial_on: bool, initial_hours: float) -> None:
     """On/off status with start-up and shut-down indicators and minimum up/down times.
@@ -185,18 +180,4 @@ def repair_commitment(wanted: list[int], fixed: dict[int, int], info: CommitInfo
         tau = tau + 1 if nxt == u else 1
         u = nxt
         out.append(u)
-    return out
-
-
-def repair_switching(wanted: list[int], min_gap: int, initial: int | None) -> list[int]:
-    """Nearest driver sequence to ``wanted`` with at least ``min_gap`` hours between switches."""
-    out: list[int] = []
-    last = -(10**9)
-    cur = initial
-    for t, d in enumerate(wanted):
-        if cur is None:
-            cur = d
-        elif d != cur and t - last >= min_gap:
-            cur, last = d, t
-        out.append(cur)
     return out

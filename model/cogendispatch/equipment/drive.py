@@ -113,7 +113,6 @@ def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:
         eta = co.motor_efficiency
         ctx.power_terms.append(Term(d.id, f"{d.id} motors",
                                     lambda t: -float(duty[t]) / eta * (d.count - steam_n(t))))
-    blk.switch_info = (max(1, int(round(d.min_hours_between_switches))), d.initial_on_steam)
     blk.coefficients = co
     blk.unit = d
     return blk

@@ -180,11 +180,6 @@ def _numeric(col: pd.Series, path: Path, name: str) -> pd.Series:
 def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
     """Parse the ``time`` column and check it is strictly hourly with no gap or repeat."""
     text = col.astype(str).str.strip()
-    has_offset = text.str.contains(r"(?:[+-]\d\d:?\d\d|Z)$", regex=True)
-    if has_offset.any() and not has_offset.all():
-        i = int(np.argmax((has_offset != has_offset.iloc[0]).to_numpy()))
-        raise InputError(path, f"row {i + 2}, column 'time'",
-                         "mixes times with and without a UTC offset; give every row an offset or none")
     parsed = []
     for i, t in enumerate(text):
         try:
@@ -193,7 +188,7 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
             raise InputError(path, f"row {i + 2}, column 'time'", f"'{t}' is not a date and time") from None
         if ts is pd.NaT or (isinstance(ts, float) and math.isnan(ts)) or pd.isna(ts):
             raise InputError(path, f"row {i + 2}, column 'time'", "empty time")
-        if parsed and (ts.tzinfo is None) != (parsed[0].tzinfo is None):  # offsets the pattern misses, e.g. '... UTC', '+01'
+        if parsed and (ts.tzinfo is None) != (parsed[0].tzinfo is None):
             raise InputError(path, f"row {i + 2}, column 'time'",
                              "mixes times with and without a UTC offset; give every row an offset or none")
         parsed.append(ts.tz_convert("UTC") if ts.tzinfo is not None else ts)
