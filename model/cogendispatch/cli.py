@@ -1,4 +1,4 @@
-"""Command line: ``cogen inspect`` and ``cogen plan``.
+"""Command line: ``cogen inspect``, ``cogen plan`` and ``cogen advise``.
 
 Exit codes: 0 done; 2 bad input (file, field or row named); 3 a schedule was written but
 some demand could not be met (the diagnosis says where and when); 4 the solver found no
@@ -12,6 +12,7 @@ import json
 import sys
 import time
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import pandas as pd
 from rich.console import Console
@@ -24,6 +25,9 @@ from .plan import SAFETY_NOTE, run_plan
 from .site import BuildOptions
 from .solve import SolveOptions
 from .steam import SteamPropertyError
+
+if TYPE_CHECKING:
+    from .decisions import Advice, WhatIf
 
 EXIT_OK, EXIT_INPUT, EXIT_SHORT, EXIT_SOLVER, EXIT_INTERRUPT = 0, 2, 3, 4, 130
 
@@ -69,7 +73,126 @@ def build_parser() -> argparse.ArgumentParser:
     pl.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
     pl.add_argument("--quiet", action="store_true", help="no progress messages")
     pl.add_argument("--json", action="store_true", help="print summary.json to standard output")
+    ad = sub.add_parser("advise", help="one hour: marginal steam prices, turbine-versus-motor table, what-if",
+                        description="Advice for one hour: the marginal cost of steam in each header and of power, "
+                        "and for every machine with both drivers the cost of the hour on steam and on motor, the "
+                        "saving and the import price at which the answer flips. What-if options re-solve the hour "
+                        "with the change and say what moved.")
+    ad.add_argument("site", help="site file (TOML)")
+    ad.add_argument("--series", required=True, help="hourly demands and prices (CSV or Excel)")
+    ad.add_argument("--at", required=True, help="the hour, as written in the series' time column")
+    ad.add_argument("--plan", metavar="DIR", help="hold the on/off states of this plan's schedule.csv")
+    ad.add_argument("--force", action="append", default=[], metavar="MACHINE=steam|motor")
+    ad.add_argument("--trip", action="append", default=[], metavar="UNIT", help="a boiler or turbo-generator out")
+    ad.add_argument("--price", action="append", default=[], metavar="WHAT=VALUE",
+                    help="import=, export= [per MWh] or fuel:ID= [per GJ]")
+    ad.add_argument("--demand", action="append", default=[], metavar="HEADER=+-T_H",
+                    help="change a header's process demand [t/h]")
+    ad.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
+    ad.add_argument("--out", help="also write advice.json, prices.csv and drivers.csv here")
+    ad.add_argument("--json", action="store_true", help="print advice.json to standard output")
     return p
+
+
+def _pairs(items: list[str], flag: str) -> list[tuple[str, str]]:
+    out = []
+    for it in items:
+        k, sep, v = it.partition("=")
+        if not sep or not k or not v:
+            raise InputError(None, flag, f"'{it}' is not KEY=VALUE")
+        out.append((k.strip(), v.strip()))
+    return out
+
+
+def _number(v: str, flag: str) -> float:
+    try:
+        x = float(v)
+    except ValueError:
+        raise InputError(None, flag, f"'{v}' is not a number") from None
+    if x != x or x in (float("inf"), float("-inf")):
+        raise InputError(None, flag, f"'{v}' is not a finite number")
+    return x
+
+
+def what_if_from_args(args: argparse.Namespace) -> "WhatIf":
+    from .decisions import WhatIf
+
+    w = WhatIf(force=dict(_pairs(args.force, "--force")), trip=list(args.trip))
+    for k, v in _pairs(args.price, "--price"):
+        x = _number(v, "--price")
+        if k == "import":
+            w.price_import = x
+        elif k == "export":
+            w.price_export = x
+        elif k.startswith("fuel:"):
+            w.fuel_price[k[5:]] = x
+        else:
+            raise InputError(None, "--price", f"'{k}' is not import, export or fuel:<id>")
+    for k, v in _pairs(args.demand, "--demand"):
+        w.demand[k] = _number(v, "--demand")
+    return w
+
+
+def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
+    return {
+        "time": a.time, "currency": currency, "held_on": a.held, "cost": a.cost,
+        "marginal_price": {"steam_per_t": a.prices, "power_per_MWh": a.power_price},
+        "reason": {**a.reasons, "power": a.power_reason},
+        "drivers": a.drivers.to_dict(orient="records"), "what_if": a.what_if, "seconds": a.seconds,
+        "note": SAFETY_NOTE,
+    }
+
+
+def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
+    from .decisions import advise
+    from .outputs import atomic_dir, check_out_dir, write_csv, write_json
+    from .plant.load import load_site
+    from .plant.series import load_series
+
+    if args.out:
+        check_out_dir(Path(args.out).resolve())
+    cfg = load_site(args.site)
+    series = load_series(args.series, cfg)
+    w = what_if_from_args(args)
+    a = advise(cfg, series, args.at, args.series, args.plan, w,
+               BuildOptions(reserve=False if args.no_reserve else None))
+    d = advice_dict(a, cfg.site.currency)
+    cur = cfg.site.currency
+    if args.json:
+        print(json.dumps(d, indent=2, default=str))
+    else:
+        pr = pd.DataFrame([{"header": h, f"marginal price [{cur}/t]": v, "set by": a.reasons[h].split(": ", 1)[1]}
+                           for h, v in a.prices.items()]
+                          + [{"header": "power", f"marginal price [{cur}/t]": a.power_price,
+                              "set by": a.power_reason.split(": ", 1)[1] + f" [{cur}/MWh]"}])
+        _table(out, f"Marginal prices at {a.time} (hour cost {a.cost:,.0f} {cur})", pr)
+        if not a.drivers.empty:
+            dt = a.drivers[["machine", "now_on_steam", "cost_on_steam", "cost_on_motor", "saving", "better",
+                            "flip_import_price", "marginal_estimate"]].copy()
+            dt.columns = ["machine", "now on steam", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
+                          f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", "marginal estimate"]
+            _table(out, "Turbine or motor", dt.astype(object).where(dt.notna(), "none in range"))
+        if a.what_if:
+            wi = a.what_if
+            out.print(Text(f"what-if: hour cost {wi['cost']:,.0f} {cur} ({wi['change']:+,.0f} against "
+                           f"{wi['base_cost']:,.0f}); " + ("; ".join(wi["changes"]) or "nothing else changed")))
+        out.print(f"advice in {a.seconds:.2f} s")
+        out.print(f"[italic]{SAFETY_NOTE}[/italic]")
+    if args.out:
+        def write(dd: Path) -> None:
+            write_json(d, dd / "advice.json")
+            write_csv(pd.DataFrame([{"header": h, "price_per_t": v, "set_by": a.reasons[h]}
+                                    for h, v in a.prices.items()]), dd / "prices.csv", index=False)
+            write_csv(a.drivers, dd / "drivers.csv", index=False)
+            # marker so a later run may replace this folder
+            write_json({"kind": "advice", "time": a.time}, dd / "summary.json")
+        atomic_dir(args.out, write)
+    short = [h for h, r in a.reasons.items() if "short" in r]
+    if short:
+        for h in short:
+            err.print(f"[bold red]not met:[/bold red] {escape(a.reasons[h])}", highlight=False)
+        return EXIT_SHORT
+    return EXIT_OK
 
 
 def _fmt(x: object) -> str:
@@ -165,6 +288,8 @@ def main(argv: list[str] | None = None) -> int:
         args = build_parser().parse_args(argv)
         if args.command == "inspect":
             return cmd_inspect(args, out)
+        if args.command == "advise":
+            return cmd_advise(args, out, err)
         return cmd_plan(args, out, err)
     except InputError as exc:
         for line in str(exc).splitlines():

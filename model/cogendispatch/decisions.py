@@ -1,0 +1,515 @@
+"""Shift advice for one hour: marginal steam prices, turbine-versus-motor table, what-ifs.
+
+The hour is modelled alone, with the boilers' and turbo-generators' on/off states held (from
+a plan, or from the hour optimised on its own). Marginal prices are the duals of the LP
+re-solved with every binary fixed. Driver costs come from full re-solves of the hour with
+the machine forced to each driver; the power price at which the answer flips is found by a
+bracketing search on the import price, each step a full re-solve, and set beside the
+marginal estimate steam rate x (inlet price - exhaust price x arrival ratio) against
+shaft power / motor efficiency x power price.
+
+All changes are made to the HiGHS model in place (bounds and costs) and undone after, so
+the model is built and loaded once per hour of advice.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import highspy
+import numpy as np
+import pandas as pd
+
+from .equipment.common import SiteStates
+from .errors import InputError
+from .plant.schema import Drive, SiteConfig
+from .plant.series import Series
+from .site import BuildOptions, SiteModel, build_site_model
+from .solve import LoadedModel
+
+TOL = 1e-6
+
+
+@dataclass
+class WhatIf:
+    """Changes for a what-if: drivers forced, units tripped, prices and demands changed."""
+
+    force: dict[str, str] = field(default_factory=dict)  # drive id -> "steam" | "motor"
+    trip: list[str] = field(default_factory=list)  # boiler or turbo-generator ids
+    price_import: float | None = None  # [currency/MWh]
+    price_export: float | None = None
+    fuel_price: dict[str, float] = field(default_factory=dict)  # fuel id -> [currency/GJ]
+    demand: dict[str, float] = field(default_factory=dict)  # header id -> change [t/h]
+
+    def empty(self) -> bool:
+        return not (self.force or self.trip or self.price_import is not None or self.price_export is not None
+                    or self.fuel_price or self.demand)
+
+
+@dataclass
+class HourState:
+    """Outcome of one solve of the hour."""
+
+    cost: float
+    on: dict[str, int]
+    on_steam: dict[str, int]
+    letdown: dict[str, float]
+    vent: dict[str, float]
+    short: dict[str, float]
+    power_short: float
+
+
+class HourModel:
+    """One hour of the site, loaded once into HiGHS, re-solved under changes."""
+
+    def __init__(self, cfg: SiteConfig, series: Series, index: int, held: dict[str, int],
+                 build: BuildOptions = BuildOptions()) -> None:
+        self.cfg = _hold_initial_states(cfg, held)
+        self.series1 = series.window(index, 1)
+        self.sm: SiteModel = build_site_model(self.cfg, self.series1, build)
+        self.lm = LoadedModel(self.sm)
+        self.h: highspy.Highs = self.lm.h
+        self.h.setOptionValue("mip_rel_gap", 1e-9)
+        self.h.setOptionValue("time_limit", 30.0)
+        self.h.setOptionValue("presolve", "off")  # faster on a model this small
+        self.held = held
+        m = self.sm.model
+        self.blocks = self.sm.blocks
+        self.on_col = {uid: self.lm.col(self.blocks[uid].on[0]) for uid in held}
+        self.drive_cols = {d.id: [self.lm.col(self.blocks[d.id].on_steam[k, 0]) for k in range(d.count)]
+                           for d in self.cfg.drives if hasattr(self.blocks[d.id], "on_steam")}
+        self.imp_col = self.lm.col(m.grid.imp[0])
+        self.exp_col = self.lm.col(m.grid.exp[0])
+        self.header_row = {hh.id: self.lm.opt._pyomo_con_to_solver_con_map[m.header_balance[hh.id, 0]]
+                           for hh in self.cfg.headers}
+        self.power_row = self.lm.opt._pyomo_con_to_solver_con_map[m.power_balance[0]]
+        res = m.component("reserve")
+        self.reserve_rows = np.array([] if res is None else [
+            self.lm.opt._pyomo_con_to_solver_con_map[c] for c in res.values()], dtype=np.int32)
+        lp = self.h.getLp()
+        self.cost0 = np.array(lp.col_cost_, dtype=float)
+        self.rlo0 = np.array(lp.row_lower_, dtype=float)
+        self.rup0 = np.array(lp.row_upper_, dtype=float)
+        self.fuel_cols: dict[str, list[int]] = {}
+        for b in self.cfg.boilers:
+            for f in b.fuels:
+                c = self.lm.col(self.blocks[b.id].burn[f, 0])
+                if c is not None:
+                    self.fuel_cols.setdefault(f, []).append(c)
+        self.co2 = {f.id: f.co2_factor for f in self.cfg.fuels}
+        self.co2_price = float(self.series1.co2_price.iloc[0])
+        self.base_import = float(self.series1.price_import.iloc[0])
+        self.feedwater_price = 0.0  # [currency/t], set by marginal_prices()
+
+    # -- changes -------------------------------------------------------------------------
+    def _reset(self) -> None:
+        lm = self.lm
+        n = len(lm.col_lower)
+        allc = np.arange(n, dtype=np.int32)
+        self.h.changeColsBounds(n, allc, lm.col_lower, lm.col_upper)
+        self.h.changeColsCost(n, allc, self.cost0)
+        r = len(self.rlo0)
+        self.h.changeRowsBounds(r, np.arange(r, dtype=np.int32), self.rlo0, self.rup0)
+        lm._set_integrality(True)
+
+    def _fix(self, col: int | None, v: float) -> None:
+        if col is not None:
+            self.h.changeColBounds(col, v, v)
+
+    def _apply(self, w: WhatIf, hold: str) -> None:
+        if w.trip and len(self.reserve_rows):
+            # after a trip the site is in the contingency the reserve was kept for: the
+            # remaining boilers may use all of their rating
+            n = len(self.reserve_rows)
+            self.h.changeRowsBounds(n, self.reserve_rows, np.full(n, -highspy.kHighsInf), np.full(n, highspy.kHighsInf))
+        for uid, c in self.on_col.items():
+            if uid in w.trip:
+                self._fix(c, 0.0)
+            elif hold == "all" or (hold == "on" and self.held[uid] == 1):
+                self._fix(c, float(self.held[uid]))
+        for did, drv in w.force.items():
+            for c in self.drive_cols[did]:
+                self._fix(c, 1.0 if drv == "steam" else 0.0)
+        if w.price_import is not None and self.imp_col is not None:
+            self.h.changeColCost(self.imp_col, w.price_import)
+        if w.price_export is not None and self.exp_col is not None:
+            self.h.changeColCost(self.exp_col, -w.price_export)
+        for f, p in w.fuel_price.items():
+            for c in self.fuel_cols.get(f, []):
+                self.h.changeColCost(c, p + self.co2[f] * self.co2_price)
+        for hh, d in w.demand.items():
+            r = self.header_row[hh]
+            self.h.changeRowBounds(r, self.rlo0[r] + d, self.rup0[r] + d)
+
+    def cost(self, w: WhatIf = WhatIf(), hold: str = "all") -> float:
+        """Cost of the hour under ``w`` [currency], without collecting the state."""
+        self._reset()
+        self._apply(w, hold)
+        self.h.run()
+        if self.h.getInfo().primal_solution_status != 2:
+            raise RuntimeError("the hour has no solution")
+        return float(self.h.getInfo().objective_function_value)
+
+    def solve(self, w: WhatIf = WhatIf(), hold: str = "all") -> HourState:
+        """Re-solve the hour under ``w``. ``hold``: "all" keeps every unit's held on/off
+        state; "on" keeps running units on but lets stopped ones start (paying their start-up
+        cost); "none" frees the commitment. Tripped units are off in every case."""
+        c = self.cost(w, hold)
+        return self._state(self.lm.solution(), c)
+
+    def _state(self, x: np.ndarray, cost: float) -> HourState:
+        def v(var) -> float:  # noqa: ANN001
+            c = self.lm.col(var)
+            return float(var.value) if c is None else float(x[c])
+
+        m = self.sm.model
+        on = {uid: int(round(v(self.blocks[uid].on[0]))) for uid in self.held}
+        on_steam = {}
+        for d in self.cfg.drives:
+            blk = self.blocks[d.id]
+            on_steam[d.id] = int(round(sum(v(blk.on_steam[k, 0]) for k in range(d.count)))) \
+                if hasattr(blk, "on_steam") else int(blk.machines_on_steam(0))
+        return HourState(
+            cost=cost, on=on, on_steam=on_steam,
+            letdown={ld.id: v(self.blocks[ld.id].flow[0]) for ld in self.cfg.letdowns},
+            vent={vt.id: v(self.blocks[vt.id].flow[0]) for vt in self.cfg.vents},
+            short={hh.id: v(m.steam_short[hh.id, 0]) for hh in self.cfg.headers},
+            power_short=v(m.power_short[0]),
+        )
+
+    def marginal_prices(self, w: WhatIf = WhatIf()) -> tuple[dict[str, float], float, np.ndarray]:
+        """Marginal cost of 1 t/h more demand in each header [currency/t] and of 1 MW more
+        load [currency/MWh]: duals of the LP with every binary fixed at its optimum."""
+        self.solve(w)
+        x = self.lm.solution()
+        ints = self.lm.int_cols.astype(np.int32)
+        vals = np.round(x[ints])
+        self.h.changeColsBounds(len(ints), ints, vals, vals)
+        self.lm._set_integrality(False)
+        self.h.run()
+        sol = self.h.getSolution()
+        dual = np.array(sol.row_dual)
+        x = np.array(sol.col_value)
+        self.lm._set_integrality(True)
+        # a row 'terms - demand == 0' is loaded with bounds = demand: d(cost)/d(bound) is the
+        # price of one more t/h demanded
+        prices = {hh: float(dual[r]) for hh, r in self.header_row.items()}
+        # feedwater: one more t/h drawn adds 1 to the deaerator's mass row and h_fw to its
+        # energy row (both 'body == 0'), i.e. lowers their bounds by those amounts
+        da = self.sm.model.deaerator
+        cmap = self.lm.opt._pyomo_con_to_solver_con_map
+        y_m, y_e = dual[cmap[da.mass[0]]], dual[cmap[da.energy[0]]]
+        self.feedwater_price = float(-(y_m + y_e * self.sm.ctx.states.h_feedwater))
+        return prices, float(dual[self.power_row]), x
+
+
+def _hold_initial_states(cfg: SiteConfig, held: dict[str, int]) -> SiteConfig:
+    """The site with each committed unit's initial state set to its held state, no ramp
+    history and free drivers: one hour seen on its own."""
+    boilers = [b.model_copy(update={"initial_on": bool(held.get(b.id, b.initial_on)), "initial_hours": 1e6,
+                                    "initial_steam": None}) for b in cfg.boilers]
+    tgs = [t.model_copy(update={"initial_on": bool(held.get(t.id, t.initial_on)), "initial_hours": 1e6})
+           for t in cfg.turbogenerators]
+    drives = [d.model_copy(update={"initial_on_steam": None}) for d in cfg.drives]
+    return cfg.model_copy(update={"boilers": boilers, "turbogenerators": tgs, "drives": drives})
+
+
+def hour_index(series: Series, at: str, path: str) -> int:
+    """Row of ``series`` at time ``at`` (same format as the series' time column)."""
+    try:
+        ts = pd.Timestamp(at)
+    except (ValueError, TypeError):
+        raise InputError(None, "--at", f"'{at}' is not a date and time") from None
+    if ts.tzinfo is not None:
+        ts = ts.tz_convert("UTC")
+    if (ts.tzinfo is None) != (series.time.tz is None):
+        raise InputError(path, "--at", "give --at with a UTC offset exactly when the series has them")
+    hits = np.flatnonzero(series.time == ts)
+    if len(hits) == 0:
+        raise InputError(path, "--at", f"{at} is not an hour of the series ({series.time[0]} to {series.time[-1]})")
+    return int(hits[0])
+
+
+def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | None,
+                build: BuildOptions = BuildOptions()) -> tuple[dict[str, int], dict[str, int] | None]:
+    """On/off states to hold (and the plan's drivers) at hour ``index``.
+
+    From ``plan_dir/schedule.csv`` when given; otherwise from the hour optimised alone with
+    the site file's initial states.
+    """
+    units = [u.id for u in (*cfg.boilers, *cfg.turbogenerators)]
+    if plan_dir is None:
+        hm = HourModel(cfg, series, index, {u.id: int(u.initial_on) for u in (*cfg.boilers, *cfg.turbogenerators)},
+                       build)
+        st = hm.solve(hold="none")
+        return st.on, None
+    path = Path(plan_dir) / "schedule.csv"
+    try:
+        sched = pd.read_csv(path, index_col="time", parse_dates=["time"])
+    except FileNotFoundError:
+        raise InputError(path, "--plan", "no schedule.csv in the plan folder") from None
+    except (ValueError, KeyError) as exc:
+        raise InputError(path, "--plan", f"cannot read the schedule ({exc})") from None
+    t = series.time[index]
+    idx = sched.index
+    if getattr(idx, "tz", None) is not None and t.tzinfo is None:
+        t = t.tz_localize("UTC")
+    if t not in idx:
+        raise InputError(path, "--at", f"{series.time[index]} is not an hour of the plan")
+    row = sched.loc[t]
+    missing = [u for u in units if f"{u}.on" not in row]
+    if missing:
+        raise InputError(path, "header row", f"the plan has no on/off column for {', '.join(missing)}: "
+                         "was it made for another site?")
+    on = {u: int(round(float(row[f"{u}.on"]))) for u in units}
+    drivers = {d.id: int(round(float(row[f"{d.id}.on_steam"]))) for d in cfg.drives if f"{d.id}.on_steam" in row}
+    return on, drivers
+
+
+def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
+    """One line per header (and for power) saying what sets the marginal price."""
+    cfg, b, m, lm = hm.cfg, hm.blocks, hm.sm.model, hm.lm
+
+    def val(var) -> float:  # noqa: ANN001
+        c = lm.col(var)
+        return float(var.value or 0.0) if c is None else float(x[c])
+
+    def free(var, lo: float, hi: float) -> bool:  # noqa: ANN001
+        v = val(var)
+        return lo + 1e-6 < v < hi - 1e-6
+
+    out: dict[str, str] = {}
+    for hh in cfg.headers:
+        hid = hh.id
+        if val(m.steam_short[hid, 0]) > 1e-6:
+            out[hid] = f"{hid}: short, priced at the shortfall penalty"
+            continue
+        if val(m.steam_surplus[hid, 0]) > 1e-6:
+            out[hid] = f"{hid}: surplus nothing can take, priced at the surplus penalty"
+            continue
+        reason = None
+        for vt in cfg.vents:
+            if vt.header == hid and val(b[vt.id].flow[0]) > 1e-6:
+                reason = f"{hid}: surplus, vented through {vt.id}"
+        if reason is None:
+            for bo in cfg.boilers:
+                if bo.header == hid and val(b[bo.id].on[0]) > 0.5 and free(b[bo.id].steam[0], bo.min_steam, bo.max_steam):
+                    reason = f"{hid}: boiler {bo.id} on its efficiency curve"
+                    break
+        if reason is None:
+            for ld in cfg.letdowns:
+                if ld.to == hid and free(b[ld.id].flow[0], ld.min_flow, ld.max_flow):
+                    reason = f"{hid}: letdown {ld.id} from {ld.source} (the {ld.source} price, spread over the desuperheated flow)"
+                    break
+        if reason is None:
+            for tg in cfg.turbogenerators:
+                co = b[tg.id].coefficients
+                for k, sec in enumerate(co.sections[:-1]):
+                    if sec.to == hid and val(b[tg.id].on[0]) > 0.5 and val(b[tg.id].extraction[k, 0]) > 1e-6:
+                        reason = f"{hid}: extraction from {tg.id} (the inlet price less the power it makes)"
+                if reason is None and co.sections[-1].to == hid and val(b[tg.id].on[0]) > 0.5:
+                    reason = f"{hid}: exhaust of {tg.id} (the inlet price less the power it makes)"
+                if reason:
+                    break
+        out[hid] = reason or f"{hid}: no single unit is marginal (the units serving it sit at limits)"
+    if free(m.grid.imp[0], cfg.grid.min_import, cfg.grid.max_import):
+        pw = "power: grid import at the hour's import price"
+    elif free(m.grid.exp[0], 0.0, cfg.grid.max_export):
+        pw = "power: grid export at the hour's export price"
+    else:
+        pw = "power: set by on-site generation (import at a limit)"
+        for tg in cfg.turbogenerators:
+            if val(b[tg.id].on[0]) > 0.5 and free(b[tg.id].power[0], 0.0, tg.generator_rating):
+                pw = f"power: turbo-generator {tg.id} (the steam it takes, priced in its headers)"
+                break
+    return out, pw
+
+
+def marginal_flip_estimate(cfg: SiteConfig, d: Drive, prices: dict[str, float],
+                           feedwater_price: float = 0.0) -> float | None:
+    """Marginal estimate of the import price at which steam and motor cost the same [currency/MWh].
+
+    Steam per MWh of shaft work: SR [t/MWh]. It is taken from the inlet header, arrives at
+    the exhaust header as r t per t (r: the exhaust's arrival ratio) and draws r - 1 t of
+    feedwater as desuperheater spray, so it costs
+    SR * (lambda_in - r * lambda_ex + (r - 1) * lambda_fw). The motor costs price / eta_m per
+    MWh of shaft work. Equal when price = eta_m * SR * (lambda_in - r lambda_ex + (r - 1) lambda_fw).
+    """
+    from .equipment.drive import coefficients
+
+    if d.steam_turbine is None or d.motor is None:
+        return None
+    st = SiteStates.of(cfg)
+    co = coefficients(d, st)
+    r = st.arrival_ratio(co.exhaust_h, d.steam_turbine.exhaust)
+    lam_in, lam_ex = prices[d.steam_turbine.inlet], prices[d.steam_turbine.exhaust]
+    return co.motor_efficiency * co.steam_rate * (lam_in - r * lam_ex + (r - 1.0) * feedwater_price)
+
+
+def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
+                 tol: float = 0.5) -> pd.DataFrame:
+    """One row per dual-driver machine: cost of the hour on steam and on motor (full
+    re-solves), the saving, the import price at which the answer flips (bracketing and
+    bisection to ``tol`` [currency/MWh], each step two full re-solves) and the marginal
+    estimate beside it. Sorted by saving."""
+    rows = []
+    p0 = hm.base_import
+    for d in hm.cfg.drives:
+        if d.id not in hm.drive_cols:
+            continue
+        on_steam = hm.solve(WhatIf(force={d.id: "steam"}))
+        on_motor = hm.solve(WhatIf(force={d.id: "motor"}))
+        c_steam, c_motor = on_steam.cost, on_motor.cost
+        d0 = c_steam - c_motor
+        better = "steam" if d0 < -TOL else ("motor" if d0 > TOL else "either")
+        est = marginal_flip_estimate(hm.cfg, d, prices, hm.feedwater_price)
+        rows.append({
+            "machine": d.id, "count": d.count, "now_on_steam": now.get(d.id),
+            "cost_on_steam": c_steam, "cost_on_motor": c_motor, "saving": abs(d0), "better": better,
+            "flip_import_price": _flip_price(hm, d.id, p0, d0, est, tol),
+            "marginal_estimate": est,
+            "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
+        })
+    df = pd.DataFrame(rows)
+    if not df.empty:
+        df = df.sort_values("saving", ascending=False, kind="stable").reset_index(drop=True)
+    return df
+
+
+def _short(st: HourState) -> bool:
+    return any(v > 1e-4 for v in st.short.values()) or st.power_short > 1e-4
+
+
+def _diff(hm: HourModel, did: str, price: float) -> float:
+    """cost(steam) - cost(motor) at an import price: positive means the motor is cheaper."""
+    return hm.cost(WhatIf(force={did: "steam"}, price_import=price)) - \
+        hm.cost(WhatIf(force={did: "motor"}, price_import=price))
+
+
+def _flip_price(hm: HourModel, did: str, p0: float, d0: float, est: float | None, tol: float) -> float | None:
+    """Import price where steam and motor cost the same [currency/MWh], or None when no
+    price between 0 and 20 times the hour's price flips the answer.
+
+    A dearer import price favours steam, so the flip lies above the hour's price when the
+    motor is cheaper now and below it otherwise. The marginal estimate, when it lies on
+    that side, gives a narrow first bracket; otherwise the search steps out geometrically.
+    """
+    if abs(d0) <= TOL:
+        return p0
+    up = d0 > 0
+    hi_p = max(20.0 * abs(p0), 1000.0)
+    a, fa = p0, d0
+    steps = [p0 * k for k in ((1.25, 1.6, 2.5, 4.0, 8.0, 20.0) if up else (0.75, 0.5, 0.25, 0.0))]
+    if est is not None and 0.0 <= est <= hi_p and ((est > p0) if up else (est < p0)):
+        steps = [est * (1.02 if up else 0.98)] + [q for q in steps if (q > est if up else q < est)]
+    for q in steps:
+        fq = _diff(hm, did, q)
+        if fq * fa <= 0:
+            b, fb = q, fq
+            break
+        a, fa = q, fq
+    else:
+        return None
+    while abs(b - a) > tol:
+        mid = 0.5 * (a + b)
+        fm = _diff(hm, did, mid)
+        if fm * fa <= 0:
+            b, fb = mid, fm
+        else:
+            a, fa = mid, fm
+    # linear interpolation inside the last bracket
+    return a + (b - a) * fa / (fa - fb) if fa != fb else 0.5 * (a + b)
+
+
+def what_if_changes(base: HourState, new: HourState) -> list[str]:
+    """Plain-language list of what a what-if changed."""
+    out = []
+    for u, v in new.on.items():
+        if v != base.on.get(u):
+            out.append(f"{u} {'started' if v else 'stopped'}")
+    for d, n in new.on_steam.items():
+        if n != base.on_steam.get(d):
+            out.append(f"{d}: {base.on_steam.get(d)} -> {n} machine(s) on steam")
+    for ld, f in new.letdown.items():
+        b = base.letdown.get(ld, 0.0)
+        if abs(f - b) > 0.05:
+            out.append(f"letdown {ld} {b:.1f} -> {f:.1f} t/h")
+    for vt, f in new.vent.items():
+        b = base.vent.get(vt, 0.0)
+        if abs(f - b) > 0.05:
+            out.append(f"vent {vt} {b:.1f} -> {f:.1f} t/h")
+    for h, s in new.short.items():
+        if s > 1e-4:
+            out.append(f"{h} header SHORT {s:.2f} t/h")
+    if new.power_short > 1e-4:
+        out.append(f"electric bus SHORT {new.power_short:.2f} MW")
+    return out
+
+
+@dataclass
+class Advice:
+    time: str
+    held: dict[str, int]
+    cost: float
+    prices: dict[str, float]
+    power_price: float
+    reasons: dict[str, str]
+    power_reason: str
+    drivers: pd.DataFrame
+    what_if: dict[str, object] | None
+    seconds: float
+
+
+def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir: str | None = None,
+           what_if: WhatIf | None = None, build: BuildOptions = BuildOptions()) -> Advice:
+    """Advice for the hour ``at``: marginal prices, driver table and an optional what-if."""
+    import time as _time
+
+    t0 = _time.perf_counter()
+    i = hour_index(series, at, series_path)
+    held, plan_drivers = held_states(cfg, series, i, plan_dir, build)
+    _check_what_if(cfg, what_if)
+    hm = HourModel(cfg, series, i, held, build)
+    base = hm.solve()
+    prices, power_price, x = hm.marginal_prices()
+    reasons, pw_reason = price_reasons(hm, x)
+    now = plan_drivers if plan_drivers is not None else base.on_steam
+    drivers = driver_table(hm, now, prices)
+    wi = None
+    if what_if is not None and not what_if.empty():
+        # a trip is immediate: boilers that are off cannot take load within the hour, so
+        # the commitment is held; other what-ifs may start a unit, paying its start-up cost
+        hold = "all" if what_if.trip else "on"
+        base_free = hm.solve(hold=hold)
+        new = hm.solve(what_if, hold=hold)
+        wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
+              "changes": what_if_changes(base_free, new),
+              "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4}
+    return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
+                  _time.perf_counter() - t0)
+
+
+def _check_what_if(cfg: SiteConfig, w: WhatIf | None) -> None:
+    if w is None:
+        return
+    dual = {d.id for d in cfg.drives if d.steam_turbine is not None and d.motor is not None}
+    for did, drv in w.force.items():
+        if did not in dual:
+            raise InputError(None, "--force", f"'{did}' is not a machine with both a steam turbine and a motor "
+                             f"(those are: {', '.join(sorted(dual)) or 'none'})")
+        if drv not in ("steam", "motor"):
+            raise InputError(None, "--force", f"'{drv}' must be 'steam' or 'motor'")
+    units = {u.id for u in (*cfg.boilers, *cfg.turbogenerators)}
+    for u in w.trip:
+        if u not in units:
+            raise InputError(None, "--trip", f"'{u}' is not a boiler or turbo-generator")
+    fuels = {f.id for f in cfg.fuels}
+    for f in w.fuel_price:
+        if f not in fuels:
+            raise InputError(None, "--price", f"unknown fuel '{f}'")
+    headers = {h.id for h in cfg.headers}
+    for h in w.demand:
+        if h not in headers:
+            raise InputError(None, "--demand", f"unknown header '{h}'")
+

@@ -1,0 +1,219 @@
+"""Shift advice on tiny sites: prices against a hand derivation and finite differences,
+the break-even power price, trips with and without the reserve."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from cogendispatch.cli import main
+from cogendispatch.decisions import HourModel, WhatIf, advise, hour_index
+from cogendispatch.equipment.common import SiteStates
+from cogendispatch.site import build_site_model
+from cogendispatch.solve import SolveOptions, solve
+from cogendispatch.steam import isentropic_drop, state_pT
+from tiny import series, site
+
+P_MW = 2.0  # pump shaft duty
+ETA_T, ETA_M = 0.6, 0.95
+FUEL = 10.0  # [per GJ]
+ETA_B = 0.85
+MAKEUP = 0.5  # [per t]
+D_HP, D_LP = 10.0, 40.0
+
+
+def _site(**kw):  # noqa: ANN003, ANN202
+    drive = {"id": "P1", "duty": f"{P_MW} MW", "motor": {"efficiency": ETA_M},
+             "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": ETA_T}}
+    return site(drive=[drive], **kw)
+
+
+def _hand(cfg):  # noqa: ANN001, ANN202
+    """Hand derivation of the tiny site's costs, independent of the optimisation model.
+
+    Boiler steam B, letdown flow m, drive steam s, deaerator steam S, feedwater F:
+      HP:  B = m + D_HP + s
+      LP:  r m + r_d s = D_LP + S          (desuperheated arrivals, ratios r, r_d)
+      FW:  F = B + (r - 1) m + (r_d - 1) s (boiler feedwater and spray water)
+      DA:  S = f F, f = (h_fw - h_mu) / (h_LP - h_mu), make-up M = F - S
+    Cost per hour = c B + w M + (import price) x (load + motor power), with
+    c = fuel price x (h_HP - h_fw) / eta_B [per t] and w the make-up water price.
+    """
+    st = SiteStates.of(cfg)
+    h_hp, h_lp, h_fw = st.headers["HP"].h, st.headers["LP"].h, st.h_feedwater
+    h_mu = state_pT(2.0, 20.0).h
+    f = (h_fw - h_mu) / (h_lp - h_mu)
+    r = (h_hp - h_fw) / (h_lp - h_fw)
+    sr = 3600.0 / (ETA_T * isentropic_drop(st.headers["HP"], 5.0))  # [t/MWh]
+    r_d = (h_hp - 3600.0 / sr - h_fw) / (h_lp - h_fw)
+    c = FUEL * (h_hp - h_fw) / 1000.0 / ETA_B
+
+    def steam_cost(d_hp: float, d_lp: float, s: float, fw: float = 0.0) -> float:
+        # unknowns B, m, S, F; fw: extra feedwater drawn [t/h]
+        a = np.array([[1, -1, 0, 0], [0, r, -1, 0], [-1, -(r - 1), 0, 1], [0, 0, 1, -f]], dtype=float)
+        rhs = np.array([d_hp + s, d_lp - r_d * s, (r_d - 1) * s + fw, 0.0])
+        B, m, S, F = np.linalg.solve(a, rhs)
+        assert m > 0  # the letdown is open in the regime derived here
+        return c * B + MAKEUP * (F - S)
+
+    lam_hp = steam_cost(D_HP + 1, D_LP, 0) - steam_cost(D_HP, D_LP, 0)  # linear: exact
+    lam_lp = steam_cost(D_HP, D_LP + 1, 0) - steam_cost(D_HP, D_LP, 0)
+    lam_fw = steam_cost(D_HP, D_LP, 0, 1.0) - steam_cost(D_HP, D_LP, 0)
+    delta = steam_cost(D_HP, D_LP, sr * P_MW) - steam_cost(D_HP, D_LP, 0)  # extra steam cost on turbine
+    flip = ETA_M * delta / P_MW  # where p * P / eta_m equals it
+    return lam_hp, lam_lp, lam_fw, flip, sr, r_d
+
+
+def _boiler():  # noqa: ANN202
+    return [{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "150 t/h", "min_steam": "10 t/h",
+             "efficiency_curve": {"load": [0.05, 1.0], "efficiency": [ETA_B, ETA_B]}}]
+
+
+def test_prices_and_break_even_match_the_hand_derivation() -> None:
+    cfg = _site(boiler=_boiler(), fuel=[{"id": "NG", "price": f"{FUEL} per GJ"}])
+    ser = series(cfg, 1, demand_HP=D_HP, demand_LP=D_LP, price_import=100.0)
+    lam_hp, lam_lp, lam_fw, flip, sr, r_d = _hand(cfg)
+    a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
+    assert a.prices["HP"] == pytest.approx(lam_hp, rel=1e-6)
+    assert a.prices["LP"] == pytest.approx(lam_lp, rel=1e-6)
+    assert a.power_price == pytest.approx(100.0, rel=1e-9)  # import between its limits
+    row = a.drivers.set_index("machine").loc["P1"]
+    assert row.flip_import_price == pytest.approx(flip, abs=0.5)
+    # the marginal estimate eta_m SR (lambda_HP - r_d lambda_LP + (r_d - 1) lambda_fw): in this
+    # linear regime it is exact
+    assert row.marginal_estimate == pytest.approx(ETA_M * sr * (lam_hp - r_d * lam_lp + (r_d - 1) * lam_fw), rel=1e-6)
+    assert row.marginal_estimate == pytest.approx(flip, rel=1e-6)
+    # the recommendation flips either side of the break-even price
+    for factor, better in ((0.9, "motor"), (1.1, "steam")):
+        s2 = series(cfg, 1, demand_HP=D_HP, demand_LP=D_LP, price_import=flip * factor)
+        r2 = advise(cfg, s2, str(s2.time[0]), "<tiny>").drivers.set_index("machine").loc["P1"]
+        assert r2.better == better
+
+
+def test_marginal_prices_equal_finite_differences() -> None:
+    # a curved efficiency (operating between its load points) and a turbo-generator, so the
+    # prices are not simply fuel per tonne
+    boilers = [{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "160 t/h", "min_steam": "16 t/h",
+                "efficiency_curve": {"load": [0.1, 0.4, 1.0], "efficiency": [0.80, 0.86, 0.84]}}]
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "60 t/h", "generator_rating": "8 MW",
+          "section": [{"to": "LP", "efficiency": 0.75}]}
+    cfg = _site(boiler=boilers, turbogenerator=[tg])
+    ser = series(cfg, 1, demand_HP=17.3, demand_LP=61.7, load=9.0, price_import=90.0)
+    a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
+    hm = HourModel(cfg, ser, 0, a.held)
+    for h in ("HP", "LP"):
+        up = hm.cost(WhatIf(demand={h: 1.0})) - a.cost
+        down = a.cost - hm.cost(WhatIf(demand={h: -1.0}))
+        assert 0.5 * (up + down) == pytest.approx(a.prices[h], rel=1e-2)
+    r = hm.power_row
+
+    def with_load(d: float) -> float:
+        hm._reset()
+        hm.h.changeRowBounds(r, hm.rlo0[r] + d, hm.rup0[r] + d)
+        hm.h.run()
+        return hm.h.getInfo().objective_function_value
+
+    assert 0.5 * (with_load(1.0) - with_load(-1.0)) == pytest.approx(a.power_price, rel=1e-2)
+
+
+def test_driver_costs_equal_single_driver_sites() -> None:
+    # the forced re-solves must cost what the same hour costs on a site where the machine
+    # only has that driver (an independent build of the model)
+    cfg = _site(boiler=_boiler(), fuel=[{"id": "NG", "price": f"{FUEL} per GJ"}])
+    ser = series(cfg, 1, demand_HP=D_HP, demand_LP=D_LP, price_import=120.0)
+    row = advise(cfg, ser, str(ser.time[0]), "<tiny>").drivers.set_index("machine").loc["P1"]
+    for key, drop in (("cost_on_steam", "motor"), ("cost_on_motor", "steam_turbine")):
+        d = cfg.drives[0].model_copy(update={drop: None})
+        one = cfg.model_copy(update={"drives": [d]})
+        sm = build_site_model(one, ser)
+        rep = solve(sm, SolveOptions(gap=1e-9))
+        assert rep.objective == pytest.approx(row[key], rel=1e-9)
+
+
+def _three_boilers() -> list[dict]:
+    # poorer at low load, so running fewer boilers harder is cheaper when the reserve allows
+    return [{"id": f"B{i}", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "15 t/h",
+             "efficiency_curve": {"load": [0.25, 1.0], "efficiency": [0.75, 0.85]}} for i in (1, 2, 3)]
+
+
+@pytest.mark.parametrize("reserve", [True, False])
+def test_boiler_trip_with_and_without_reserve(reserve: bool) -> None:
+    cfg = site(boiler=_three_boilers(), reserve={"enabled": reserve})
+    ser = series(cfg, 1, demand_LP=75.0)
+    at = str(ser.time[0])
+    base = advise(cfg, ser, at, "<tiny>")
+    running = [b for b, on in base.held.items() if on and b.startswith("B")]
+    a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(trip=[running[0]]))
+    if reserve:
+        # the reserve kept enough boilers running: losing one leaves every header supplied
+        assert len(running) == 3
+        assert a.what_if["short"] is False
+    else:
+        # without it two boilers carry the load, and losing one leaves a header short
+        assert len(running) == 2
+        assert a.what_if["short"] is True
+        assert any("header SHORT" in c for c in a.what_if["changes"])
+
+
+def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  # noqa: ANN001
+    from pathlib import Path
+    root = Path(__file__).resolve().parents[1] / "plant_configs"
+    out = tmp_path / "adv"
+    rc = main(["advise", str(root / "saltmarsh_refinery.toml"), "--series", str(root / "saltmarsh_week.csv"),
+               "--at", "2027-01-05T10:00", "--force", "CWP=steam", "--out", str(out)])
+    text = capsys.readouterr().out
+    assert rc == 0
+    assert "Marginal prices" in text and "Turbine or motor" in text and "what-if" in text
+    for f in ("advice.json", "prices.csv", "drivers.csv"):
+        assert (out / f).is_file()
+
+
+@pytest.mark.parametrize("args, where", [
+    (["--at", "2030-01-01T00:00"], "--at"),
+    (["--at", "2027-01-05T10:00", "--force", "WGC=steam"], "--force"),
+    (["--at", "2027-01-05T10:00", "--trip", "NOPE"], "--trip"),
+    (["--at", "2027-01-05T10:00", "--price", "gas=3"], "--price"),
+    (["--at", "2027-01-05T10:00", "--demand", "XX=+3"], "--demand"),
+    (["--at", "2027-01-05T10:00", "--demand", "LP=lots"], "--demand"),
+])
+def test_cli_advise_bad_options_exit_2(args: list[str], where: str, capsys) -> None:  # noqa: ANN001
+    from pathlib import Path
+    root = Path(__file__).resolve().parents[1] / "plant_configs"
+    rc = main(["advise", str(root / "saltmarsh_refinery.toml"), "--series", str(root / "saltmarsh_week.csv"), *args])
+    err = capsys.readouterr().err
+    assert rc == 2 and where in err and "Traceback" not in err
+
+
+def test_hour_index_names_a_missing_hour() -> None:
+    cfg = site()
+    ser = series(cfg, 3, demand_LP=10.0)
+    assert hour_index(ser, str(ser.time[2]), "<s>") == 2
+    from cogendispatch.errors import InputError
+    with pytest.raises(InputError, match="not an hour"):
+        hour_index(ser, "2030-01-01 00:00", "<s>")
+
+
+def test_advice_holds_the_plans_states(tmp_path) -> None:  # noqa: ANN001
+    import pandas as pd
+
+    from cogendispatch.outputs import atomic_dir
+    from cogendispatch.plan import write_plan_files
+    from cogendispatch.results import plan_results
+    cfg = site(boiler=_three_boilers(), reserve={"enabled": True},
+               drive=[{"id": "P1", "duty": "2 MW", "motor": {"efficiency": 0.95},
+                       "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": 0.6}}])
+    ser = series(cfg, 4, demand_LP=[30, 75, 75, 30], price_import=[40, 300, 300, 40])
+    # plan the four hours, write the plan folder, then advise hour 2 from it
+    sm = build_site_model(cfg, ser)
+    rep = solve(sm, SolveOptions(gap=1e-9))
+    res = plan_results(sm)
+
+    class _Run:  # the parts write_plan_files needs
+        results = res
+        summary = {"status": rep.status}
+    atomic_dir(tmp_path / "plan", lambda d: write_plan_files(_Run, d))
+    sched = pd.read_csv(tmp_path / "plan" / "schedule.csv", index_col="time")
+    a = advise(cfg, ser, str(ser.time[2]), "<tiny>", plan_dir=str(tmp_path / "plan"))
+    row = sched.iloc[2]
+    assert a.held == {u: int(row[f"{u}.on"]) for u in ("B1", "B2", "B3")}
+    assert a.drivers.set_index("machine").loc["P1"].now_on_steam == int(row["P1.on_steam"])
