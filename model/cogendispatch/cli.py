@@ -73,6 +73,12 @@ def build_parser() -> argparse.ArgumentParser:
     pl.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
     pl.add_argument("--quiet", action="store_true", help="no progress messages")
     pl.add_argument("--json", action="store_true", help="print summary.json to standard output")
+    ve = sub.add_parser("verify", help="re-check a plan's schedule with full IAPWS-IF97 physics",
+                        description="Re-evaluate every hour of a plan folder's schedule with IAPWS-IF97: turbine "
+                        "sections along the actual expansion line, desuperheater and deaerator water from energy "
+                        "balances, boiler fuel from the efficiency curve. Writes verify.csv and "
+                        "verify_sections.csv and updates summary.json (plan runs this itself).")
+    ve.add_argument("dir", help="a folder written by cogen plan")
     ad = sub.add_parser("advise", help="one hour: marginal steam prices, turbine-versus-motor table, what-if",
                         description="Advice for one hour: the marginal cost of steam in each header and of power, "
                         "and for every machine with both drivers the cost of the hour on steam and on motor, the "
@@ -272,6 +278,16 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                   f"export {s['export_MWh']:,.0f} MWh, CO2 {s['co2_t']:,.0f} t")
         out.print(f"time: build {sec['build']:.2f} s, load {sec['load']:.2f} s, start {sec['start']:.2f} s, "
                   f"solve {sec['solve']:.2f} s, total {sec['total']:.2f} s")
+        if "baseline" in s:
+            sv = s["baseline"]["saving"]
+            bt = pd.DataFrame([{"category": k, f"practice [{cur}]": v["baseline"], f"optimised [{cur}]": v["optimised"],
+                                f"saving [{cur}]": v["saving"], "saving [%]": v["saving_pct"]} for k, v in sv.items()])
+            _table(out, "Against the practice baseline", bt)
+            if s["baseline"]["diagnosis"]:
+                out.print(Text("the practice baseline itself leaves demand unmet: "
+                               + "; ".join(s["baseline"]["diagnosis"][:3])))
+        if "verify" in s:
+            out.print(Text(f"verification: {s['verify']['verdict']}"))
         out.print(f"outputs in {Path(args.out).resolve()}")
         out.print(f"[italic]{SAFETY_NOTE}[/italic]")
     if run.results.diagnosis:
@@ -290,6 +306,16 @@ def main(argv: list[str] | None = None) -> int:
             return cmd_inspect(args, out)
         if args.command == "advise":
             return cmd_advise(args, out, err)
+        if args.command == "verify":
+            from .plan import verify_plan_dir
+
+            ver = verify_plan_dir(args.dir)
+            out.print(Text(f"verification: {ver.verdict}"))
+            for w in ver.worst:
+                out.print(Text(f"  worst: {w}"))
+            for f in ver.flags[:20]:
+                out.print(Text(f"  flag: {f}"))
+            return EXIT_OK
         return cmd_plan(args, out, err)
     except InputError as exc:
         for line in str(exc).splitlines():

@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
+from .baseline import practice_baseline, savings
 from .outputs import atomic_dir, check_out_dir, write_csv, write_json
 from .plant.load import load_site
 from .plant.schema import SiteConfig
@@ -14,6 +15,7 @@ from .plant.series import Series, load_series
 from .results import PlanResults, plan_results
 from .site import BuildOptions, SiteModel, build_site_model
 from .solve import SolveOptions, SolveReport, solve
+from .verify import Verification, verify_schedule
 
 SAFETY_NOTE = ("Advice only: cogendispatch does not operate the plant. Equipment limits, protection "
                "systems, local codes and licensed engineering judgment always prevail over this schedule.")
@@ -27,6 +29,7 @@ class PlanRun:
     report: SolveReport
     results: PlanResults
     summary: dict[str, object]
+    verification: Verification | None = None
 
 
 def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, series: Series,
@@ -84,12 +87,58 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     rep.seconds["read"] = read_s
     say(f"{rep.status}: cost {rep.objective:,.0f}, gap {100 * rep.gap:.3f} %")
     res = plan_results(sm)
+    say("re-checking the schedule with IAPWS-IF97 physics")
+    ver = verify_schedule(cfg, series, res.schedule)
     summary = summary_dict(rep, res, cfg, series, str(site_path), str(series_path))
-    run = PlanRun(cfg, series, sm, rep, res, summary)
+    summary["verify"] = ver.summary()
+    say(f"verification: {ver.verdict}")
+    say("pricing the practice baseline (merit-order boilers, fixed turbine throttles, normal drivers)")
+    base = practice_baseline(cfg, series, build_options, time_limit=solve_options.time_limit)
+    summary["baseline"] = {"cost": base.cost, "cost_total": base.total, "diagnosis": base.results.diagnosis,
+                           "saving": savings(res.totals["cost"], base.cost)}
+    run = PlanRun(cfg, series, sm, rep, res, summary, ver)
     if out is not None:
         atomic_dir(out, lambda d: write_plan_files(run, d))
         say(f"wrote {Path(out)}")
     return run
+
+
+def verify_plan_dir(out: str | Path) -> Verification:
+    """Re-run the IAPWS-IF97 check on a plan folder and update its verify files and summary."""
+    import json
+
+    import pandas as pd
+
+    from .errors import InputError
+
+    d = Path(out)
+    try:
+        summary = json.loads((d / "summary.json").read_text(encoding="utf-8"))
+        site, series_path = summary["site"], summary["series"]
+    except FileNotFoundError:
+        raise InputError(d, "", "not a plan folder (no summary.json)") from None
+    except (ValueError, KeyError, TypeError):
+        raise InputError(d / "summary.json", "site/series", "unreadable, or without the site and series paths") from None
+    cfg = load_site(site)
+    series = load_series(series_path, cfg)
+    try:
+        sched = pd.read_csv(d / "schedule.csv", index_col="time", parse_dates=["time"])
+    except (FileNotFoundError, ValueError) as exc:
+        raise InputError(d / "schedule.csv", "", f"cannot read the schedule ({exc})") from None
+    if len(sched) != series.hours:
+        raise InputError(d / "schedule.csv", "", f"{len(sched)} rows but the series has {series.hours} hours")
+    ver = verify_schedule(cfg, series, sched)
+    summary["verify"] = ver.summary()
+
+    def replace(name: str, write: Callable[[Path], None]) -> None:
+        tmp = d / f".{name}.tmp"
+        write(tmp)
+        tmp.replace(d / name)
+
+    replace("verify.csv", lambda p: write_csv(ver.hourly, p))
+    replace("verify_sections.csv", lambda p: write_csv(ver.sections, p, index=False))
+    replace("summary.json", lambda p: write_json(summary, p))
+    return ver
 
 
 def write_plan_files(run: PlanRun, d: Path) -> None:
@@ -99,4 +148,7 @@ def write_plan_files(run: PlanRun, d: Path) -> None:
     write_csv(res.balances, d / "balances.csv", index=False)
     write_csv(res.power, d / "power.csv", index=False)
     write_csv(res.hourly_cost, d / "costs.csv")
+    if run.verification is not None:
+        write_csv(run.verification.hourly, d / "verify.csv")
+        write_csv(run.verification.sections, d / "verify_sections.csv", index=False)
     write_json(run.summary, d / "summary.json")

@@ -1,0 +1,129 @@
+"""The schedule a site runs without an optimiser, priced with the same site model.
+
+Practice rules (common practice, no published source):
+
+* boilers are committed in merit order of full-load efficiency: in each hour the first k
+  boilers run, k the smallest number that supplies every header and keeps the steam
+  reserve; the first hour keeps the initial states, and the runs are stretched to honour
+  minimum up and down times;
+* each turbo-generator with a ``fixed_throttle`` in the site file runs at that throttle
+  (its extractions follow the headers); one without keeps its initial state;
+* each machine with both drivers runs on its ``normal`` driver (steam when not given);
+* letdowns, vent, boiler loads and the grid close the balances (the LP shares the load
+  among the committed boilers as a load allocator would).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .equipment.common import repair_commitment
+from .plant.schema import SiteConfig
+from .plant.series import Series
+from .results import PlanResults, plan_results
+from .site import BuildOptions, build_site_model
+from .solve import LoadedModel
+
+
+@dataclass
+class Baseline:
+    cost: dict[str, float]  # by category over the horizon [currency]
+    total: float
+    results: PlanResults
+    rounds: int  # commitment rounds needed
+
+
+def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = BuildOptions(),
+                      time_limit: float = 60.0) -> Baseline:
+    """Price the practice-rule schedule for ``series`` (see the module docstring)."""
+    sm = build_site_model(cfg, series, build)
+    lm = LoadedModel(sm)
+    h = lm.h
+    m = sm.model
+    hours = list(m.T)
+    blocks = sm.blocks
+    fixed_cols: list[int] = []
+    fixed_vals: list[float] = []
+
+    def fix(var, value: float) -> None:  # noqa: ANN001
+        c = lm.col(var)
+        if c is not None:
+            fixed_cols.append(c)
+            fixed_vals.append(value)
+
+    for d in cfg.drives:
+        blk = blocks[d.id]
+        if hasattr(blk, "on_steam"):
+            v = 0.0 if d.normal == "motor" else 1.0
+            for k in range(d.count):
+                for t in hours:
+                    fix(blk.on_steam[k, t], v)
+    for tg in cfg.turbogenerators:
+        blk = blocks[tg.id]
+        on = 1.0 if tg.fixed_throttle is not None else float(tg.initial_on)
+        if not tg.available:
+            on = 0.0
+        for t in hours:
+            fix(blk.on[t], on)
+            if tg.fixed_throttle is not None and on:
+                fix(blk.throttle[t], tg.fixed_throttle)
+    base_cols = np.array(fixed_cols, dtype=np.int32)
+    base_vals = np.array(fixed_vals)
+
+    merit = sorted([b for b in cfg.boilers if b.available],
+                   key=lambda b: -b.efficiency_curve.efficiency[-1])
+    k = np.ones(len(hours), dtype=int)
+    rounds = 0
+    x = None
+    while True:
+        rounds += 1
+        cols, vals = list(base_cols), list(base_vals)
+        for rank, b in enumerate(merit):
+            blk = blocks[b.id]
+            on = [blk.on[t] for t in hours]
+            fixed = {t: int(round(v.value)) for t, v in enumerate(on) if v.fixed}
+            # hour 0 keeps the initial state: a boiler at load cannot be dropped at once
+            wanted = [1 if (rank < k[t] or b.must_run or (t == 0 and b.initial_on)) else 0 for t in hours]
+            seq = repair_commitment(wanted, fixed, blk.commit_info)
+            for v, s in zip(on, seq):
+                c = lm.col(v)
+                if c is not None:
+                    cols.append(c)
+                    vals.append(float(s))
+        idx = np.array(cols, dtype=np.int32)
+        val = np.array(vals)
+        h.changeColsBounds(len(idx), idx, val, val)
+        lm._run(time_limit, gap=1e-4)
+        ok = h.getInfo().primal_solution_status == 2
+        x = lm.solution() if ok else None
+        h.changeColsBounds(len(idx), idx, lm.col_lower[idx], lm.col_upper[idx])
+        if x is None:
+            raise RuntimeError("the practice-rule schedule has no solution")
+        slacks = [[lm.col(m.steam_short[hh.id, t]) for hh in cfg.headers] + [lm.col(m.reserve_short[t])]
+                  for t in hours]
+        short = np.array([sum(x[c] for c in cs if c is not None) for cs in slacks])
+        more = (short > 1e-6) & (k < len(merit))
+        if not more.any():
+            break
+        k[more] += 1
+    for v, c in zip(lm.vars, lm.cols):
+        v.set_value(x[c], skip_validation=True)
+    res = plan_results(sm)
+    cost = res.totals["cost"]
+    return Baseline(cost=cost, total=float(sum(cost.values())), results=res, rounds=rounds)
+
+
+def savings(optimised: dict[str, float], baseline: dict[str, float]) -> dict[str, dict[str, float]]:
+    """Saving of the optimised schedule against the baseline per cost category [currency and %]."""
+    out = {}
+    for cat in sorted(set(optimised) | set(baseline)):
+        b, o = baseline.get(cat, 0.0), optimised.get(cat, 0.0)
+        out[cat] = {"baseline": b, "optimised": o, "saving": b - o,
+                    "saving_pct": 100.0 * (b - o) / abs(b) if abs(b) > 1e-9 else 0.0}
+    tb, to = sum(baseline.values()), sum(optimised.values())
+    out["total"] = {"baseline": tb, "optimised": to, "saving": tb - to,
+                    "saving_pct": 100.0 * (tb - to) / abs(tb) if abs(tb) > 1e-9 else 0.0}
+    return out
+
