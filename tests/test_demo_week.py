@@ -83,3 +83,16 @@ def test_units_within_limits_and_reserve_holds(week: Path) -> None:
     for d in cfg.drives:
         assert s[f"{d.id}.on_steam"].between(0, d.count).all()
         assert (s[f"{d.id}.on_steam"] + s[f"{d.id}.on_motor"] == d.count).all()
+
+
+def test_verification_and_baseline_in_the_summary(week: Path) -> None:
+    s = json.loads((week / "summary.json").read_text())
+    v = s["verify"]
+    # the target on the demo week: power and fuel within 1 % of IAPWS-IF97 every hour
+    assert v["max_power_error_pct"] < 1.0 and v["max_fuel_error_pct"] < 1.0
+    assert v["verdict"].startswith("linear model within 1 %")
+    assert (week / "verify.csv").is_file()
+    b = s["baseline"]
+    assert b["diagnosis"] == []  # the practice schedule meets the demand too
+    assert b["saving"]["total"]["saving"] > 0
+    assert b["cost_total"] == pytest.approx(b["saving"]["total"]["baseline"])

@@ -1,0 +1,142 @@
+"""The IAPWS-IF97 re-check of schedules, and the practice baseline."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+
+from cogendispatch.baseline import practice_baseline, savings
+from cogendispatch.cli import main
+from cogendispatch.equipment import boiler as boiler_mod
+from cogendispatch.equipment.common import SiteStates
+from cogendispatch.results import plan_results
+from cogendispatch.site import build_site_model
+from cogendispatch.solve import SolveOptions, solve
+from cogendispatch.steam import state_pT, state_ps
+from cogendispatch.verify import boiler_fuel_physical, expand_sections, verify_schedule
+from tiny import series, site
+from test_plan_small import TINY_TOML
+
+
+def _ext_cond(no_load: str, eff2: float = 0.74, inlet_T: str = "400 degC"):  # noqa: ANN202
+    return site(
+        header=[{"id": "HP", "pressure": "40 bar(a)", "temperature": inlet_T},
+                {"id": "LP", "pressure": "5 bar(a)", "temperature": "180 degC"}],
+        condenser=[{"id": "C", "pressure": "0.1 bar(a)", "cooling_capacity": "100 MW"}],
+        turbogenerator=[{"id": "T", "inlet": "HP", "max_throttle": "100 t/h", "generator_rating": "30 MW",
+                         "no_load_loss": no_load,
+                         "section": [{"to": "LP", "efficiency": 0.8, "max_extraction": "100 t/h"},
+                                     {"to": "C", "efficiency": eff2}]}])
+
+
+def test_without_no_load_loss_the_expansion_is_the_design_line() -> None:
+    cfg = _ext_cond("0 MW")
+    st = SiteStates.of(cfg)
+    line = expand_sections(cfg.turbogenerators[0], st, [80.0, 30.0])
+    from cogendispatch.equipment.turbine import coefficients
+    co = coefficients(cfg.turbogenerators[0], st)
+    for (inl, outl, p), sec, f in zip(line, co.sections, [80.0, 30.0]):
+        assert outl.h == pytest.approx(sec.outlet.h, rel=1e-9)
+        assert p == pytest.approx(f * sec.mw_per_tph, rel=1e-9)
+
+
+def test_no_load_loss_stays_in_the_steam() -> None:
+    # with a Willans loss the lost work heats the exhaust: the first section's exhaust is
+    # hotter than at design, and the second section, starting hotter, expands through a larger
+    # isentropic drop (reheat) -- so the physics makes a little more power than the linear model
+    cfg = _ext_cond("1.0 MW")
+    st = SiteStates.of(cfg)
+    from cogendispatch.equipment.turbine import coefficients
+    tg = cfg.turbogenerators[0]
+    co = coefficients(tg, st)
+    flows = [60.0, 20.0]
+    line = expand_sections(tg, st, flows)
+    assert line[0][1].h > co.sections[0].outlet.h
+    # energy: the shaft work is the inlet enthalpy flow less the outlets' (first law)
+    shaft = sum(f * (inl.h - outl.h) / 3600 for f, (inl, outl, _) in zip(flows, line))
+    assert sum(p for _, _, p in line) == pytest.approx(shaft, rel=1e-12)
+    p_model = tg.generator_efficiency * sum(f * s.mw_per_tph for f, s in zip(flows, co.sections)) - 1.0
+    p_phys = tg.generator_efficiency * sum(p for _, _, p in line)
+    assert p_phys > p_model
+    assert p_phys - p_model < 0.05 * p_model
+
+
+def test_boiler_fuel_between_curve_points_by_hand() -> None:
+    cfg = site(boiler=[{"id": "B", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "20 t/h",
+                        "efficiency_curve": {"load": [0.2, 1.0], "efficiency": [0.78, 0.88]}}])
+    b = cfg.boilers[0]
+    co = boiler_mod.coefficients(b, SiteStates.of(cfg))
+    # at a curve point the two agree; at 60 t/h the efficiency is 0.83 by interpolation
+    assert boiler_fuel_physical(co, [0.2, 1.0], [0.78, 0.88], 100, 100.0) == pytest.approx(co.fuel[-1])
+    assert boiler_fuel_physical(co, [0.2, 1.0], [0.78, 0.88], 100, 60.0) == pytest.approx(60 * co.heat_per_t / 0.83)
+    assert boiler_mod.fuel_at(co, 60.0) != pytest.approx(60 * co.heat_per_t / 0.83, rel=1e-4)
+
+
+def test_wet_exhaust_is_flagged() -> None:
+    # 40 bar(a) at 300 degC expanded at 90 % to 0.1 bar(a) ends near x = 0.80 (IAPWS-IF97)
+    cfg = _ext_cond("0 MW", eff2=0.9, inlet_T="300 degC")
+    ser = series(cfg, 2, demand_LP=20.0, price_import=400.0)
+    sm = build_site_model(cfg, ser)
+    solve(sm, SolveOptions(gap=1e-6))
+    res = plan_results(sm)
+    assert (res.schedule["T.exhaust_C_t_h"] > 0).all()
+    x_design = state_ps(0.1, state_pT(40, 300).s)
+    assert x_design.x < 0.88
+    v = verify_schedule(cfg, ser, res.schedule)
+    assert v.flags and "below 0.88" in v.flags[0]
+    assert "wet-exhaust" in v.verdict
+
+
+def test_verify_reports_header_imbalance_and_deaerator_steam() -> None:
+    cfg = _ext_cond("1.0 MW")
+    ser = series(cfg, 3, demand_LP=[30, 50, 40], price_import=300.0)
+    sm = build_site_model(cfg, ser)
+    solve(sm, SolveOptions(gap=1e-6))
+    res = plan_results(sm)
+    v = verify_schedule(cfg, ser, res.schedule)
+    h = v.hourly
+    ext = res.schedule["T.extraction_LP_t_h"].to_numpy()
+    # the hotter extraction needs more desuperheater water: LP gains steam where it flows
+    assert ((h["LP_energy_imbalance_MW"].to_numpy() > 0) == (ext > 1e-6)).all()
+    assert np.abs(h["HP_mass_imbalance_t_h"].to_numpy()).max() < 1e-9
+    assert (h["deaerator_steam_physics_t_h"] >= h["deaerator_steam_model_t_h"] - 1e-9).all()
+
+
+def test_baseline_follows_the_rules_and_never_beats_the_optimiser() -> None:
+    boilers = [{"id": "GOOD", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "12 t/h",
+                "efficiency_curve": {"load": [0.2, 1.0], "efficiency": [0.86, 0.9]}},
+               {"id": "POOR", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "12 t/h",
+                "efficiency_curve": {"load": [0.2, 1.0], "efficiency": [0.76, 0.8]}, "initial_on": False}]
+    drive = {"id": "P", "duty": "1 MW", "normal": "steam", "motor": {"efficiency": 0.95},
+             "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": 0.5}}
+    tg = {"id": "T", "inlet": "HP", "max_throttle": "50 t/h", "generator_rating": "8 MW", "fixed_throttle": "20 t/h",
+          "section": [{"to": "LP", "efficiency": 0.75}]}
+    cfg = site(boiler=boilers, drive=[drive], turbogenerator=[tg])
+    ser = series(cfg, 4, demand_LP=[20, 40, 70, 30], price_import=[20, 60, 60, 20])
+    base = practice_baseline(cfg, ser)
+    s = base.results.schedule
+    assert (s["P.on_steam"] == 1).all()  # its normal driver, cheap power or not
+    assert s["T.throttle_t_h"].tolist() == pytest.approx([20.0] * 4)
+    # merit order: the better boiler runs whenever the poorer one does
+    assert (s["GOOD.on"] >= s["POOR.on"]).all()
+    sm = build_site_model(cfg, ser)
+    rep = solve(sm, SolveOptions(gap=1e-9))
+    assert rep.objective <= base.total + 1e-6
+    sv = savings(plan_results(sm).totals["cost"], base.cost)
+    assert sv["total"]["saving"] == pytest.approx(base.total - rep.objective, rel=1e-9, abs=1e-6)
+
+
+def test_cli_verify_updates_a_plan_folder(tmp_path) -> None:  # noqa: ANN001
+    (tmp_path / "site.toml").write_text(TINY_TOML)
+    (tmp_path / "s.csv").write_text("time,demand:LP [t/h],load [MW],price:import [per MWh]\n"
+                                    "2027-03-01T00:00,20,5,50\n2027-03-01T01:00,30,5,50\n")
+    out = tmp_path / "out"
+    assert main(["plan", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--out", str(out), "--quiet"]) == 0
+    s = json.loads((out / "summary.json").read_text())
+    assert "within 1 %" in s["verify"]["verdict"] and "baseline" in s
+    (out / "verify.csv").unlink()
+    assert main(["verify", str(out)]) == 0
+    assert (out / "verify.csv").is_file()
+    assert main(["verify", str(tmp_path)]) == 2  # not a plan folder
