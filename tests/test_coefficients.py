@@ -139,3 +139,28 @@ def test_deaerator_steam_ratio_by_hand():
     r = heating_steam_ratio(h_fw, h_w, h_s)
     assert r * h_s + (1 - r) * h_w == pytest.approx(h_fw, rel=1e-12)  # energy balance closes
     assert 0.1 < r < 0.15
+
+
+def test_cengel_example_10_8_c_process_heat_and_utilisation_factor():
+    # Cengel & Boles, Example 10-8 (c): 1.5 kg/s throttled to 500 kPa, 10.5 kg/s extracted at
+    # 500 kPa, 3 kg/s to the 5 kPa condenser; process heater leaves saturated liquid.
+    # Published: process heat 26.2 MW, net power 11.0 MW, utilisation factor 86.5 % (0.5 %).
+    from cogendispatch.steam import state_ps, throttled_state
+
+    cfg = _example_10_8_site()
+    st = SiteStates.of(cfg)
+    s1, s2 = turbine_mod.coefficients(cfg.turbogenerators[0], st).sections
+    h1 = s1.inlet.h
+    h7 = state_px(5.0, 0.0).h  # saturated liquid at 500 kPa
+    h_thr = throttled_state(s1.inlet, 5.0).h  # the letdown valve is isenthalpic
+    q_process = (1.5 * (h_thr - h7) + 10.5 * (s1.outlet.h - h7)) / 1000  # [MW]
+    assert q_process == pytest.approx(26.2, rel=5e-3)
+    w_turbine = 13.5 * 3.6 * s1.mw_per_tph + 3.0 * 3.6 * s2.mw_per_tph  # [MW]
+    # pumps, isentropic: condensate from 5 kPa and process return from 500 kPa to 7 MPa
+    f3, f7 = state_px(0.05, 0.0), state_px(5.0, 0.0)
+    h_p1, h_p2 = state_ps(70.0, f3.s).h, state_ps(70.0, f7.s).h
+    w_pumps = (3.0 * (h_p1 - f3.h) + 12.0 * (h_p2 - f7.h)) / 1000
+    h4 = (3.0 * h_p1 + 12.0 * h_p2) / 15.0
+    q_in = 15.0 * (h1 - h4) / 1000
+    assert w_turbine - w_pumps == pytest.approx(11.0, rel=5e-3)
+    assert (w_turbine - w_pumps + q_process) / q_in == pytest.approx(0.865, rel=5e-3)
