@@ -71,6 +71,8 @@ def build_parser() -> argparse.ArgumentParser:
     pl.add_argument("--time-limit", type=_positive, default=120.0, help="solver time limit [s] (default 120)")
     pl.add_argument("--threads", type=int, default=1, help="HiGHS threads (default 1)")
     pl.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
+    pl.add_argument("--moisture-limit", type=_positive, default=0.88,
+                    help="lowest turbine exhaust quality accepted by the re-check (default 0.88, common practice)")
     pl.add_argument("--quiet", action="store_true", help="no progress messages")
     pl.add_argument("--json", action="store_true", help="print summary.json to standard output")
     ve = sub.add_parser("verify", help="re-check a plan's schedule with full IAPWS-IF97 physics",
@@ -79,6 +81,8 @@ def build_parser() -> argparse.ArgumentParser:
                         "balances, boiler fuel from the efficiency curve. Writes verify.csv and "
                         "verify_sections.csv and updates summary.json (plan runs this itself).")
     ve.add_argument("dir", help="a folder written by cogen plan")
+    ve.add_argument("--moisture-limit", type=_positive, default=0.88,
+                    help="lowest exhaust quality accepted (default 0.88, common practice)")
     ad = sub.add_parser("advise", help="one hour: marginal steam prices, turbine-versus-motor table, what-if",
                         description="Advice for one hour: the marginal cost of steam in each header and of power, "
                         "and for every machine with both drivers the cost of the hour on steam and on motor, the "
@@ -257,7 +261,7 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
 
     run = run_plan(args.site, args.series, args.out,
                    SolveOptions(gap=args.gap, time_limit=args.time_limit, threads=args.threads),
-                   BuildOptions(reserve=False if args.no_reserve else None), progress)
+                   BuildOptions(reserve=False if args.no_reserve else None), progress, args.moisture_limit)
     s = run.summary
     if args.json:
         print(json.dumps(s, indent=2, default=str))
@@ -309,7 +313,7 @@ def main(argv: list[str] | None = None) -> int:
         if args.command == "verify":
             from .plan import verify_plan_dir
 
-            ver = verify_plan_dir(args.dir)
+            ver = verify_plan_dir(args.dir, args.moisture_limit)
             out.print(Text(f"verification: {ver.verdict}"))
             for w in ver.worst:
                 out.print(Text(f"  worst: {w}"))

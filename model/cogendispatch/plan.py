@@ -15,7 +15,7 @@ from .plant.series import Series, load_series
 from .results import PlanResults, plan_results
 from .site import BuildOptions, SiteModel, build_site_model
 from .solve import SolveOptions, SolveReport, solve
-from .verify import Verification, verify_schedule
+from .verify import MOISTURE_LIMIT, Verification, verify_schedule
 
 SAFETY_NOTE = ("Advice only: cogendispatch does not operate the plant. Equipment limits, protection "
                "systems, local codes and licensed engineering judgment always prevail over this schedule.")
@@ -67,7 +67,7 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
 
 def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | None = None,
              solve_options: SolveOptions = SolveOptions(), build_options: BuildOptions = BuildOptions(),
-             progress: Callable[[str], None] | None = None) -> PlanRun:
+             progress: Callable[[str], None] | None = None, moisture_limit: float = MOISTURE_LIMIT) -> PlanRun:
     """Plan the hours of ``series_path`` for the site ``site_path`` and write ``out``.
 
     Raises InputError for bad input (before anything is written) and SolveError when the
@@ -88,7 +88,7 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     say(f"{rep.status}: cost {rep.objective:,.0f}, gap {100 * rep.gap:.3f} %")
     res = plan_results(sm)
     say("re-checking the schedule with IAPWS-IF97 physics")
-    ver = verify_schedule(cfg, series, res.schedule)
+    ver = verify_schedule(cfg, series, res.schedule, moisture_limit)
     summary = summary_dict(rep, res, cfg, series, str(site_path), str(series_path))
     summary["verify"] = ver.summary()
     say(f"verification: {ver.verdict}")
@@ -103,7 +103,7 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     return run
 
 
-def verify_plan_dir(out: str | Path) -> Verification:
+def verify_plan_dir(out: str | Path, moisture_limit: float = MOISTURE_LIMIT) -> Verification:
     """Re-run the IAPWS-IF97 check on a plan folder and update its verify files and summary."""
     import json
 
@@ -127,7 +127,7 @@ def verify_plan_dir(out: str | Path) -> Verification:
         raise InputError(d / "schedule.csv", "", f"cannot read the schedule ({exc})") from None
     if len(sched) != series.hours:
         raise InputError(d / "schedule.csv", "", f"{len(sched)} rows but the series has {series.hours} hours")
-    ver = verify_schedule(cfg, series, sched)
+    ver = verify_schedule(cfg, series, sched, moisture_limit)
     summary["verify"] = ver.summary()
 
     def replace(name: str, write: Callable[[Path], None]) -> None:
