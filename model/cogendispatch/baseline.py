@@ -9,8 +9,11 @@ Practice rules (common practice, no published source):
 * each turbo-generator with a ``fixed_throttle`` in the site file runs at that throttle
   (its extractions follow the headers); one without keeps its initial state;
 * each machine with both drivers runs on its ``normal`` driver (steam when not given);
-* letdowns, vent, boiler loads and the grid close the balances (the LP shares the load
-  among the committed boilers as a load allocator would).
+* the committed boilers on a header are loaded in merit order: each at its minimum, then
+  the best one up to its rating before the next rises (the header's total steam as the
+  balances need it); where that breaks a ramp limit or the reserve, the LP shares the load
+  instead, as a load allocator would;
+* letdowns, vent and the grid close the balances.
 """
 
 from __future__ import annotations
@@ -33,6 +36,7 @@ class Baseline:
     total: float
     results: PlanResults
     rounds: int  # commitment rounds needed
+    merit_loaded: bool = True  # False: the LP shared the load (merit loading broke a limit)
 
 
 def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = BuildOptions(),
@@ -108,11 +112,50 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
         if not more.any():
             break
         k[more] += 1
+    x, merit_loaded = _merit_loading(lm, cfg, merit, hours, idx, val, x, short, time_limit)
     for v, c in zip(lm.vars, lm.cols):
         v.set_value(x[c], skip_validation=True)
     res = plan_results(sm)
     cost = res.totals["cost"]
-    return Baseline(cost=cost, total=float(sum(cost.values())), results=res, rounds=rounds)
+    return Baseline(cost=cost, total=float(sum(cost.values())), results=res, rounds=rounds,
+                    merit_loaded=merit_loaded)
+
+
+def _merit_loading(lm: LoadedModel, cfg: SiteConfig, merit: list, hours: list[int], idx: np.ndarray,
+                   val: np.ndarray, x: np.ndarray, short: np.ndarray, time_limit: float) -> tuple[np.ndarray, bool]:
+    """Reload the committed boilers in merit order: each at its minimum, then the best one
+    up to its rating before the next rises, header by header, keeping each header's total
+    steam. Falls back to the LP's sharing (returns False) if the fixed loads would break a
+    ramp limit or the reserve."""
+    blocks = lm.sm.blocks
+    steam_cols, steam_vals = [], []
+    for hdr in cfg.headers:
+        group = [b for b in merit if b.header == hdr.id]
+        for t in hours:
+            on = [b for b in group if (lm.col(blocks[b.id].on[t]) is None and blocks[b.id].on[t].value > 0.5)
+                  or (lm.col(blocks[b.id].on[t]) is not None and x[lm.col(blocks[b.id].on[t])] > 0.5)]
+            total = sum(x[lm.col(blocks[b.id].steam[t])] for b in on)
+            rest = total - sum(b.min_steam for b in on)
+            for b in on:
+                add = min(max(rest, 0.0), b.max_steam - b.min_steam)
+                rest -= add
+                steam_cols.append(lm.col(blocks[b.id].steam[t]))
+                steam_vals.append(b.min_steam + add)
+    cols = np.concatenate([idx, np.array(steam_cols, dtype=np.int32)])
+    vals = np.concatenate([val, np.array(steam_vals)])
+    lm.h.changeColsBounds(len(cols), cols, vals, vals)
+    lm._run(time_limit, gap=1e-4)
+    ok = lm.h.getInfo().primal_solution_status == 2
+    x2 = lm.solution() if ok else None
+    lm.h.changeColsBounds(len(cols), cols, lm.col_lower[cols], lm.col_upper[cols])
+    if x2 is None:
+        return x, False
+    m = lm.sm.model
+    slacks = [[lm.col(m.steam_short[hh.id, t]) for hh in cfg.headers] + [lm.col(m.reserve_short[t])] for t in hours]
+    short2 = np.array([sum(x2[c] for c in cs if c is not None) for cs in slacks])
+    if (short2 > short + 1e-6).any():
+        return x, False
+    return x2, True
 
 
 def savings(optimised: dict[str, float], baseline: dict[str, float]) -> dict[str, dict[str, float]]:
