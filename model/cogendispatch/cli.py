@@ -75,6 +75,22 @@ def build_parser() -> argparse.ArgumentParser:
                     help="lowest turbine exhaust quality accepted by the re-check (default 0.88, common practice)")
     pl.add_argument("--quiet", action="store_true", help="no progress messages")
     pl.add_argument("--json", action="store_true", help="print summary.json to standard output")
+    sd = sub.add_parser("study", help="a long horizon under price scenarios, rolling weekly windows",
+                        description="Plan a long series (a year, or any length) under each scenario of a scenario "
+                        "file, in weekly windows with a look-ahead, scenarios in parallel; write scenarios.csv, "
+                        "monthly.csv and each scenario's hourly schedule as Parquet (whole or not at all).")
+    sd.add_argument("site", help="site file (TOML)")
+    sd.add_argument("--series", required=True, help="base hourly demands and prices (CSV or Excel)")
+    sd.add_argument("--scenarios", required=True, help="scenario file (TOML)")
+    sd.add_argument("--out", required=True, help="output folder")
+    sd.add_argument("--window", type=int, default=168, help="hours kept per window (default 168)")
+    sd.add_argument("--lookahead", type=int, default=24, help="hours solved past each window and discarded (default 24)")
+    sd.add_argument("--gap", type=_positive, default=5e-3, help="relative MIP gap per window (default 0.005)")
+    sd.add_argument("--time-limit", type=_positive, default=60.0, help="solver time limit per window [s] (default 60)")
+    sd.add_argument("--workers", type=int, default=None, help="local worker processes (default: one per core)")
+    sd.add_argument("--cluster", metavar="ADDRESS", help="send the scenarios to this Dask scheduler instead")
+    sd.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
+    sd.add_argument("--quiet", action="store_true", help="no progress bars")
     ve = sub.add_parser("verify", help="re-check a plan's schedule with full IAPWS-IF97 physics",
                         description="Re-evaluate every hour of a plan folder's schedule with IAPWS-IF97: turbine "
                         "sections along the actual expansion line, desuperheater and deaerator water from energy "
@@ -205,6 +221,71 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     return EXIT_OK
 
 
+def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
+    import re
+
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
+
+    from .outputs import atomic_dir, check_out_dir, write_csv, write_json
+    from .plant.load import load_site
+    from .plant.series import load_series
+    from .studies import load_scenarios, run_study, summarise
+
+    if args.window < 1 or args.lookahead < 0:
+        raise InputError(None, "--window", "the window must be at least 1 h and the look-ahead not negative")
+    check_out_dir(Path(args.out).resolve())
+    cfg = load_site(args.site)
+    base = load_series(args.series, cfg)
+    scen = load_scenarios(args.scenarios, cfg, base)
+    build = BuildOptions(reserve=False if args.no_reserve else None)
+    opts = SolveOptions(gap=args.gap, time_limit=args.time_limit)
+    t0 = time.perf_counter()
+    with Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.completed}/{task.total} windows"),
+                  TimeElapsedColumn(), TimeRemainingColumn(), console=err, disable=args.quiet) as bar:
+        n_win = -(-base.hours // args.window)
+        tasks = {ps.name: bar.add_task(ps.name, total=n_win) for ps in scen}
+        results = run_study(cfg, scen, opts, args.window, args.lookahead, build, args.workers, args.cluster,
+                            lambda name, i, n: bar.update(tasks[name], completed=i * n_win // n))
+    secs = time.perf_counter() - t0
+    table = pd.concat([summarise(cfg, r) for r in results], ignore_index=True)
+    monthly = pd.concat([summarise(cfg, r, by_month=True) for r in results], ignore_index=True)
+
+    def slug(k: int, name: str) -> str:
+        return f"{k + 1:02d}_" + (re.sub(r"[^A-Za-z0-9_.-]+", "_", name).strip("_.")[:40] or "scenario")
+
+    def write(d: Path) -> None:
+        write_csv(table, d / "scenarios.csv", index=False)
+        write_csv(monthly, d / "monthly.csv", index=False)
+        (d / "schedules").mkdir()
+        for k, r in enumerate(results):
+            r.schedule.to_parquet(d / "schedules" / f"{slug(k, r.name)}.parquet")
+        write_json({"kind": "study", "site": str(Path(args.site).resolve()), "series": str(Path(args.series).resolve()),
+                    "scenarios": str(Path(args.scenarios).resolve()), "seconds": secs,
+                    "windows": {r.name: [w.__dict__ for w in r.windows] for r in results},
+                    "note": SAFETY_NOTE}, d / "summary.json")
+
+    atomic_dir(args.out, write)
+    cur = cfg.site.currency
+    cols = [c for c in table.columns if c.startswith("cost_")] + ["fuel_GJ", "import_MWh", "export_MWh", "co2_t",
+                                                                  "boiler_starts", "shortfall_hours"]
+    comp = table.set_index("scenario")[cols].T
+    first = comp.columns[0]
+    for c in comp.columns[1:]:
+        comp[f"{c} - {first}"] = comp[c] - comp[first]
+    comp.insert(0, "quantity", [q.replace("cost_", f"cost [{cur}] ") for q in comp.index])
+    _table(out, f"Scenarios over {base.hours} h ({secs:.0f} s)", comp.reset_index(drop=True).astype(object))
+    out.print(f"outputs in {Path(args.out).resolve()}")
+    out.print(f"[italic]{SAFETY_NOTE}[/italic]")
+    short = [r.name for r in results if r.shortfall_hours]
+    if short:
+        for r in results:
+            if r.shortfall_hours:
+                err.print(Text(f"not met: scenario '{r.name}' has {r.shortfall_hours} hour(s) with a shortfall "
+                               "(see monthly.csv and its schedule)"))
+        return EXIT_SHORT
+    return EXIT_OK
+
+
 def _fmt(x: object) -> str:
     if isinstance(x, float):
         if x != x:
@@ -310,6 +391,8 @@ def main(argv: list[str] | None = None) -> int:
             return cmd_inspect(args, out)
         if args.command == "advise":
             return cmd_advise(args, out, err)
+        if args.command == "study":
+            return cmd_study(args, out, err)
         if args.command == "verify":
             from .plan import verify_plan_dir
 

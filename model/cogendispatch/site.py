@@ -21,9 +21,12 @@ from .plant.series import Series
 
 @dataclass(frozen=True)
 class BuildOptions:
-    """Switches for the model: ``reserve`` overrides the site file's reserve setting."""
+    """Switches for the model: ``reserve`` overrides the site file's reserve setting;
+    ``outages`` lists (unit id, first hour, last hour) when a boiler or turbo-generator is
+    unavailable (hour indices of the series, inclusive)."""
 
     reserve: bool | None = None
+    outages: tuple[tuple[str, int, int], ...] = ()
 
 
 @dataclass
@@ -59,6 +62,10 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
     for attr, builder in REGISTRY:
         for unit in getattr(cfg, attr):
             blocks[unit.id] = builder(m, unit, ctx)
+    for uid, first, last in options.outages:
+        on = blocks[uid].on
+        for t in range(max(0, first), min(last, len(hours) - 1) + 1):
+            on[t].fix(0)
     blocks["grid"] = add_grid(m, cfg.grid, ctx)
     blocks["deaerator"] = add_deaerator(m, cfg.deaerator, ctx)
 

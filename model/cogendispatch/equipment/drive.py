@@ -97,6 +97,11 @@ def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:
             blk.switch_down = pyo.Constraint(K, T, rule=_sw_dn)
             blk.switch_gap = pyo.Constraint(
                 K, T, rule=lambda b, k, t: sum(b.switch[k, j] for j in range(max(0, t - L + 1), t + 1)) <= 1)
+            if init is not None:  # a switch made shortly before the horizon still counts
+                for t in hours:
+                    if t < L - d.initial_hours_since_switch:
+                        for k in K:
+                            blk.on_steam[k, t].fix(1 if k < init else 0)
         steam_n = lambda t: sum(blk.on_steam[k, t] for k in K)  # noqa: E731
     else:
         fixed = d.count if d.steam_turbine is not None else 0

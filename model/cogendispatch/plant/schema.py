@@ -162,6 +162,7 @@ class Drive(_Unit):
     normal: Literal["steam", "motor"] | None = None  # driver in the practice baseline
     min_hours_between_switches: Hours = 1.0
     initial_on_steam: int | None = None  # machines on steam before the horizon
+    initial_hours_since_switch: Hours = 1000.0  # [h] since the last change of driver
 
     @model_validator(mode="after")
     def _drivers(self) -> "Drive":

@@ -1,0 +1,374 @@
+"""Budget studies: a long horizon under price scenarios, by rolling horizon, in parallel.
+
+A scenario file (TOML) names scenarios; each changes the base series:
+
+    [[scenario]]
+    name = "gas +30 %"
+    fuel.NG = { multiply = 1.3 }                 # any fuel by id
+    import = { add = "5 per MWh", months = [6, 7, 8] }
+    export = { multiply = 0.9 }
+    co2 = { add = "20 per t" }
+    demand = { LP = 1.05 }                       # scale a header's process demand
+    prices = "high_prices.csv"                   # replacement price columns (optional)
+      [[scenario.outage]]
+      unit = "B3"
+      from = "2027-03-01T00:00"
+      to = "2027-03-14T23:00"                    # inclusive
+
+The year is planned in windows of one week plus a look-ahead (24 h by default) whose
+decisions are discarded; unit states, hours in state, boiler loads and driver states carry
+from one window to the next, so minimum up/down times, ramps and switching limits hold
+across window edges. Scenarios are independent and run in a process pool (spawn start
+method, one HiGHS thread per worker, each worker building its own models) or on a Dask
+distributed scheduler.
+"""
+
+from __future__ import annotations
+
+import multiprocessing as mp
+import os
+import time
+import tomllib
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Annotated, Any, Callable
+
+import numpy as np
+import pandas as pd
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+
+from .errors import InputError, InputErrors, SolveError
+from .plant.load import _pydantic_problems
+from .plant.schema import SiteConfig, _q
+from .plant.series import Series, load_series
+from .results import plan_results
+from .site import BuildOptions, build_site_model
+from .solve import SolveOptions, solve
+
+WEEK = 168
+
+
+class _T(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
+
+
+class PriceChange(_T):
+    multiply: float = Field(default=1.0, ge=0.0)
+    add: str | None = None  # a price with its unit, e.g. "5 per MWh"
+    months: list[Annotated[int, Field(ge=1, le=12)]] | None = None
+
+
+class Outage(_T):
+    unit: str
+    start: str = Field(alias="from")
+    end: str = Field(alias="to")
+
+
+class Scenario(_T):
+    name: str = Field(min_length=1, max_length=60)
+    fuel: dict[str, PriceChange] = Field(default_factory=dict)
+    import_: PriceChange | None = Field(default=None, alias="import")
+    export: PriceChange | None = None
+    co2: PriceChange | None = None
+    demand: dict[str, Annotated[float, Field(ge=0.0)]] = Field(default_factory=dict)
+    prices: str | None = None
+    outages: list[Outage] = Field(default_factory=list, alias="outage")
+
+
+class ScenarioFile(_T):
+    scenarios: list[Scenario] = Field(min_length=1, alias="scenario")
+
+    @model_validator(mode="after")
+    def _unique(self) -> "ScenarioFile":
+        names = [s.name for s in self.scenarios]
+        dup = {n for n in names if names.count(n) > 1}
+        if dup:
+            raise ValueError(f"duplicated scenario name(s): {', '.join(sorted(dup))}")
+        return self
+
+
+@dataclass(frozen=True)
+class PreparedScenario:
+    """A scenario applied: its series and outages as hour ranges."""
+
+    name: str
+    series: Series
+    outages: tuple[tuple[str, int, int], ...]
+
+
+def load_scenarios(path: str | Path, cfg: SiteConfig, base: Series, site_path: str = "") -> list[PreparedScenario]:
+    """Read, validate and apply a scenario file to the base series.
+
+    Raises InputError naming the file, the scenario and the key (unknown fuel, header or
+    unit, a price without its unit, outage dates outside the series).
+    """
+    path = Path(path)
+    try:
+        raw = tomllib.loads(path.read_bytes().decode("utf-8"))
+    except FileNotFoundError:
+        raise InputError(path, "", "file not found") from None
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(path, "", f"not valid TOML: {exc}") from None
+    try:
+        sf = ScenarioFile.model_validate(raw)
+    except ValidationError as err:
+        raise InputErrors(_pydantic_problems(path, raw, err)) from None
+    return [_apply(path, k, sc, cfg, base) for k, sc in enumerate(sf.scenarios)]
+
+
+def _price(path: Path, where: str, ch: PriceChange, kind: str, values: pd.Series) -> pd.Series:
+    from .units import UnitError, parse_price
+
+    add = 0.0
+    if ch.add is not None:
+        try:
+            add = parse_price(ch.add, kind)
+        except UnitError as exc:
+            raise InputError(path, where + " > add", str(exc)) from None
+    new = values * ch.multiply + add
+    if ch.months:
+        mask = values.index.month.isin(ch.months)
+        new = values.where(~mask, new)
+    return new
+
+
+def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> PreparedScenario:
+    here = f"[[scenario]] #{k + 1} ('{sc.name}')"
+    fuels = {f.id for f in cfg.fuels}
+    headers = {h.id for h in cfg.headers}
+    units = {u.id for u in (*cfg.boilers, *cfg.turbogenerators)}
+    s = base
+    if sc.prices is not None:
+        p = Path(sc.prices)
+        if not p.is_absolute():
+            p = path.parent / p
+        repl = load_series(p, cfg)
+        if len(repl.time) != len(base.time) or (repl.time != base.time).any():
+            raise InputError(path, here + " > prices", f"{p} does not cover the same hours as the base series")
+        s = Series(time=s.time, demand=s.demand, load=s.load, price_import=repl.price_import,
+                   price_export=repl.price_export, fuel_price=repl.fuel_price, co2_price=repl.co2_price,
+                   duty=s.duty, source=s.source)
+    fuel_price = s.fuel_price.copy()
+    for fid, ch in sc.fuel.items():
+        if fid not in fuels:
+            raise InputError(path, here + f" > fuel > {fid}", f"unknown fuel '{fid}' (fuels: {', '.join(sorted(fuels))})")
+        fuel_price[fid] = _price(path, here + f" > fuel > {fid}", ch, "price_energy", fuel_price[fid])
+    imp = _price(path, here + " > import", sc.import_, "price_power", s.price_import) if sc.import_ else s.price_import
+    exp = _price(path, here + " > export", sc.export, "price_power", s.price_export) if sc.export else s.price_export
+    co2 = _price(path, here + " > co2", sc.co2, "price_mass", s.co2_price) if sc.co2 else s.co2_price
+    demand = s.demand.copy()
+    for hid, f in sc.demand.items():
+        if hid not in headers:
+            raise InputError(path, here + f" > demand > {hid}", f"unknown header '{hid}'")
+        demand[hid] = demand[hid] * f
+    outages = []
+    for j, o in enumerate(sc.outages):
+        w = here + f" > outage #{j + 1}"
+        if o.unit not in units:
+            raise InputError(path, w + " > unit", f"'{o.unit}' is not a boiler or turbo-generator")
+        try:
+            a, b = pd.Timestamp(o.start), pd.Timestamp(o.end)
+        except (ValueError, TypeError):
+            raise InputError(path, w, "'from' and 'to' must be dates and times") from None
+        if a > b:
+            raise InputError(path, w + " > to", "is before 'from'")
+        if a < base.time[0] or b > base.time[-1]:
+            raise InputError(path, w, f"{o.start} to {o.end} is outside the series ({base.time[0]} to {base.time[-1]})")
+        i0 = int(np.searchsorted(base.time, a))
+        i1 = int(np.searchsorted(base.time, b, side="right")) - 1
+        outages.append((o.unit, i0, i1))
+    ser = Series(time=s.time, demand=demand, load=s.load, price_import=imp, price_export=exp,
+                 fuel_price=fuel_price, co2_price=co2, duty=s.duty, source=s.source)
+    return PreparedScenario(sc.name, ser, tuple(outages))
+
+
+# ------------------------------------------------------------------ rolling horizon
+
+@dataclass
+class WindowReport:
+    start: str
+    end: str
+    build_s: float
+    solve_s: float
+    status: str
+    gap: float
+    tries: int
+
+
+@dataclass
+class ScenarioResult:
+    name: str
+    schedule: pd.DataFrame
+    hourly_cost: pd.DataFrame
+    shortfall_hours: int
+    windows: list[WindowReport] = field(default_factory=list)
+
+
+def carry_states(cfg: SiteConfig, sched: pd.DataFrame, prev: SiteConfig) -> SiteConfig:
+    """The site with its initial states set from the end of a committed schedule."""
+
+    def run_length(col: pd.Series, prior: float) -> tuple[int, float]:
+        v = col.to_numpy().round().astype(int)
+        last = v[-1]
+        n = 0
+        for x in v[::-1]:
+            if x != last:
+                break
+            n += 1
+        return int(last), float(n + (prior if n == len(v) else 0.0))
+
+    boilers = []
+    for b, pb in zip(cfg.boilers, prev.boilers):
+        prior = pb.initial_hours if bool(pb.initial_on) == bool(round(sched[f"{b.id}.on"].iloc[0])) else 0.0
+        on, hrs = run_length(sched[f"{b.id}.on"], prior)
+        boilers.append(b.model_copy(update={"initial_on": bool(on), "initial_hours": hrs,
+                                            "initial_steam": float(sched[f"{b.id}.steam_t_h"].iloc[-1]) if on else None}))
+    tgs = []
+    for t, pt in zip(cfg.turbogenerators, prev.turbogenerators):
+        prior = pt.initial_hours if bool(pt.initial_on) == bool(round(sched[f"{t.id}.on"].iloc[0])) else 0.0
+        on, hrs = run_length(sched[f"{t.id}.on"], prior)
+        tgs.append(t.model_copy(update={"initial_on": bool(on), "initial_hours": hrs}))
+    drives = []
+    for d, pd_ in zip(cfg.drives, prev.drives):
+        col = sched[f"{d.id}.on_steam"]
+        prior = pd_.initial_hours_since_switch if pd_.initial_on_steam == int(round(col.iloc[0])) else 0.0
+        n, hrs = run_length(col, prior)
+        drives.append(d.model_copy(update={"initial_on_steam": n, "initial_hours_since_switch": hrs}))
+    return cfg.model_copy(update={"boilers": boilers, "turbogenerators": tgs, "drives": drives})
+
+
+def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions,
+                    window: int = WEEK, lookahead: int = 24, build: BuildOptions = BuildOptions(),
+                    on_window: Callable[[int, int], None] | None = None) -> ScenarioResult:
+    """Plan ``ps.series`` window by window; returns the committed hours joined."""
+    n = ps.series.hours
+    starts = list(range(0, n, window))
+    scheds, costs, reports = [], [], []
+    cur = cfg
+    for w, s0 in enumerate(starts):
+        length = min(window + lookahead, n - s0)
+        keep = min(window, n - s0)
+        ser = ps.series.window(s0, length)
+        outs = tuple((u, a - s0, b - s0) for u, a, b in ps.outages if b >= s0 and a < s0 + length)
+        opts = BuildOptions(reserve=build.reserve, outages=outs)
+        tries, last_err = 0, None
+        while tries < 2:
+            tries += 1
+            t0 = time.perf_counter()
+            try:
+                sm = build_site_model(cur, ser, opts)
+                o = options if tries == 1 else SolveOptions(gap=options.gap, time_limit=2 * options.time_limit,
+                                                            threads=options.threads)
+                rep = solve(sm, o)
+                break
+            except (SolveError, RuntimeError) as exc:  # retried once, then reported
+                last_err = exc
+        else:
+            raise SolveError(f"scenario '{ps.name}': window {ser.time[0]} to {ser.time[-1]} failed twice: {last_err}")
+        res = plan_results(sm)
+        sched = res.schedule.iloc[:keep]
+        scheds.append(sched)
+        costs.append(res.hourly_cost.iloc[:keep])
+        reports.append(WindowReport(str(ser.time[0]), str(ser.time[keep - 1]), rep.seconds["build"],
+                                    rep.seconds["solve"] + rep.seconds.get("start", 0.0), rep.status, rep.gap, tries))
+        cur = carry_states(cur, sched, cur)
+        if on_window:
+            on_window(w + 1, len(starts))
+    schedule = pd.concat(scheds)
+    hourly = pd.concat(costs).fillna(0.0)
+    bal_short = 0
+    # hours with any shortfall: from the penalty column (only slacks are priced there)
+    if "penalty" in hourly:
+        bal_short = int((hourly["penalty"] > 1e-6).sum())
+    return ScenarioResult(ps.name, schedule, hourly, bal_short, reports)
+
+
+# ------------------------------------------------------------------ summaries
+
+def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.DataFrame:
+    """Totals per scenario (and month): cost by category, fuel, import/export, CO2, starts,
+    running hours per unit, hours on steam per machine, hours with a shortfall."""
+    s, c = r.schedule, r.hourly_cost
+    factors = {f.id: f.co2_factor for f in cfg.fuels}
+    frame = pd.DataFrame(index=s.index)
+    for cat in c.columns:
+        frame[f"cost_{cat}"] = c[cat]
+    frame["cost_total"] = c.sum(axis=1)
+    fuel_cols = {f.id: [f"{b.id}.fuel_{f.id}_GJ_h" for b in cfg.boilers if f.id in b.fuels] for f in cfg.fuels}
+    for fid, cols in fuel_cols.items():
+        frame[f"fuel_{fid}_GJ"] = s[cols].sum(axis=1) if cols else 0.0
+    frame["fuel_GJ"] = frame[[f"fuel_{f}_GJ" for f in fuel_cols]].sum(axis=1)
+    frame["import_MWh"] = s["grid.import_MW"]
+    frame["export_MWh"] = s["grid.export_MW"]
+    frame["co2_t"] = sum(frame[f"fuel_{f}_GJ"] * factors[f] for f in fuel_cols)
+    frame["boiler_starts"] = sum(s[f"{b.id}.start"] for b in cfg.boilers)
+    for u in (*cfg.boilers, *cfg.turbogenerators):
+        frame[f"hours_on_{u.id}"] = s[f"{u.id}.on"]
+    for d in cfg.drives:
+        frame[f"machine_hours_on_steam_{d.id}"] = s[f"{d.id}.on_steam"]
+    frame["shortfall_hours"] = (c["penalty"] > 1e-6).astype(int) if "penalty" in c else 0
+    idx = pd.DatetimeIndex(s.index)
+    if by_month:
+        out = frame.groupby(idx.to_period("M").astype(str)).sum()
+        out.index.name = "month"
+        out.insert(0, "scenario", r.name)
+        return out.reset_index()
+    out = frame.sum().to_frame().T
+    out.insert(0, "scenario", r.name)
+    return out
+
+
+# ------------------------------------------------------------------ parallel runs
+
+def _scenario_job(args: tuple[Any, ...]) -> ScenarioResult:
+    cfg, ps, options, window, lookahead, build, queue = args
+    cb = (lambda i, n: queue.put((ps.name, i, n))) if queue is not None else None
+    return rolling_horizon(cfg, ps, options, window, lookahead, build, cb)
+
+
+def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: SolveOptions,
+              window: int = WEEK, lookahead: int = 24, build: BuildOptions = BuildOptions(),
+              workers: int | None = None, cluster: str | None = None,
+              progress: Callable[[str, int, int], None] | None = None) -> list[ScenarioResult]:
+    """Run every scenario; in a local process pool by default, or on the Dask scheduler at
+    ``cluster``. Results come back in the scenarios' order."""
+    opts = SolveOptions(gap=options.gap, time_limit=options.time_limit, threads=1,
+                        warm_start=options.warm_start, strengthen=options.strengthen)
+    if cluster is not None:
+        from distributed import Client
+
+        with Client(cluster) as client:
+            futs = client.map(_scenario_job, [(cfg, ps, opts, window, lookahead, build, None) for ps in scenarios],
+                              pure=False)
+            out = client.gather(futs)
+        if progress:
+            for ps in scenarios:
+                progress(ps.name, 1, 1)
+        return list(out)
+    n_workers = workers or min(len(scenarios), os.cpu_count() or 1)
+    if n_workers <= 1 or len(scenarios) == 1:
+        return [rolling_horizon(cfg, ps, opts, window, lookahead, build,
+                                (lambda i, n, name=ps.name: progress(name, i, n)) if progress else None)
+                for ps in scenarios]
+    ctx = mp.get_context("spawn")
+    with ctx.Manager() as manager:
+        queue = manager.Queue() if progress else None
+        with ProcessPoolExecutor(max_workers=n_workers, mp_context=ctx) as pool:
+            futs = [pool.submit(_scenario_job, (cfg, ps, opts, window, lookahead, build, queue)) for ps in scenarios]
+            while not all(f.done() for f in futs):
+                _drain(queue, progress)
+                time.sleep(0.2)
+            _drain(queue, progress)
+            return [f.result() for f in futs]
+
+
+def _drain(queue: Any, progress: Callable[[str, int, int], None] | None) -> None:
+    if queue is None or progress is None:
+        return
+    while True:
+        try:
+            name, i, n = queue.get_nowait()
+        except Exception:  # queue.Empty through the manager proxy
+            return
+        progress(name, i, n)

@@ -1,0 +1,57 @@
+"""Time a budget study on the demo site: per-window build and solve seconds, scenarios in
+parallel, and how the time grows with the horizon (weeks of the series repeated)."""
+
+from __future__ import annotations
+
+import argparse
+import resource
+import time
+
+import numpy as np
+import pandas as pd
+
+from cogendispatch.plant.load import load_site
+from cogendispatch.plant.series import parse_series
+from cogendispatch.solve import SolveOptions
+from cogendispatch.studies import PreparedScenario, run_study
+
+
+def year_like(path: str, weeks: int) -> pd.DataFrame:
+    """The demo week repeated ``weeks`` times with fresh timestamps (benchmark data only)."""
+    wk = pd.read_csv(path)
+    df = pd.concat([wk] * weeks, ignore_index=True)
+    df["time"] = pd.date_range(wk["time"].iloc[0], periods=len(df), freq="h").strftime("%Y-%m-%dT%H:%M")
+    return df
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__)
+    ap.add_argument("--site", default="plant_configs/saltmarsh_refinery.toml")
+    ap.add_argument("--series", default="plant_configs/saltmarsh_week.csv")
+    ap.add_argument("--weeks", type=int, default=2)
+    ap.add_argument("--scenarios", type=int, default=2)
+    ap.add_argument("--time-limit", type=float, default=20.0, help="per window [s]")
+    ap.add_argument("--gap", type=float, default=0.01)
+    a = ap.parse_args()
+    cfg = load_site(a.site)
+    opts = SolveOptions(gap=a.gap, time_limit=a.time_limit)
+    timings = {}
+    for weeks in sorted({1, a.weeks}):
+        ser = parse_series(year_like(a.series, weeks).astype(str), cfg, "bench")
+        scen = [PreparedScenario(f"s{k}", ser.window(0, ser.hours), ()) for k in range(a.scenarios)]
+        t0 = time.perf_counter()
+        res = run_study(cfg, scen, opts)
+        timings[weeks] = time.perf_counter() - t0
+        w = res[0].windows
+        print(f"{weeks} week(s) x {a.scenarios} scenario(s): {timings[weeks]:.1f} s wall; per window: build "
+              f"{np.mean([x.build_s for x in w]):.2f} s, solve {np.mean([x.solve_s for x in w]):.2f} s, "
+              f"gaps {', '.join(f'{100 * x.gap:.2f}%' for x in w)}")
+    if len(timings) > 1:
+        print(f"time({a.weeks} weeks) / time(1 week) = {timings[a.weeks] / timings[1]:.1f} (linear would be {a.weeks})")
+    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    kids = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+    print(f"peak memory: main {rss:.0f} MB, largest worker {kids:.0f} MB")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,180 @@
+"""Budget studies: scenarios applied and validated, rolling horizon against the monolithic
+solve, states carried across windows, process pool and Dask results equal to serial."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from cogendispatch.cli import main
+from cogendispatch.errors import InputError
+from cogendispatch.site import build_site_model
+from cogendispatch.solve import SolveOptions, solve
+from cogendispatch.studies import PreparedScenario, load_scenarios, rolling_horizon, run_study, summarise
+from tiny import series, site
+
+FAST = SolveOptions(gap=1e-4, time_limit=60, warm_start=False)
+
+
+def _site():  # noqa: ANN202
+    boilers = [{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "80 t/h", "min_steam": "20 t/h",
+                "startup_cost": 800, "min_up": "6 h", "min_down": "4 h", "ramp_up": "30 t/h", "ramp_down": "30 t/h",
+                "initial_steam": "40 t/h", "efficiency_curve": {"load": [0.25, 1.0], "efficiency": [0.78, 0.88]}},
+               {"id": "B2", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "15 t/h",
+                "startup_cost": 500, "min_up": "4 h", "min_down": "4 h", "initial_on": False,
+                "efficiency_curve": {"load": [0.25, 1.0], "efficiency": [0.75, 0.84]}}]
+    drive = {"id": "P1", "duty": "2 MW", "motor": {"efficiency": 0.95}, "min_hours_between_switches": "6 h",
+             "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": 0.6}}
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "80 t/h", "min_throttle": "10 t/h", "generator_rating": "10 MW",
+          "no_load_loss": "0.3 MW", "min_up": "8 h", "min_down": "6 h", "startup_cost": 1000,
+          "section": [{"to": "LP", "efficiency": 0.75}]}
+    return site(boiler=boilers, drive=[drive], turbogenerator=[tg])
+
+
+def _two_weeks(cfg, seed: int = 1):  # noqa: ANN001, ANN202
+    n = 336
+    t = np.arange(n)
+    day = np.sin(2 * np.pi * (t % 24 - 9) / 24)
+    rng = np.random.default_rng(seed)
+    return series(cfg, n, demand_LP=list(60 + 25 * day + rng.normal(0, 3, n)), load=6.0,
+                  price_import=list(np.where((t % 24 >= 8) & (t % 24 < 20), 180, 50) + rng.normal(0, 5, n)))
+
+
+def test_rolling_horizon_is_within_half_a_percent_of_the_monolithic_solve() -> None:
+    cfg = _site()
+    ser = _two_weeks(cfg)
+    sm = build_site_model(cfg, ser)
+    mono = solve(sm, FAST)
+    assert mono.status == "optimal"
+    r = rolling_horizon(cfg, PreparedScenario("base", ser, ()), FAST)
+    assert len(r.windows) == 2 and len(r.schedule) == 336
+    rolled = float(r.hourly_cost.to_numpy().sum())
+    assert rolled == pytest.approx(mono.objective, rel=5e-3)
+    assert rolled >= mono.objective * (1 - 2e-4)  # the monolithic optimum is a lower bound (within its gap)
+
+
+def test_min_up_time_holds_across_a_window_edge() -> None:
+    # B2 must start for the peak in hours 22-23, the last hours of the first 24 h window;
+    # with a 4 h minimum up time it stays on in hours 24-25 of the next window
+    cfg = site(boiler=[
+        {"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}},
+        {"id": "B2", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "20 t/h",
+         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.70, 0.70]}, "initial_on": False, "min_up": "4 h"}],
+        letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
+    demand = [30.0] * 48
+    demand[22] = demand[23] = 130.0
+    ser = series(cfg, 48, demand_LP=demand)
+    r = rolling_horizon(cfg, PreparedScenario("x", ser, ()), FAST, window=24, lookahead=0)
+    on = r.schedule["B2.on"].to_numpy().astype(int)
+    assert on[22] == on[23] == 1
+    assert on[24] == on[25] == 1  # carried: it started at hour 22 (or 21)
+    assert on[22:].sum() <= 4 + (1 - on[21])  # and not longer than it must
+
+
+def _scenario_file(tmp_path, text: str):  # noqa: ANN001, ANN202
+    p = tmp_path / "sc.toml"
+    p.write_text(text)
+    return p
+
+
+def test_scenarios_change_prices_demand_and_take_units_out(tmp_path) -> None:  # noqa: ANN001
+    cfg = _site()
+    base = series(cfg, 24 * 40, demand_LP=50.0, price_import=100.0)  # March 1 to April 9
+    p = _scenario_file(tmp_path, """
+[[scenario]]
+name = "base"
+[[scenario]]
+name = "dear"
+fuel.NG = { multiply = 1.5, add = "1 per GJ" }
+import = { add = "10 per MWh", months = [4] }
+demand = { LP = 1.1 }
+  [[scenario.outage]]
+  unit = "B2"
+  from = "2027-03-02T00:00"
+  to = "2027-03-03T05:00"
+""")
+    b, d = load_scenarios(p, cfg, base)
+    assert b.series.fuel_price["NG"].iloc[0] == pytest.approx(10.0)
+    assert d.series.fuel_price["NG"].iloc[0] == pytest.approx(16.0)
+    march = d.series.time.month == 3
+    assert d.series.price_import[march].to_numpy() == pytest.approx(100.0)
+    assert d.series.price_import[~march].to_numpy() == pytest.approx(110.0)
+    assert d.series.demand["LP"].iloc[0] == pytest.approx(55.0)
+    assert d.outages == (("B2", 24, 53),)
+
+
+@pytest.mark.parametrize("text, where", [
+    ('[[scenario]]\nname = "a"\nfuel.XX = { multiply = 2 }\n', "fuel > XX"),
+    ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "NOPE"\nfrom = "2027-03-01"\nto = "2027-03-02"\n', "unit"),
+    ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "2029-03-01"\nto = "2029-03-02"\n', "outside"),
+    ('[[scenario]]\nname = "a"\nimport = { add = "10" }\n', "import > add"),
+    ('[[scenario]]\nname = "a"\n[[scenario]]\nname = "a"\n', "duplicated scenario"),
+    ('[[scenario]]\nname = "a"\ndemand = { XX = 1.1 }\n', "demand > XX"),
+    ('[[scenario]]\nname = "a"\nwind = 3\n', "unknown key"),
+    ('[[scenario]\nname = "a"\n', "not valid TOML"),
+])
+def test_bad_scenarios_name_the_place(tmp_path, text: str, where: str) -> None:  # noqa: ANN001
+    cfg = _site()
+    with pytest.raises(InputError) as e:
+        load_scenarios(_scenario_file(tmp_path, text), cfg, series(cfg, 24, demand_LP=50.0))
+    assert where in str(e.value) and "sc.toml" in str(e.value)
+
+
+def test_outage_keeps_the_unit_off() -> None:
+    cfg = _site()
+    ser = series(cfg, 48, demand_LP=60.0)
+    r = rolling_horizon(cfg, PreparedScenario("o", ser, (("B1", 10, 30),)), FAST, window=24, lookahead=6)
+    assert (r.schedule["B1.on"].iloc[10:31] == 0).all()
+
+
+def _three(cfg):  # noqa: ANN001, ANN202
+    ser = _two_weeks(cfg, seed=3)
+    ser = ser.window(0, 72)
+    return [PreparedScenario("a", ser, ()), PreparedScenario("b", ser, (("B2", 5, 20),)),
+            PreparedScenario("c", ser, ())]
+
+
+def test_process_pool_results_equal_serial() -> None:
+    cfg = _site()
+    sc = _three(cfg)
+    serial = run_study(cfg, sc, FAST, window=24, lookahead=6, workers=1)
+    pooled = run_study(cfg, sc, FAST, window=24, lookahead=6, workers=2)
+    for a, b in zip(serial, pooled):
+        assert a.name == b.name
+        pd.testing.assert_frame_equal(a.schedule, b.schedule)
+
+
+def test_dask_local_cluster_results_equal_serial() -> None:
+    distributed = pytest.importorskip("distributed")
+    cfg = _site()
+    sc = _three(cfg)[:2]
+    serial = run_study(cfg, sc, FAST, window=24, lookahead=6, workers=1)
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                                  dashboard_address=None) as cluster:
+        remote = run_study(cfg, sc, FAST, window=24, lookahead=6, cluster=cluster.scheduler_address)
+    for a, b in zip(serial, remote):
+        pd.testing.assert_frame_equal(a.schedule, b.schedule)
+        pd.testing.assert_frame_equal(summarise(cfg, a), summarise(cfg, b))
+
+
+def test_cli_study_writes_the_outputs(tmp_path) -> None:  # noqa: ANN001
+    from pathlib import Path
+    root = Path(__file__).resolve().parents[1] / "plant_configs"
+    sc = _scenario_file(tmp_path, '[[scenario]]\nname = "base"\n[[scenario]]\nname = "=cheap power"\n'
+                                  'import = { multiply = 0.5 }\n')
+    ser = tmp_path / "day.csv"
+    pd.read_csv(root / "saltmarsh_week.csv").iloc[:12].to_csv(ser, index=False)
+    out = tmp_path / "study"
+    rc = main(["study", str(root / "saltmarsh_refinery.toml"), "--series", str(ser), "--scenarios", str(sc),
+               "--out", str(out), "--window", "6", "--lookahead", "2", "--time-limit", "10", "--gap", "0.01",
+               "--workers", "1", "--quiet"])
+    assert rc == 0
+    table = pd.read_csv(out / "scenarios.csv")
+    assert table.scenario.tolist() == ["base", "'=cheap power"]  # quoted: never a spreadsheet formula
+    assert table.cost_import.iloc[1] < table.cost_import.iloc[0]
+    monthly = pd.read_csv(out / "monthly.csv")
+    assert set(monthly.month) == {"2027-01"}
+    s = pd.read_parquet(out / "schedules" / "01_base.parquet")
+    assert len(s) == 12
