@@ -228,3 +228,15 @@ def test_cli_plan_exits_3_with_a_diagnosis_and_still_writes_the_schedule(tmp_pat
     # the boiler is the limit: the slack lands on HP, upstream of the letdown feeding LP
     assert "HP header short" in err and "hour 1" in err
     assert (out / "schedule.csv").is_file() and (out / "summary.json").is_file()
+
+
+def test_diagnosis_names_the_binding_limits():
+    # 150 t/h of LP demand: the 100 t/h boiler is at its rating (the letdown, 200 t/h, is not)
+    cfg = site(letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
+    _, rep, res = run(cfg, series(cfg, 2, demand_LP=[50, 150]))
+    assert len(res.diagnosis) == 1
+    assert "binding in hour 1: B1 at its 100 t/h rating" in res.diagnosis[0]
+    # and a power load above the import limit names the grid
+    cfg = site(grid={"max_import": "3 MW"})
+    _, rep, res = run(cfg, series(cfg, 1, demand_LP=20.0, load=5.0))
+    assert any(d.startswith("electric bus short") and "grid import at its 3 MW limit" in d for d in res.diagnosis)

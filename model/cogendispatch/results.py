@@ -136,30 +136,67 @@ def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
     return out
 
 
+def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
+    """Equipment at an upper limit (or held off) in hour ``t``: what stops more supply."""
+    cfg, b = sm.ctx.cfg, sm.blocks
+    out = []
+    for bo in cfg.boilers:
+        blk = b[bo.id]
+        if _val(blk.on[t]) < 0.5:
+            why = "unavailable" if (not bo.available or blk.on[t].fixed) else "off"
+            out.append(f"{bo.id} {why}")
+        elif _val(blk.steam[t]) >= bo.max_steam - 1e-4:
+            out.append(f"{bo.id} at its {bo.max_steam:g} t/h rating")
+    for tg in cfg.turbogenerators:
+        blk = b[tg.id]
+        if _val(blk.on[t]) > 0.5:
+            if _val(blk.throttle[t]) >= tg.max_throttle - 1e-4:
+                out.append(f"{tg.id} at its {tg.max_throttle:g} t/h throttle limit")
+            if _val(blk.power[t]) >= tg.generator_rating - 1e-4:
+                out.append(f"{tg.id} at its {tg.generator_rating:g} MW rating")
+        elif power:
+            out.append(f"{tg.id} {'unavailable' if blk.on[t].fixed else 'off'}")
+    if not power:
+        for ld in cfg.letdowns:
+            if _val(b[ld.id].flow[t]) >= ld.max_flow - 1e-4:
+                out.append(f"{ld.id} at its {ld.max_flow:g} t/h capacity")
+    if power and _val(sm.model.grid.imp[t]) >= cfg.grid.max_import - 1e-4:
+        out.append(f"grid import at its {cfg.grid.max_import:g} MW limit")
+    return out
+
+
 def diagnose(sm: SiteModel) -> list[str]:
-    """Name each header (or the electric bus, or the reserve) that is short, when and by how much."""
+    """Name each header (or the electric bus, or the reserve) that is short, when, by how
+    much, and the equipment limits binding at the worst hour."""
     m, ctx = sm.model, sm.ctx
     hours, time = ctx.hours, ctx.series.time
     msgs = []
 
-    def report(values: np.ndarray, what: str, unit: str, hint: str) -> None:
+    def report(values: np.ndarray, what: str, unit: str, hint: str, limits: bool = False,
+               power: bool = False) -> None:
         for a, b in _runs(values > TOL):
             peak = values[a:b + 1].max()
+            worst = a + int(np.argmax(values[a:b + 1]))
             span = f"hour {a}" if a == b else f"hours {a}-{b}"
-            msgs.append(f"{what} {peak:.2f} {unit} at most in {span} "
-                        f"({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M}); {hint}")
+            msg = (f"{what} {peak:.2f} {unit} at most in {span} "
+                   f"({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M}); {hint}")
+            if limits:
+                bind = binding_limits(sm, worst, power)
+                if bind:
+                    msg += f"; binding in hour {worst}: " + ", ".join(bind)
+            msgs.append(msg)
 
     for h in ctx.cfg.headers:
         report(_series(lambda t, h=h.id: m.steam_short[h, t], hours), f"{h.id} header short", "t/h",
-               "the units that feed it are at their limits")
+               "the units that feed it are at their limits", limits=True)
         report(_series(lambda t, h=h.id: m.steam_surplus[h, t], hours), f"{h.id} header surplus", "t/h",
                "nothing can take this steam (add a vent or letdown, or lower minimum flows)")
     report(_series(lambda t: m.power_short[t], hours), "electric bus short", "MW",
-           "generation plus the import limit cannot meet the load")
+           "generation plus the import limit cannot meet the load", limits=True, power=True)
     report(_series(lambda t: m.power_surplus[t], hours), "electric bus surplus", "MW",
            "generation above load plus the export limit")
     report(_series(lambda t: m.reserve_short[t], hours), "steam reserve short", "t/h",
-           "losing the largest running boiler could not be covered")
+           "losing the largest running boiler could not be covered", limits=True)
     return msgs
 
 

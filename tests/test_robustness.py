@@ -1,0 +1,179 @@
+"""Robustness: interrupted and concurrent runs, solver failures, fuzzed sites and files."""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import re
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from cogendispatch import plan as plan_mod
+from cogendispatch.cli import main
+from cogendispatch.errors import SolveError
+from cogendispatch.results import plan_results
+from cogendispatch.site import build_site_model
+from cogendispatch.solve import SolveOptions, solve
+from test_crosschecks import small_sites
+from test_plan_small import TINY_TOML
+
+ROOT = Path(__file__).resolve().parents[1]
+SERIES = ("time,demand:LP [t/h],load [MW],price:import [per MWh]\n"
+          + "".join(f"2027-03-01T{h:02d}:00,{20 + h},5,{50 + 5 * h}\n" for h in range(12)))
+
+
+def _files(tmp_path: Path) -> tuple[Path, Path]:
+    (tmp_path / "site.toml").write_text(TINY_TOML)
+    (tmp_path / "s.csv").write_text(SERIES)
+    return tmp_path / "site.toml", tmp_path / "s.csv"
+
+
+def _digest(d: Path) -> dict[str, str]:
+    return {p.name: hashlib.sha256(p.read_bytes()).hexdigest() for p in sorted(d.iterdir())}
+
+
+def test_interrupted_write_leaves_the_previous_results(tmp_path, monkeypatch) -> None:  # noqa: ANN001
+    site, ser = _files(tmp_path)
+    out = tmp_path / "out"
+    assert main(["plan", str(site), "--series", str(ser), "--out", str(out), "--quiet"]) == 0
+    before = _digest(out)
+    real = plan_mod.write_plan_files
+
+    def half_then_ctrl_c(run, d):  # noqa: ANN001, ANN202
+        real(run, d)
+        (d / "schedule.csv").write_text("half")
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(plan_mod, "write_plan_files", half_then_ctrl_c)
+    assert main(["plan", str(site), "--series", str(ser), "--out", str(out), "--quiet"]) == 130
+    assert _digest(out) == before
+    assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".out.")] == []
+
+
+def test_killed_runs_never_leave_a_partial_output(tmp_path) -> None:  # noqa: ANN001
+    site, ser = _files(tmp_path)
+    out = tmp_path / "out"
+    assert main(["plan", str(site), "--series", str(ser), "--out", str(out), "--quiet"]) == 0
+    names = set(_digest(out))
+    env = dict(os.environ, PYTHONPATH=str(ROOT / "model") + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    for delay in (0.3, 0.8, 1.3, 1.8, 2.5):
+        p = subprocess.Popen([sys.executable, "-m", "cogendispatch.cli", "plan", str(site), "--series", str(ser),
+                              "--out", str(out), "--quiet"], env=env, stdout=subprocess.DEVNULL,
+                             stderr=subprocess.DEVNULL)
+        time.sleep(delay)
+        p.send_signal(signal.SIGKILL)
+        p.wait()
+        # whatever the moment of the kill, the folder holds one complete set of results
+        assert set(_digest(out)) == names
+        assert (out / "summary.json").read_text().strip().endswith("}")
+
+
+def test_two_runs_at_once_do_not_interfere(tmp_path) -> None:  # noqa: ANN001
+    site, ser = _files(tmp_path)
+    env = dict(os.environ, PYTHONPATH=str(ROOT / "model") + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    procs = [subprocess.Popen([sys.executable, "-m", "cogendispatch.cli", "plan", str(site), "--series", str(ser),
+                               "--out", str(tmp_path / f"out{k}"), "--quiet"], env=env,
+                              stdout=subprocess.DEVNULL, stderr=subprocess.PIPE) for k in (1, 2)]
+    for p in procs:
+        assert p.wait(timeout=120) == 0, p.stderr.read()
+    a, b = (tmp_path / "out1" / "schedule.csv").read_text(), (tmp_path / "out2" / "schedule.csv").read_text()
+    assert a == b
+
+
+def test_no_schedule_at_all_is_a_clear_error(tmp_path, monkeypatch, capsys) -> None:  # noqa: ANN001
+    from cogendispatch import solve as solve_mod
+
+    site, ser = _files(tmp_path)
+
+    def nothing(self, options, progress=None):  # noqa: ANN001, ANN202
+        return solve_mod.SolveReport(status="time limit", objective=float("nan"), bound=float("nan"), gap=float("inf"))
+
+    monkeypatch.setattr(solve_mod.LoadedModel, "solve_mip", nothing)
+    rc = main(["plan", str(site), "--series", str(ser), "--out", str(tmp_path / "out"), "--quiet"])
+    err = capsys.readouterr().err
+    assert rc == 4 and "without any schedule" in err and "Traceback" not in err
+    assert not (tmp_path / "out").exists()
+    with pytest.raises(SolveError):
+        solve(build_site_model(*_tiny_model_inputs(tmp_path)), SolveOptions())
+
+
+def _tiny_model_inputs(tmp_path: Path):  # noqa: ANN202
+    from cogendispatch.plant.load import load_site
+    from cogendispatch.plant.series import load_series
+    cfg = load_site(tmp_path / "site.toml")
+    return cfg, load_series(tmp_path / "s.csv", cfg)
+
+
+def test_time_limit_returns_the_best_schedule_with_its_gap() -> None:
+    from cogendispatch.plant.load import load_site
+    from cogendispatch.plant.series import load_series
+    cfg = load_site(ROOT / "plant_configs" / "saltmarsh_refinery.toml")
+    ser = load_series(ROOT / "plant_configs" / "saltmarsh_week.csv", cfg).window(0, 72)
+    rep = solve(build_site_model(cfg, ser), SolveOptions(gap=1e-9, time_limit=8))
+    assert rep.status == "time limit" and rep.has_solution and rep.gap > 0
+
+
+# ------------------------------------------------------------------ fuzzing
+
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(small_sites(), st.floats(0.5, 4.0))
+def test_random_valid_sites_solve_or_are_diagnosed(case, scale: float) -> None:  # noqa: ANN001
+    cfg, ser = case
+    ser = ser.window(0, ser.hours)
+    demand = ser.demand * scale  # up to four times: some weeks are impossible
+    ser = type(ser)(**{**ser.__dict__, "demand": demand})
+    sm = build_site_model(cfg, ser)
+    rep = solve(sm, SolveOptions(gap=1e-6, time_limit=20))
+    res = plan_results(sm)
+    sums = res.balances.groupby(["time", "header"]).flow_t_h.sum()
+    assert np.abs(sums.to_numpy()).max() < 1e-6  # closed, slacks included
+    short = res.balances[res.balances.term.str.startswith("shortfall")].flow_t_h.abs().max()
+    assert (short > 1e-5) == any("short" in d for d in res.diagnosis)
+    assert rep.has_solution
+
+
+DEMO = (ROOT / "plant_configs" / "saltmarsh_refinery.toml").read_text()
+_QTY = [m for m in re.finditer(r'^(\s*\w+ = ")([-0-9.]+) ([^"]+)"', DEMO, re.M)]
+_REF = [m for m in re.finditer(r'^(\s*(?:header|inlet|to|from|heating_steam|ejector_header) = ")([^"]+)"', DEMO, re.M)]
+_TABLES = [m for m in re.finditer(r"^\s*\[\[?[a-z.]+\]\]?\s*$", DEMO, re.M)]
+
+
+@st.composite
+def broken_site(draw):  # noqa: ANN001, ANN201
+    kind = draw(st.sampled_from(["unit", "bare", "ref", "key", "toml"]))
+    if kind == "unit":
+        m = draw(st.sampled_from(_QTY))
+        return DEMO[:m.start()] + f'{m.group(1)}{m.group(2)} zorks"' + DEMO[m.end():]
+    if kind == "bare":
+        m = draw(st.sampled_from(_QTY))
+        return DEMO[:m.start()] + m.group(1)[:-1] + m.group(2) + DEMO[m.end():]
+    if kind == "ref":
+        m = draw(st.sampled_from(_REF))
+        return DEMO[:m.start()] + f'{m.group(1)}NOWHERE"' + DEMO[m.end():]
+    if kind == "key":
+        m = draw(st.sampled_from(_TABLES))
+        return DEMO[:m.end()] + "\nsurplus_knob = 3" + DEMO[m.end():]
+    lines = DEMO.splitlines()
+    code = [i for i, ln in enumerate(lines) if ln.strip() and not ln.lstrip().startswith("#")]
+    i = draw(st.sampled_from(code))
+    lines[i] = '"[= ' + lines[i]  # broken TOML syntax on a line that is not a comment
+    return "\n".join(lines)
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(broken_site())
+def test_mutated_site_files_exit_2_with_a_message(tmp_path, capsys, text: str) -> None:  # noqa: ANN001
+    p = tmp_path / "mutated.toml"
+    p.write_text(text)
+    rc = main(["inspect", str(p)])
+    err = capsys.readouterr().err
+    assert rc == 2
+    assert "mutated.toml" in err and "Traceback" not in err
