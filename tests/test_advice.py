@@ -212,6 +212,7 @@ def test_advice_holds_the_plans_states(tmp_path) -> None:  # noqa: ANN001
         results = res
         summary = {"status": rep.status}
         verification = None
+        units = "si"
     atomic_dir(tmp_path / "plan", lambda d: write_plan_files(_Run, d))
     sched = pd.read_csv(tmp_path / "plan" / "schedule.csv", index_col="time")
     a = advise(cfg, ser, str(ser.time[2]), "<tiny>", plan_dir=str(tmp_path / "plan"))

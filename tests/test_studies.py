@@ -178,3 +178,7 @@ def test_cli_study_writes_the_outputs(tmp_path) -> None:  # noqa: ANN001
     assert set(monthly.month) == {"2027-01"}
     s = pd.read_parquet(out / "schedules" / "01_base.parquet")
     assert len(s) == 12
+    html = (out / "report.html").read_text()
+    assert "Budget study" in html and html.count("<svg") >= 2
+    xl = pd.read_excel(out / "study.xlsx", sheet_name=None)
+    pd.testing.assert_frame_equal(xl["scenarios"], pd.read_csv(out / "scenarios.csv"), check_dtype=False)

@@ -73,6 +73,7 @@ def build_parser() -> argparse.ArgumentParser:
     pl.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
     pl.add_argument("--moisture-limit", type=_positive, default=0.88,
                     help="lowest turbine exhaust quality accepted by the re-check (default 0.88, common practice)")
+    pl.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
     pl.add_argument("--quiet", action="store_true", help="no progress messages")
     pl.add_argument("--json", action="store_true", help="print summary.json to standard output")
     sd = sub.add_parser("study", help="a long horizon under price scenarios, rolling weekly windows",
@@ -90,7 +91,13 @@ def build_parser() -> argparse.ArgumentParser:
     sd.add_argument("--workers", type=int, default=None, help="local worker processes (default: one per core)")
     sd.add_argument("--cluster", metavar="ADDRESS", help="send the scenarios to this Dask scheduler instead")
     sd.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
+    sd.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
     sd.add_argument("--quiet", action="store_true", help="no progress bars")
+    rp = sub.add_parser("report", help="rebuild report.html and the Excel workbook of a plan or study folder",
+                        description="Rebuild report.html and plan.xlsx or study.xlsx from the files of a plan or "
+                        "study folder.")
+    rp.add_argument("dir", help="a folder written by cogen plan or cogen study")
+    rp.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
     ve = sub.add_parser("verify", help="re-check a plan's schedule with full IAPWS-IF97 physics",
                         description="Re-evaluate every hour of a plan folder's schedule with IAPWS-IF97: turbine "
                         "sections along the actual expansion line, desuperheater and deaerator water from energy "
@@ -263,6 +270,9 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
                     "scenarios": str(Path(args.scenarios).resolve()), "seconds": secs,
                     "windows": {r.name: [w.__dict__ for w in r.windows] for r in results},
                     "note": SAFETY_NOTE}, d / "summary.json")
+        from .report import write_reports
+
+        write_reports(d, args.units)
 
     atomic_dir(args.out, write)
     cur = cfg.site.currency
@@ -342,7 +352,8 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
 
     run = run_plan(args.site, args.series, args.out,
                    SolveOptions(gap=args.gap, time_limit=args.time_limit, threads=args.threads),
-                   BuildOptions(reserve=False if args.no_reserve else None), progress, args.moisture_limit)
+                   BuildOptions(reserve=False if args.no_reserve else None), progress, args.moisture_limit,
+                   args.units)
     s = run.summary
     if args.json:
         print(json.dumps(s, indent=2, default=str))
@@ -391,6 +402,15 @@ def main(argv: list[str] | None = None) -> int:
             return cmd_inspect(args, out)
         if args.command == "advise":
             return cmd_advise(args, out, err)
+        if args.command == "report":
+            from .report import write_reports
+
+            d = Path(args.dir)
+            if not (d / "summary.json").is_file():
+                raise InputError(d, "", "not a plan or study folder (no summary.json)")
+            write_reports(d, args.units)
+            out.print(f"wrote {d / 'report.html'}")
+            return EXIT_OK
         if args.command == "study":
             return cmd_study(args, out, err)
         if args.command == "verify":

@@ -12,6 +12,7 @@ from .outputs import atomic_dir, check_out_dir, write_csv, write_json
 from .plant.load import load_site
 from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
+from .report import write_reports
 from .results import PlanResults, plan_results
 from .site import BuildOptions, SiteModel, build_site_model
 from .solve import SolveOptions, SolveReport, solve
@@ -30,6 +31,7 @@ class PlanRun:
     results: PlanResults
     summary: dict[str, object]
     verification: Verification | None = None
+    units: str = "si"  # report units: "si" or "us"
 
 
 def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, series: Series,
@@ -67,7 +69,8 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
 
 def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | None = None,
              solve_options: SolveOptions = SolveOptions(), build_options: BuildOptions = BuildOptions(),
-             progress: Callable[[str], None] | None = None, moisture_limit: float = MOISTURE_LIMIT) -> PlanRun:
+             progress: Callable[[str], None] | None = None, moisture_limit: float = MOISTURE_LIMIT,
+             units: str = "si") -> PlanRun:
     """Plan the hours of ``series_path`` for the site ``site_path`` and write ``out``.
 
     Raises InputError for bad input (before anything is written) and SolveError when the
@@ -96,7 +99,7 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     base = practice_baseline(cfg, series, build_options, time_limit=solve_options.time_limit)
     summary["baseline"] = {"cost": base.cost, "cost_total": base.total, "diagnosis": base.results.diagnosis,
                            "saving": savings(res.totals["cost"], base.cost)}
-    run = PlanRun(cfg, series, sm, rep, res, summary, ver)
+    run = PlanRun(cfg, series, sm, rep, res, summary, ver, units)
     if out is not None:
         atomic_dir(out, lambda d: write_plan_files(run, d))
         say(f"wrote {Path(out)}")
@@ -152,3 +155,4 @@ def write_plan_files(run: PlanRun, d: Path) -> None:
         write_csv(run.verification.hourly, d / "verify.csv")
         write_csv(run.verification.sections, d / "verify_sections.csv", index=False)
     write_json(run.summary, d / "summary.json")
+    write_reports(d, run.units)

@@ -1,0 +1,56 @@
+"""Excel workbooks of a plan or study: one sheet per table, units in the header row,
+frozen panes and number formats. Text that a spreadsheet would read as a formula is quoted."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pandas as pd
+from openpyxl.utils import get_column_letter
+
+from ..outputs import _safe_text
+
+
+def _sheet(writer: pd.ExcelWriter, name: str, df: pd.DataFrame, index: bool) -> None:
+    out = df.copy()
+    for c in out.columns:
+        if out[c].dtype == object or pd.api.types.is_string_dtype(out[c]):
+            out[c] = out[c].map(_safe_text)
+    out.to_excel(writer, sheet_name=name, index=index)
+    ws = writer.sheets[name]
+    ws.freeze_panes = "B2"
+    width = out.shape[1] + (1 if index else 0)
+    for j in range(1, width + 1):
+        ws.column_dimensions[get_column_letter(j)].width = 16 if j > 1 else 20
+        for row in ws.iter_rows(min_row=2, min_col=j, max_col=j):
+            for cell in row:
+                if isinstance(cell.value, float):
+                    cell.number_format = "#,##0.000"
+
+
+def write_plan_xlsx(d: Path, path: Path) -> None:
+    """plan.xlsx from a plan folder's files."""
+    s = json.loads((d / "summary.json").read_text(encoding="utf-8"))
+    summary = pd.DataFrame(
+        [("status", s["status"]), ("objective", s["objective"]), ("bound", s["bound"]), ("gap", s["gap"]),
+         ("currency", s.get("currency", "")), ("hours", s["hours"]), ("fuel_total_GJ", s["fuel_total_GJ"]),
+         ("import_MWh", s["import_MWh"]), ("export_MWh", s["export_MWh"]), ("co2_t", s["co2_t"])]
+        + [(f"cost_{k}", v) for k, v in s["cost"].items()]
+        + ([("verification", s["verify"]["verdict"])] if "verify" in s else []),
+        columns=["quantity", "value"])
+    drivers = pd.DataFrame([{"machine": k, "machine_hours_on_steam_h": v["steam"], "machine_hours_on_motor_h": v["motor"]}
+                            for k, v in s.get("drive_hours", {}).items()])
+    with pd.ExcelWriter(path, engine="openpyxl") as w:
+        _sheet(w, "summary", summary, index=False)
+        _sheet(w, "schedule", pd.read_csv(d / "schedule.csv", index_col="time"), index=True)
+        _sheet(w, "header balances", pd.read_csv(d / "balances.csv"), index=False)
+        _sheet(w, "electric balance", pd.read_csv(d / "power.csv"), index=False)
+        _sheet(w, "drivers", drivers, index=False)
+
+
+def write_study_xlsx(d: Path, path: Path) -> None:
+    """study.xlsx from a study folder's files."""
+    with pd.ExcelWriter(path, engine="openpyxl") as w:
+        _sheet(w, "scenarios", pd.read_csv(d / "scenarios.csv"), index=False)
+        _sheet(w, "monthly", pd.read_csv(d / "monthly.csv"), index=False)

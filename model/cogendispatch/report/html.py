@@ -1,0 +1,147 @@
+"""One self-contained HTML page per plan or study: inline SVG charts, no scripts, no fetches."""
+
+from __future__ import annotations
+
+import json
+from html import escape
+from pathlib import Path
+
+import pandas as pd
+
+from . import plots
+
+T_H_TO_KLB_H = 2.20462262185  # [klb/h per t/h]: 1 lb = 0.45359237 kg (NIST SP 811)
+GJ_TO_MMBTU = 1.0 / 1.055056  # [MMBtu per GJ]: International Table Btu (NIST SP 811)
+
+CSS = """
+body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:24px auto;max-width:1180px;color:#1d2730}
+h1{font-size:22px;margin-bottom:2px}h2{font-size:17px;border-bottom:2px solid #1f6f78;padding-bottom:3px;margin-top:28px}
+.meta{color:#5b6770;font-size:13px}.note{background:#fbf6ea;border-left:4px solid #d19a2e;padding:8px 12px;font-size:13px}
+table{border-collapse:collapse;font-size:12px;margin:8px 0}td,th{border-bottom:1px solid #dfe3e8;padding:3px 9px;text-align:right}
+th{background:#eef3f4}td:first-child,th:first-child{text-align:left}.chart svg{max-width:100%;height:auto}
+.bad{color:#b5523b;font-weight:600}.good{color:#1f6f78;font-weight:600}
+"""
+
+
+class Units:
+    """Display units: SI (t/h, GJ) or US customary (klb/h, MMBtu)."""
+
+    def __init__(self, system: str = "si") -> None:
+        self.us = system == "us"
+        self.flow = "klb/h" if self.us else "t/h"
+        self.energy = "MMBtu" if self.us else "GJ"
+        self.kf = T_H_TO_KLB_H if self.us else 1.0
+        self.ke = GJ_TO_MMBTU if self.us else 1.0
+
+
+def _table(df: pd.DataFrame) -> str:
+    head = "".join(f"<th>{escape(str(c))}</th>" for c in df.columns)
+    rows = []
+    for _, r in df.iterrows():
+        cells = []
+        for v in r.tolist():
+            if isinstance(v, float):
+                v = f"{v:,.2f}" if abs(v) < 1000 else f"{v:,.0f}"
+            cells.append(f"<td>{escape(str(v))}</td>")
+        rows.append("<tr>" + "".join(cells) + "</tr>")
+    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
+
+
+def _page(title: str, meta: str, body: list[str], note: str) -> str:
+    return ("<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+            "<meta http-equiv='Content-Security-Policy' content=\"default-src 'none'; style-src 'unsafe-inline'; img-src data:\">"
+            f"<title>{escape(title)}</title><style>{CSS}</style></head><body>"
+            f"<h1>{escape(title)}</h1><p class='meta'>{meta}</p><p class='note'>{escape(note)}</p>"
+            + "".join(body) + "</body></html>")
+
+
+def _chart(svg: str) -> str:
+    return f"<div class='chart'>{svg}</div>"
+
+
+def plan_report(d: Path, units: Units = Units()) -> str:
+    """The plan page, built from the files of a plan folder."""
+    s = json.loads((d / "summary.json").read_text(encoding="utf-8"))
+    sched = pd.read_csv(d / "schedule.csv", index_col="time", parse_dates=["time"])
+    bal = pd.read_csv(d / "balances.csv", parse_dates=["time"])
+    pw = pd.read_csv(d / "power.csv", parse_dates=["time"])
+    cost = pd.read_csv(d / "costs.csv", index_col="time", parse_dates=["time"])
+    cur = escape(str(s.get("currency", "")))
+    sec = s.get("seconds", {})
+    meta = (f"{escape(s.get('site_name', ''))} &middot; {s['hours']} h from {escape(str(s.get('first_hour')))} &middot; "
+            f"status <b>{escape(str(s['status']))}</b>, gap {100 * float(s['gap']):.2f} %, cost "
+            f"{float(s['objective']):,.0f} {cur}, bound {float(s['bound']):,.0f} &middot; build {sec.get('build', 0):.1f} s, "
+            f"load {sec.get('load', 0):.1f} s, solve {sec.get('solve', 0):.1f} s, total {sec.get('total', 0):.1f} s")
+    body: list[str] = []
+    if s.get("diagnosis"):
+        body.append("<h2>Demand not met</h2><ul>" + "".join(f"<li class='bad'>{escape(x)}</li>" for x in s["diagnosis"]) + "</ul>")
+    # summary tables
+    cost_tab = pd.DataFrame([{"category": k, f"cost [{s.get('currency', '')}]": v} for k, v in s["cost"].items()])
+    body.append("<h2>Cost</h2>" + _table(cost_tab))
+    if "baseline" in s:
+        sv = s["baseline"]["saving"]
+        body.append("<h2>Against the practice baseline</h2>" + _table(pd.DataFrame(
+            [{"category": k, f"practice [{s.get('currency', '')}]": v["baseline"],
+              f"optimised [{s.get('currency', '')}]": v["optimised"], f"saving [{s.get('currency', '')}]": v["saving"],
+              "saving [%]": v["saving_pct"]} for k, v in sv.items()])))
+    if "verify" in s:
+        v = s["verify"]
+        ok = v["verdict"].startswith("linear model within")
+        body.append(f"<h2>IAPWS-IF97 re-check</h2><p class='{'good' if ok else 'bad'}'>{escape(v['verdict'])}</p>"
+                    + "<ul>" + "".join(f"<li>{escape(w)}</li>" for w in v.get("worst_hours", [])) + "</ul>")
+    # header balances
+    body.append(f"<h2>Header balances [{units.flow}]</h2>")
+    for h, g in bal.groupby("header", sort=False):
+        piv = g.pivot_table(index="time", columns="term", values="flow_t_h", aggfunc="sum", sort=False) * units.kf
+        demand = -piv.pop("process demand") if "process demand" in piv else None
+        body.append(_chart(plots.stacked_balance(piv, demand, f"{h} header: sources (+) and uses (-)",
+                                                 f"steam flow [{units.flow}]")))
+    piv = pw.pivot_table(index="time", columns="term", values="power_MW", aggfunc="sum", sort=False)
+    load = -piv.pop("site load") if "site load" in piv else None
+    body.append("<h2>Electric balance [MW]</h2>" + _chart(plots.stacked_balance(
+        piv, load, "Generation and import (+), motors and export (-)", "power [MW]", line_label="site load")))
+    boil = sched[[c for c in sched.columns if c.endswith(".steam_t_h") and c.split(".")[0] in s.get("running_hours", {})
+                  and f"{c.split('.')[0]}.fuel_GJ_h" in sched.columns]] * units.kf
+    boil.columns = [c.split(".")[0] for c in boil.columns]
+    body.append("<h2>Boilers</h2>" + _chart(plots.lines(boil, "Boiler steam (0 when off)", f"steam [{units.flow}]",
+                                                        step=True)))
+    dh = s.get("drive_hours", {})
+    if dh:
+        frame = pd.DataFrame({"on steam": {k: v["steam"] for k, v in dh.items()},
+                              "on motor": {k: v["motor"] for k, v in dh.items()}})
+        body.append("<h2>Drivers</h2>" + _chart(plots.stacked_bars(frame, "Machine-hours on steam and on motor",
+                                                                    "machine-hours [h]", horizontal=True)))
+    daily = cost.groupby(cost.index.date).sum()
+    body.append(f"<h2>Cost by day [{cur}]</h2>" + _chart(plots.stacked_bars(daily, "Cost by category per day",
+                                                                           f"cost [{s.get('currency', '')}/day]")))
+    body.append("<h2>Marginal steam prices</h2><p>Not computed for a plan: run <code>cogen advise</code> "
+                "for an hour to see the marginal cost of steam in each header.</p>")
+    fuel = sum(sched[c] for c in sched.columns if c.endswith(".fuel_GJ_h")) * units.ke
+    body.append(f"<p class='meta'>fuel {float(fuel.sum()):,.0f} {units.energy}, import {s['import_MWh']:,.0f} MWh, "
+                f"export {s['export_MWh']:,.0f} MWh, CO2 {s['co2_t']:,.0f} t</p>")
+    return _page("Weekly plan", meta, body, s.get("note", ""))
+
+
+def study_report(d: Path, units: Units = Units()) -> str:
+    """The study page, built from the files of a study folder."""
+    s = json.loads((d / "summary.json").read_text(encoding="utf-8"))
+    table = pd.read_csv(d / "scenarios.csv")
+    monthly = pd.read_csv(d / "monthly.csv")
+    costs = table.set_index("scenario")[[c for c in table.columns if c.startswith("cost_") and c != "cost_total"]]
+    costs.columns = [c[5:] for c in costs.columns]
+    body = ["<h2>Scenarios</h2>" + _chart(plots.stacked_bars(costs, "Cost by category per scenario", "cost [currency]"))]
+    piv = monthly.pivot_table(index="month", columns="scenario", values="cost_total", sort=False)
+    piv.index = pd.to_datetime(piv.index)
+    body.append("<h2>Monthly cost</h2>" + _chart(plots.lines(piv, "Total cost per month", "cost [currency/month]")))
+    drv = table.set_index("scenario")[[c for c in table.columns if c.startswith("machine_hours_on_steam_")]]
+    drv.columns = [c.replace("machine_hours_on_steam_", "") for c in drv.columns]
+    if not drv.empty:
+        body.append("<h2>Drivers</h2>" + _chart(plots.stacked_bars(drv.T, "Machine-hours on steam per scenario",
+                                                                    "machine-hours [h]", horizontal=True)))
+    cols = ["scenario", "cost_total", "fuel_GJ", "import_MWh", "export_MWh", "co2_t", "boiler_starts", "shortfall_hours"]
+    tab = table[[c for c in cols if c in table]].copy()
+    if "fuel_GJ" in tab:
+        tab[f"fuel [{units.energy}]"] = tab.pop("fuel_GJ") * units.ke
+    body.append("<h2>Totals</h2>" + _table(tab))
+    meta = f"{len(table)} scenario(s), {float(s.get('seconds', 0)):.0f} s"
+    return _page("Budget study", meta, body, s.get("note", ""))

@@ -1,0 +1,97 @@
+"""Reports: the HTML page in headless Chromium, the Excel workbook read back, escaping, units."""
+
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from openpyxl import load_workbook
+
+from cogendispatch.cli import main
+from test_plan_small import TINY_TOML
+
+SERIES = ("time,demand:LP [t/h],load [MW],price:import [per MWh]\n"
+          + "".join(f"2027-03-01T{h:02d}:00,{20 + h},5,{50 + 5 * h}\n" for h in range(6)))
+
+
+@pytest.fixture(scope="module")
+def plan_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    d = tmp_path_factory.mktemp("rep")
+    # a free-text name that must never run as markup
+    (d / "site.toml").write_text(TINY_TOML.replace('name = "tiny"', 'name = "<script>alert(1)</script> & =SUM(A1)"'))
+    (d / "s.csv").write_text(SERIES)
+    assert main(["plan", str(d / "site.toml"), "--series", str(d / "s.csv"), "--out", str(d / "out"), "--quiet"]) == 0
+    return d / "out"
+
+
+def test_report_and_workbook_are_written(plan_dir: Path) -> None:
+    assert (plan_dir / "report.html").stat().st_size > 10_000
+    assert (plan_dir / "plan.xlsx").is_file()
+
+
+def test_names_are_escaped(plan_dir: Path) -> None:
+    html = (plan_dir / "report.html").read_text()
+    assert "<script" not in html.lower()
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
+    # nothing to fetch: no external sources, links or stylesheets (SVG namespaces are names, not fetches)
+    import re
+    assert not re.search(r"""(src|href)\s*=\s*["']?(https?:|//)|url\(\s*["']?https?:|@import""", html, re.I)
+
+
+def test_workbook_reads_back_like_the_csv_files(plan_dir: Path) -> None:
+    xl = pd.read_excel(plan_dir / "plan.xlsx", sheet_name=None)
+    assert set(xl) == {"summary", "schedule", "header balances", "electric balance", "drivers"}
+    sched = pd.read_csv(plan_dir / "schedule.csv")
+    got = xl["schedule"]
+    assert list(got.columns) == list(sched.columns)
+    pd.testing.assert_frame_equal(got.drop(columns="time"), sched.drop(columns="time"), check_dtype=False, rtol=1e-9)
+    pd.testing.assert_frame_equal(xl["header balances"].drop(columns="time"),
+                                  pd.read_csv(plan_dir / "balances.csv").drop(columns="time"), check_dtype=False)
+    pd.testing.assert_frame_equal(xl["electric balance"].drop(columns="time"),
+                                  pd.read_csv(plan_dir / "power.csv").drop(columns="time"), check_dtype=False)
+    s = json.loads((plan_dir / "summary.json").read_text())
+    summ = xl["summary"].set_index("quantity")["value"]
+    assert float(summ["objective"]) == pytest.approx(s["objective"])
+    wb = load_workbook(plan_dir / "plan.xlsx")
+    assert wb["schedule"].freeze_panes == "B2"
+    assert any(c.number_format == "#,##0.000" for row in wb["schedule"].iter_rows(min_row=2) for c in row)
+
+
+def test_us_units_and_rebuild(plan_dir: Path, tmp_path: Path) -> None:
+    d = tmp_path / "copy"
+    shutil.copytree(plan_dir, d)
+    assert main(["report", str(d), "--units", "us"]) == 0
+    html = (d / "report.html").read_text()
+    assert "klb/h" in html and "Header balances [klb/h]" in html
+    assert main(["report", str(tmp_path)]) == 2  # not a plan or study folder
+
+
+def test_page_renders_in_headless_chromium(plan_dir: Path, tmp_path: Path) -> None:
+    chromium = shutil.which("chromium") or shutil.which("chromium-browser")
+    if chromium is None:
+        pytest.skip("Debian's chromium is not installed (.ci/run installs it)")
+    sync_api = pytest.importorskip("playwright.sync_api")
+    errors, requests = [], []
+    with sync_api.sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=chromium, args=[
+            "--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
+            "--disable-sync", "--no-first-run"])
+        page = browser.new_page(viewport={"width": 1280, "height": 900})
+        page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
+        page.on("pageerror", lambda e: errors.append(str(e)))
+        page.on("request", lambda r: requests.append(r.url))
+        page.goto((plan_dir / "report.html").as_uri())
+        page.wait_for_load_state("load")
+        n_svg = page.locator("svg").count()
+        drawn = page.evaluate("Array.from(document.querySelectorAll('svg')).filter("
+                              "s => s.querySelectorAll('path').length > 3 && s.getBoundingClientRect().width > 100).length")
+        shot = tmp_path / "report.png"
+        page.screenshot(path=str(shot), full_page=True)
+        browser.close()
+    assert errors == []
+    assert [u for u in requests if not u.startswith("file://")] == []
+    assert n_svg >= 5 and drawn == n_svg  # two headers, power, boilers, cost per day
+    assert shot.stat().st_size > 20_000
