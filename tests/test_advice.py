@@ -196,8 +196,7 @@ def test_hour_index_names_a_missing_hour() -> None:
 def test_advice_holds_the_plans_states(tmp_path) -> None:  # noqa: ANN001
     import pandas as pd
 
-    from cogendispatch.outputs import atomic_dir
-    from cogendispatch.plan import write_plan_files
+    from cogendispatch.outputs import write_csv
     from cogendispatch.results import plan_results
     cfg = site(boiler=_three_boilers(), reserve={"enabled": True},
                drive=[{"id": "P1", "duty": "2 MW", "motor": {"efficiency": 0.95},
@@ -208,12 +207,8 @@ def test_advice_holds_the_plans_states(tmp_path) -> None:  # noqa: ANN001
     rep = solve(sm, SolveOptions(gap=1e-9))
     res = plan_results(sm)
 
-    class _Run:  # the parts write_plan_files needs
-        results = res
-        summary = {"status": rep.status}
-        verification = None
-        units = "si"
-    atomic_dir(tmp_path / "plan", lambda d: write_plan_files(_Run, d))
+    (tmp_path / "plan").mkdir()
+    write_csv(res.schedule, tmp_path / "plan" / "schedule.csv")  # what advise reads of a plan
     sched = pd.read_csv(tmp_path / "plan" / "schedule.csv", index_col="time")
     a = advise(cfg, ser, str(ser.time[2]), "<tiny>", plan_dir=str(tmp_path / "plan"))
     row = sched.iloc[2]
