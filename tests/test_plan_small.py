@@ -19,9 +19,14 @@ TG = {"id": "TG", "inlet": "HP", "max_throttle": "80 t/h", "min_throttle": "5 t/
 
 
 def run(cfg, ser):  # noqa: ANN001, ANN201
+    """Solve a tiny site; every such solve is also checked for energy conservation."""
+    from test_crosschecks import audit_residual
+
     sm = build_site_model(cfg, ser)
     rep = solve(sm, FAST)
-    return sm, rep, plan_results(sm)
+    res = plan_results(sm)
+    assert np.abs(audit_residual(cfg, ser, sm, res)).max() < 1e-5
+    return sm, rep, res
 
 
 def test_cheap_power_runs_motors_and_letdown_carries_the_steam():

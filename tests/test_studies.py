@@ -182,3 +182,15 @@ def test_cli_study_writes_the_outputs(tmp_path) -> None:  # noqa: ANN001
     assert "Budget study" in html and html.count("<svg") >= 2
     xl = pd.read_excel(out / "study.xlsx", sheet_name=None)
     pd.testing.assert_frame_equal(xl["scenarios"], pd.read_csv(out / "scenarios.csv"), check_dtype=False)
+    from openpyxl import load_workbook
+    assert load_workbook(out / "study.xlsx")["scenarios"]["A3"].value == "'=cheap power"  # text, not a formula
+
+
+def test_study_reports_shortfalls_like_a_plan(capsys) -> None:  # noqa: ANN001
+    cfg = _site()
+    ser = series(cfg, 30, demand_LP=[60.0] * 10 + [400.0] * 3 + [60.0] * 17)
+    r = rolling_horizon(cfg, PreparedScenario("peak", ser, ()), FAST, window=12, lookahead=4)
+    assert r.shortfall_hours == 3
+    # the peak straddles a window edge: each window names its short headers, with dates
+    assert r.diagnosis and all("header short" in d and "2027-03-01 1" in d for d in r.diagnosis)
+    assert any("binding in hour" in d and "at its" in d for d in r.diagnosis)

@@ -93,6 +93,7 @@ def build_parser() -> argparse.ArgumentParser:
     sd.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
     sd.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
     sd.add_argument("--quiet", action="store_true", help="no progress bars")
+    sd.add_argument("--json", action="store_true", help="print the scenario table as JSON to standard output")
     rp = sub.add_parser("report", help="rebuild report.html and the Excel workbook of a plan or study folder",
                         description="Rebuild report.html and plan.xlsx or study.xlsx from the files of a plan or "
                         "study folder.")
@@ -275,6 +276,10 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
         write_reports(d, args.units)
 
     atomic_dir(args.out, write)
+    if args.json:
+        print(json.dumps({"scenarios": table.to_dict(orient="records"),
+                          "diagnosis": {r.name: r.diagnosis for r in results}}, indent=2, default=float))
+        return EXIT_SHORT if any(r.shortfall_hours for r in results) else EXIT_OK
     cur = cfg.site.currency
     cols = [c for c in table.columns if c.startswith("cost_")] + ["fuel_GJ", "import_MWh", "export_MWh", "co2_t",
                                                                   "boiler_starts", "shortfall_hours"]
@@ -290,8 +295,9 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
     if short:
         for r in results:
             if r.shortfall_hours:
-                err.print(Text(f"not met: scenario '{r.name}' has {r.shortfall_hours} hour(s) with a shortfall "
-                               "(see monthly.csv and its schedule)"))
+                err.print(Text(f"not met: scenario '{r.name}' has {r.shortfall_hours} hour(s) with a shortfall"))
+                for line in r.diagnosis:
+                    err.print(Text(f"  {r.name}: {line}"))
         return EXIT_SHORT
     return EXIT_OK
 

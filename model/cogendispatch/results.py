@@ -165,11 +165,12 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
     return out
 
 
-def diagnose(sm: SiteModel) -> list[str]:
+def diagnose(sm: SiteModel, upto: int | None = None) -> list[str]:
     """Name each header (or the electric bus, or the reserve) that is short, when, by how
-    much, and the equipment limits binding at the worst hour."""
+    much, and the equipment limits binding at the worst hour; only hours before ``upto``
+    when given (a rolling window's committed part)."""
     m, ctx = sm.model, sm.ctx
-    hours, time = ctx.hours, ctx.series.time
+    hours, time = ctx.hours[:upto], ctx.series.time
     msgs = []
 
     def report(values: np.ndarray, what: str, unit: str, hint: str, limits: bool = False,

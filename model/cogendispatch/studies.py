@@ -42,7 +42,7 @@ from .errors import InputError, InputErrors, SolveError
 from .plant.load import _pydantic_problems
 from .plant.schema import SiteConfig, _q
 from .plant.series import Series, load_series
-from .results import plan_results
+from .results import diagnose, plan_results
 from .site import BuildOptions, build_site_model
 from .solve import SolveOptions, solve
 
@@ -203,6 +203,7 @@ class ScenarioResult:
     hourly_cost: pd.DataFrame
     shortfall_hours: int
     windows: list[WindowReport] = field(default_factory=list)
+    diagnosis: list[str] = field(default_factory=list)  # as for a plan; hours counted per window
 
 
 def carry_states(cfg: SiteConfig, sched: pd.DataFrame, prev: SiteConfig) -> SiteConfig:
@@ -245,6 +246,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     n = ps.series.hours
     starts = list(range(0, n, window))
     scheds, costs, reports = [], [], []
+    diagnosis: list[str] = []
     cur = cfg
     for w, s0 in enumerate(starts):
         length = min(window + lookahead, n - s0)
@@ -267,6 +269,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
         else:
             raise SolveError(f"scenario '{ps.name}': window {ser.time[0]} to {ser.time[-1]} failed twice: {last_err}")
         res = plan_results(sm)
+        diagnosis += diagnose(sm, keep)
         sched = res.schedule.iloc[:keep]
         scheds.append(sched)
         costs.append(res.hourly_cost.iloc[:keep])
@@ -281,7 +284,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     # hours with any shortfall: from the penalty column (only slacks are priced there)
     if "penalty" in hourly:
         bal_short = int((hourly["penalty"] > 1e-6).sum())
-    return ScenarioResult(ps.name, schedule, hourly, bal_short, reports)
+    return ScenarioResult(ps.name, schedule, hourly, bal_short, reports, diagnosis)
 
 
 # ------------------------------------------------------------------ summaries
