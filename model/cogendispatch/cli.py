@@ -25,6 +25,7 @@ from .plan import SAFETY_NOTE, run_plan
 from .site import BuildOptions
 from .solve import SolveOptions
 from .steam import SteamPropertyError
+from .verify import MOISTURE_LIMIT
 
 if TYPE_CHECKING:
     from .decisions import Advice, WhatIf
@@ -48,6 +49,15 @@ def _positive(text: str) -> float:
     return v
 
 
+def _units_option(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
+
+
+def _site_and_series(p: argparse.ArgumentParser, series_help: str) -> None:
+    p.add_argument("site", help="site file (TOML)")
+    p.add_argument("--series", required=True, help=series_help)
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="cogen", description="Cogeneration dispatch optimiser for industrial steam and power "
                 "plants. " + SAFETY_NOTE)
@@ -64,24 +74,22 @@ def build_parser() -> argparse.ArgumentParser:
                         description="Plan every unit hour by hour for the hours in --series and write "
                         "schedule.csv, balances.csv, power.csv, costs.csv and summary.json into --out "
                         "(whole or not at all).")
-    pl.add_argument("site", help="site file (TOML)")
-    pl.add_argument("--series", required=True, help="hourly demands and prices (CSV or Excel)")
+    _site_and_series(pl, "hourly demands and prices (CSV or Excel)")
     pl.add_argument("--out", required=True, help="output folder (created, or replaced if it holds earlier results)")
     pl.add_argument("--gap", type=_positive, default=1e-3, help="relative MIP gap to stop at (default 0.001 = 0.1 %%)")
     pl.add_argument("--time-limit", type=_positive, default=120.0, help="solver time limit [s] (default 120)")
     pl.add_argument("--threads", type=int, default=1, help="HiGHS threads (default 1)")
     pl.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
-    pl.add_argument("--moisture-limit", type=_positive, default=0.88,
+    pl.add_argument("--moisture-limit", type=_positive, default=MOISTURE_LIMIT,
                     help="lowest turbine exhaust quality accepted by the re-check (default 0.88, common practice)")
-    pl.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
+    _units_option(pl)
     pl.add_argument("--quiet", action="store_true", help="no progress messages")
     pl.add_argument("--json", action="store_true", help="print summary.json to standard output")
     sd = sub.add_parser("study", help="a long horizon under price scenarios, rolling weekly windows",
                         description="Plan a long series (a year, or any length) under each scenario of a scenario "
                         "file, in weekly windows with a look-ahead, scenarios in parallel; write scenarios.csv, "
                         "monthly.csv and each scenario's hourly schedule as Parquet (whole or not at all).")
-    sd.add_argument("site", help="site file (TOML)")
-    sd.add_argument("--series", required=True, help="base hourly demands and prices (CSV or Excel)")
+    _site_and_series(sd, "base hourly demands and prices (CSV or Excel)")
     sd.add_argument("--scenarios", required=True, help="scenario file (TOML)")
     sd.add_argument("--out", required=True, help="output folder")
     sd.add_argument("--window", type=int, default=168, help="hours kept per window (default 168)")
@@ -91,29 +99,28 @@ def build_parser() -> argparse.ArgumentParser:
     sd.add_argument("--workers", type=int, default=None, help="local worker processes (default: one per core)")
     sd.add_argument("--cluster", metavar="ADDRESS", help="send the scenarios to this Dask scheduler instead")
     sd.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
-    sd.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
+    _units_option(sd)
     sd.add_argument("--quiet", action="store_true", help="no progress bars")
     sd.add_argument("--json", action="store_true", help="print the scenario table as JSON to standard output")
     rp = sub.add_parser("report", help="rebuild report.html and the Excel workbook of a plan or study folder",
                         description="Rebuild report.html and plan.xlsx or study.xlsx from the files of a plan or "
                         "study folder.")
     rp.add_argument("dir", help="a folder written by cogen plan or cogen study")
-    rp.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
+    _units_option(rp)
     ve = sub.add_parser("verify", help="re-check a plan's schedule with full IAPWS-IF97 physics",
                         description="Re-evaluate every hour of a plan folder's schedule with IAPWS-IF97: turbine "
                         "sections along the actual expansion line, desuperheater and deaerator water from energy "
                         "balances, boiler fuel from the efficiency curve. Writes verify.csv and "
                         "verify_sections.csv and updates summary.json (plan runs this itself).")
     ve.add_argument("dir", help="a folder written by cogen plan")
-    ve.add_argument("--moisture-limit", type=_positive, default=0.88,
+    ve.add_argument("--moisture-limit", type=_positive, default=MOISTURE_LIMIT,
                     help="lowest exhaust quality accepted (default 0.88, common practice)")
     ad = sub.add_parser("advise", help="one hour: marginal steam prices, turbine-versus-motor table, what-if",
                         description="Advice for one hour: the marginal cost of steam in each header and of power, "
                         "and for every machine with both drivers the cost of the hour on steam and on motor, the "
                         "saving and the import price at which the answer flips. What-if options re-solve the hour "
                         "with the change and say what moved.")
-    ad.add_argument("site", help="site file (TOML)")
-    ad.add_argument("--series", required=True, help="hourly demands and prices (CSV or Excel)")
+    _site_and_series(ad, "hourly demands and prices (CSV or Excel)")
     ad.add_argument("--at", required=True, help="the hour, as written in the series' time column")
     ad.add_argument("--plan", metavar="DIR", help="hold the on/off states of this plan's schedule.csv")
     ad.add_argument("--force", action="append", default=[], metavar="MACHINE=steam|motor")
