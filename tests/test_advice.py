@@ -204,7 +204,7 @@ def test_advice_holds_the_plans_states(tmp_path) -> None:  # noqa: ANN001
     ser = series(cfg, 4, demand_LP=[30, 75, 75, 30], price_import=[40, 300, 300, 40])
     # plan the four hours, write the plan folder, then advise hour 2 from it
     sm = build_site_model(cfg, ser)
-    rep = solve(sm, SolveOptions(gap=1e-9))
+    solve(sm, SolveOptions(gap=1e-9))
     res = plan_results(sm)
 
     (tmp_path / "plan").mkdir()

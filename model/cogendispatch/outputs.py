@@ -58,13 +58,18 @@ def _safe_text(x: object) -> object:
     return x
 
 
-def write_csv(df: pd.DataFrame, path: Path, index: bool = True) -> None:
-    """CSV with text cells that could be read as formulas quoted."""
+def quote_formulas(df: pd.DataFrame) -> pd.DataFrame:
+    """A copy of ``df`` with text cells that a spreadsheet would read as formulas quoted."""
     out = df.copy()
     for c in out.columns:
         if out[c].dtype == object or pd.api.types.is_string_dtype(out[c]):
             out[c] = out[c].map(_safe_text)
-    out.to_csv(path, index=index, float_format="%.12g")
+    return out
+
+
+def write_csv(df: pd.DataFrame, path: Path, index: bool = True) -> None:
+    """CSV with text cells that could be read as formulas quoted."""
+    quote_formulas(df).to_csv(path, index=index, float_format="%.12g")
 
 
 def write_json(obj: object, path: Path) -> None:

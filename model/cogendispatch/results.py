@@ -203,7 +203,7 @@ def diagnose(sm: SiteModel, upto: int | None = None) -> list[str]:
 
 def plan_results(sm: SiteModel) -> PlanResults:
     """Collect the schedule, balances, costs, totals and diagnosis of a solved model."""
-    cfg, ctx = sm.ctx.cfg, sm.ctx
+    cfg = sm.ctx.cfg
     sched = schedule_frame(sm)
     bal, power = balance_frames(sm)
     cost = cost_frame(sm)

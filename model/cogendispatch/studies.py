@@ -39,8 +39,8 @@ import pandas as pd
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 from .errors import InputError, InputErrors, SolveError
-from .plant.load import _pydantic_problems
-from .plant.schema import SiteConfig, _q
+from .plant.load import validation_problems
+from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
 from .results import diagnose, plan_results
 from .site import BuildOptions, build_site_model
@@ -113,7 +113,7 @@ def load_scenarios(path: str | Path, cfg: SiteConfig, base: Series, site_path: s
     try:
         sf = ScenarioFile.model_validate(raw)
     except ValidationError as err:
-        raise InputErrors(_pydantic_problems(path, raw, err)) from None
+        raise InputErrors(validation_problems(path, raw, err)) from None
     return [_apply(path, k, sc, cfg, base) for k, sc in enumerate(sf.scenarios)]
 
 
@@ -257,7 +257,6 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
         tries, last_err = 0, None
         while tries < 2:
             tries += 1
-            t0 = time.perf_counter()
             try:
                 sm = build_site_model(cur, ser, opts)
                 o = options if tries == 1 else SolveOptions(gap=options.gap, time_limit=2 * options.time_limit,

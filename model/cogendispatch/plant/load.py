@@ -50,7 +50,7 @@ def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
     return " > ".join(parts) if parts else "(top level)"
 
 
-def _pydantic_problems(path: Path, raw: dict[str, Any], err: ValidationError) -> list[InputError]:
+def validation_problems(path: Path, raw: dict[str, Any], err: ValidationError) -> list[InputError]:
     out = []
     for e in err.errors():
         loc = tuple(x for x in e["loc"] if not (isinstance(x, str) and x.startswith("function-")))
@@ -75,7 +75,7 @@ def parse_site(raw: dict[str, Any], path: str | Path = "<site>") -> SiteConfig:
     try:
         cfg = SiteConfig.model_validate(raw)
     except ValidationError as err:
-        raise InputErrors(_pydantic_problems(path, raw, err)) from None
+        raise InputErrors(validation_problems(path, raw, err)) from None
     problems = check_site(cfg, path)
     if problems:
         raise InputErrors(problems)

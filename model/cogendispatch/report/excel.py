@@ -9,14 +9,11 @@ from pathlib import Path
 import pandas as pd
 from openpyxl.utils import get_column_letter
 
-from ..outputs import _safe_text
+from ..outputs import quote_formulas
 
 
 def _sheet(writer: pd.ExcelWriter, name: str, df: pd.DataFrame, index: bool) -> None:
-    out = df.copy()
-    for c in out.columns:
-        if out[c].dtype == object or pd.api.types.is_string_dtype(out[c]):
-            out[c] = out[c].map(_safe_text)
+    out = quote_formulas(df)
     out.to_excel(writer, sheet_name=name, index=index)
     ws = writer.sheets[name]
     ws.freeze_panes = "B2"
