@@ -98,11 +98,34 @@ def test_boiler_fuel_points_and_blowdown_by_hand():
 
 
 def test_nonconvex_curve_is_detected():
+    # efficiency flat then rising steeply: the middle segment's incremental heat input is clearly
+    # below the first's (invented curve)
+    cfg = site(boiler=[{"id": "B", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "20 t/h",
+                        "efficiency_curve": {"load": [0.2, 0.5, 0.8, 1.0], "efficiency": [0.80, 0.80, 0.86, 0.845]}}])
+    co = boiler_mod.coefficients(cfg.boilers[0], SiteStates.of(cfg))
+    sl = co.slopes
+    assert not co.convex and sl[1] < sl[0] and len(co.steam) == 4
+
+
+def test_nearly_convex_curve_is_replaced_by_its_hull():
+    # slopes 1.1415, 1.1410, 1.2115 GJ/t: non-convex by a hair; the hull through the 20 %,
+    # 80 % and 100 % points is at most HULL_TOLERANCE below the 50 % point
     cfg = site(boiler=[{"id": "B", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "20 t/h",
                         "efficiency_curve": {"load": [0.2, 0.5, 0.8, 1.0], "efficiency": [0.78, 0.835, 0.85, 0.845]}}])
     co = boiler_mod.coefficients(cfg.boilers[0], SiteStates.of(cfg))
+    assert co.convex and co.steam == (20.0, 80.0, 100.0)
+    f50 = 50.0 * co.heat_per_t / 0.835  # the given point, by hand
+    hull50 = co.fuel[0] + (co.fuel[1] - co.fuel[0]) * 30.0 / 60.0
+    assert boiler_mod.fuel_at(co, 50.0) == pytest.approx(hull50, rel=1e-12)
+    assert co.hull_shortfall == pytest.approx((f50 - hull50) / f50, rel=1e-9)
+    assert 0 < co.hull_shortfall <= boiler_mod.HULL_TOLERANCE
     sl = co.slopes
-    assert not co.convex and sl[1] < sl[0]
+    assert sl[1] >= sl[0]
+
+
+def test_lower_hull_drops_points_above_the_chord():
+    assert boiler_mod.lower_hull((0.0, 1.0, 2.0, 3.0), (0.0, 2.0, 2.0, 6.0)) == [0, 2, 3]
+    assert boiler_mod.lower_hull((0.0, 1.0, 2.0), (0.0, 1.0, 3.0)) == [0, 1, 2]
 
 
 def test_drive_steam_rate_and_exhaust_by_hand():

@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .equipment.common import repair_commitment
+from .equipment.common import held_value, repair_commitment
 from .plant.schema import SiteConfig
 from .plant.series import Series
 from .results import PlanResults, plan_results
@@ -87,7 +87,7 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
         for rank, b in enumerate(merit):
             blk = blocks[b.id]
             on = [blk.on[t] for t in hours]
-            fixed = {t: int(round(v.value)) for t, v in enumerate(on) if v.fixed}
+            fixed = {t: h for t, h in enumerate(held_value(v) for v in on) if h is not None}
             # hour 0 keeps the initial state: a boiler at load cannot be dropped at once
             wanted = [1 if (rank < k[t] or b.must_run or (t == 0 and b.initial_on)) else 0 for t in hours]
             seq = repair_commitment(wanted, fixed, blk.commit_info)

@@ -25,10 +25,18 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
     brows = []
     for b in cfg.boilers:
         co = boiler_mod.coefficients(b, st)
-        for load, eta, s, f in zip(b.efficiency_curve.load, b.efficiency_curve.efficiency, co.steam, co.fuel):
+        if not co.convex:
+            curve = "non-convex (binaries)"
+        elif co.hull_shortfall > 0:
+            curve = f"convex hull, up to {100 * co.hull_shortfall:.3f} % below the curve"
+        else:
+            curve = "convex"
+        for load, eta in zip(b.efficiency_curve.load, b.efficiency_curve.efficiency):
+            s = load * b.max_steam
+            f = s * co.heat_per_t / eta
             brows.append({"boiler": b.id, "load": load, "steam_t_h": s, "efficiency": eta, "fuel_GJ_h": f,
-                          "fuel_GJ_per_t": f / s, "heat_to_steam_GJ_per_t": co.heat_per_t,
-                          "curve": "convex" if co.convex else "non-convex (binaries)"})
+                          "fuel_GJ_per_t": f / s, "model_fuel_GJ_h": boiler_mod.fuel_at(co, s),
+                          "heat_to_steam_GJ_per_t": co.heat_per_t, "curve": curve})
     boilers = pd.DataFrame(brows)
 
     trows = []

@@ -8,6 +8,7 @@ import numpy as np
 import pandas as pd
 import pyomo.environ as pyo
 
+from .equipment.common import held_value
 from .plant.schema import Boiler, Condenser, Drive, Letdown, TurboGenerator, Vent
 from .site import SiteModel
 
@@ -143,7 +144,7 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
     for bo in cfg.boilers:
         blk = b[bo.id]
         if _val(blk.on[t]) < 0.5:
-            why = "unavailable" if (not bo.available or blk.on[t].fixed) else "off"
+            why = "unavailable" if (not bo.available or held_value(blk.on[t]) == 0) else "off"
             out.append(f"{bo.id} {why}")
         elif _val(blk.steam[t]) >= bo.max_steam - 1e-4:
             out.append(f"{bo.id} at its {bo.max_steam:g} t/h rating")
@@ -155,7 +156,7 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
             if _val(blk.power[t]) >= tg.generator_rating - 1e-4:
                 out.append(f"{tg.id} at its {tg.generator_rating:g} MW rating")
         elif power:
-            out.append(f"{tg.id} {'unavailable' if blk.on[t].fixed else 'off'}")
+            out.append(f"{tg.id} {'unavailable' if held_value(blk.on[t]) == 0 else 'off'}")
     if not power:
         for ld in cfg.letdowns:
             if _val(b[ld.id].flow[t]) >= ld.max_flow - 1e-4:

@@ -12,7 +12,8 @@ from dataclasses import dataclass, field
 import pyomo.environ as pyo
 
 from .equipment import REGISTRY
-from .equipment.common import ModelContext, SiteStates, Term
+from .equipment.common import ModelContext, SiteStates, Term, apply_fixings, wanted_status
+from .equipment.data import WindowData
 from .equipment.deaerator import add_deaerator
 from .equipment.grid import add_grid
 from .plant.schema import SiteConfig
@@ -23,10 +24,13 @@ from .plant.series import Series
 class BuildOptions:
     """Switches for the model: ``reserve`` overrides the site file's reserve setting;
     ``outages`` lists (unit id, first hour, last hour) when a boiler or turbo-generator is
-    unavailable (hour indices of the series, inclusive)."""
+    unavailable (hour indices of the series, inclusive); ``mutable`` enters the hourly data
+    and initial states as parameters, so that :mod:`cogendispatch.reuse` can give the built
+    model the next window's data."""
 
     reserve: bool | None = None
     outages: tuple[tuple[str, int, int], ...] = ()
+    mutable: bool = False
 
 
 @dataclass
@@ -55,26 +59,23 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
     t0 = time.perf_counter()
     states = SiteStates.of(cfg)
     hours = list(range(series.hours))
-    ctx = ModelContext(cfg=cfg, series=series, states=states, hours=hours)
     m = pyo.ConcreteModel(name=cfg.site.name)
     m.T = pyo.Set(initialize=hours, ordered=True)
+    ctx = ModelContext(cfg=cfg, series=series, states=states, hours=hours,
+                       data=WindowData(m, cfg, series, options.mutable))
     blocks: dict[str, pyo.Block] = {}
     for attr, builder in REGISTRY:
         for unit in getattr(cfg, attr):
             blocks[unit.id] = builder(m, unit, ctx)
-    for uid, first, last in options.outages:
-        on = blocks[uid].on
-        for t in range(max(0, first), min(last, len(hours) - 1) + 1):
-            on[t].fix(0)
+    fix_statuses(blocks, cfg, len(hours), options.outages)
     blocks["grid"] = add_grid(m, cfg.grid, ctx)
     blocks["deaerator"] = add_deaerator(m, cfg.deaerator, ctx)
 
     # process demand
-    demand = series.demand
+    data = ctx.data
     for h in cfg.headers:
-        d = demand[h.id].to_numpy()
-        if (d != 0).any():
-            ctx.header_terms[h.id].append(Term("process", "process demand", lambda t, d=d: -float(d[t])))
+        if data.any_demand(h.id):
+            ctx.header_terms[h.id].append(Term("process", "process demand", lambda t, h=h.id: -data.demand(h, t)))
 
     # shortfall/surplus slacks and the balances
     H = [h.id for h in cfg.headers]
@@ -87,8 +88,7 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
     m.header_balance = pyo.Constraint(
         H, m.T, rule=lambda mm, h, t: sum(term.expr(t) for term in ctx.header_terms[h]) == 0)
 
-    load = series.load.to_numpy()
-    ctx.power_terms.append(Term("process", "site load", lambda t: -float(load[t])))
+    ctx.power_terms.append(Term("process", "site load", lambda t: -data.load(t)))
     m.power_short = pyo.Var(m.T, within=pyo.NonNegativeReals)
     m.power_surplus = pyo.Var(m.T, within=pyo.NonNegativeReals)
     ctx.power_terms.append(Term("balance", "shortfall (unmet)", lambda t: m.power_short[t]))
@@ -125,3 +125,19 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
     m.cost = pyo.Objective(expr=sum(term(t) for terms in ctx.cost_terms.values() for term in terms
                                     for t in hours), sense=pyo.minimize)
     return SiteModel(m, ctx, time.perf_counter() - t0, blocks)
+
+
+def fix_statuses(blocks: dict[str, pyo.Block], cfg: SiteConfig, hours: int,
+                 outages: tuple[tuple[str, int, int], ...]) -> list[pyo.Var]:
+    """Fix the on/off status of every committed unit where it is decided before the solve
+    (out of service, must run, minimum time not yet served, outage); free it elsewhere.
+
+    Returns the variables whose fixing changed (for a model already loaded in a solver).
+    """
+    changed: list[pyo.Var] = []
+    for u in (*cfg.boilers, *cfg.turbogenerators):
+        blk = blocks[u.id]
+        spans = [(a, b) for uid, a, b in outages if uid == u.id]
+        wanted = wanted_status(blk.commit_info, hours, u.available, getattr(u, "must_run", False), spans)
+        changed += apply_fixings(blk.on, wanted, list(range(hours)))
+    return changed

@@ -19,7 +19,7 @@ import numpy as np
 import pyomo.environ as pyo
 from pyomo.contrib.solver.solvers.highs import Highs
 
-from .equipment.common import repair_commitment
+from .equipment.common import held_value, repair_commitment
 from .errors import SolveError
 from .site import SiteModel
 from .strengthen import add_reserve_covers
@@ -87,7 +87,21 @@ class LoadedModel:
         self.col_lower = np.array(lp.col_lower_, dtype=float)
         self.col_upper = np.array(lp.col_upper_, dtype=float)
         self.colmap = colmap
+        self.base_rows = lp.num_row_  # rows of the Pyomo model; cover rows come after
+        self.start_objective: float | None = None
         self.load_seconds = time.perf_counter() - t0
+
+    def refresh(self) -> None:
+        """After the Pyomo model's data changed in place (:mod:`cogendispatch.reuse`): drop
+        the cover rows of the last solve and re-read the column bounds."""
+        n = self.h.getNumRow()
+        if n > self.base_rows:
+            extra = np.arange(self.base_rows, n, dtype=np.int32)
+            self.h.deleteRows(len(extra), extra)
+        lp = self.h.getLp()
+        self.col_lower = np.array(lp.col_lower_, dtype=float)
+        self.col_upper = np.array(lp.col_upper_, dtype=float)
+        self.start_objective = None
 
     def col(self, v: pyo.Var) -> int | None:
         return self.colmap.get(id(v))
@@ -129,10 +143,10 @@ class LoadedModel:
             info = getattr(blk, "commit_info", None)
             if info is not None:
                 on = [blk.on[t] for t in m.T]
-                fixed = {t: int(round(v.value)) for t, v in enumerate(on) if v.fixed}
+                fixed = {t: h for t, h in enumerate(held_value(v) for v in on) if h is not None}
                 # round up: a unit partly on in the relaxation is there for its capacity
                 # (reserve, minimum loads elsewhere); committing it keeps the start feasible
-                wanted = [int(round(v.value)) if v.fixed else int(x[self.col(v)] >= threshold) for v in on]
+                wanted = [fixed[t] if t in fixed else int(x[self.col(v)] >= threshold) for t, v in enumerate(on)]
                 seq = repair_commitment(wanted, fixed, info)
                 for v, s in zip(on, seq):
                     c = self.col(v)

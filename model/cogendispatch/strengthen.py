@@ -34,8 +34,11 @@ import highspy
 import numpy as np
 import pyomo.environ as pyo
 
+from .equipment.common import held_value
+
 K_SHORT = 5.0  # [t of boiler steam per t/h of header shortfall] weight in the bound (any K > 0 is valid)
-_LINKING = ("transition", "min_up", "min_down", "ramp_up", "ramp_down", "switch_up", "switch_down", "switch_gap")
+_LINKING = ("transition", "min_up", "min_down", "ramp_up", "ramp_down", "switch_change", "switch_stay_steam",
+            "switch_stay_motor")
 
 
 def _row(opt, con) -> int | None:  # noqa: ANN001
@@ -107,7 +110,7 @@ def add_reserve_covers(lm, time_limit: float = 30.0) -> int:  # noqa: ANN001
     n_rows = 0
     for t in m.T:
         on_cols = [lm.col(b.on[t]) for b in boilers]
-        fixed_on = [b.on[t].value if b.on[t].fixed else None for b in boilers]
+        fixed_on = [held_value(b.on[t]) for b in boilers]
         slack = [(lm.col(m.reserve_short[t]), 1.0)] + [(lm.col(m.steam_short[hh, t]), K_SHORT) for hh in headers]
         slack = [(c, a) for c, a in slack if c is not None]
         seen: set[tuple[int, ...]] = set()

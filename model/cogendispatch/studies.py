@@ -30,7 +30,7 @@ import os
 import time
 import tomllib
 from concurrent.futures import ProcessPoolExecutor
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Annotated, Any, Callable
 
@@ -44,7 +44,8 @@ from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
 from .results import diagnose, plan_results
 from .site import BuildOptions, build_site_model
-from .solve import SolveOptions, solve
+from .reuse import WindowModels
+from .solve import LoadedModel, SolveOptions
 
 WEEK = 168
 
@@ -194,6 +195,7 @@ class WindowReport:
     status: str
     gap: float
     tries: int
+    reused: bool = False  # the model of an earlier window was given this window's data
 
 
 @dataclass
@@ -224,7 +226,7 @@ def carry_states(cfg: SiteConfig, sched: pd.DataFrame, prev: SiteConfig) -> Site
         prior = pb.initial_hours if bool(pb.initial_on) == bool(round(sched[f"{b.id}.on"].iloc[0])) else 0.0
         on, hrs = run_length(sched[f"{b.id}.on"], prior)
         boilers.append(b.model_copy(update={"initial_on": bool(on), "initial_hours": hrs,
-                                            "initial_steam": float(sched[f"{b.id}.steam_t_h"].iloc[-1]) if on else None}))
+                                            "initial_steam": float(sched[f"{b.id}.steam_t_h"].iloc[-1]) if on else 0.0}))
     tgs = []
     for t, pt in zip(cfg.turbogenerators, prev.turbogenerators):
         prior = pt.initial_hours if bool(pt.initial_on) == bool(round(sched[f"{t.id}.on"].iloc[0])) else 0.0
@@ -248,6 +250,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     scheds, costs, reports = [], [], []
     diagnosis: list[str] = []
     cur = cfg
+    models = WindowModels(options.threads)
     for w, s0 in enumerate(starts):
         length = min(window + lookahead, n - s0)
         keep = min(window, n - s0)
@@ -255,13 +258,21 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
         outs = tuple((u, a - s0, b - s0) for u, a, b in ps.outages if b >= s0 and a < s0 + length)
         opts = BuildOptions(reserve=build.reserve, outages=outs)
         tries, last_err = 0, None
+        reused_before = models.reused
         while tries < 2:
             tries += 1
             try:
-                sm = build_site_model(cur, ser, opts)
-                o = options if tries == 1 else SolveOptions(gap=options.gap, time_limit=2 * options.time_limit,
-                                                            threads=options.threads)
-                rep = solve(sm, o)
+                if tries == 1:
+                    lm = models.model_for(cur, ser, opts)
+                    o = options
+                else:  # the retry builds a fresh model and allows twice the time
+                    models.forget(cur, ser, opts)
+                    lm = LoadedModel(build_site_model(cur, ser, opts), threads=options.threads)
+                    o = replace(options, time_limit=2 * options.time_limit)
+                sm = lm.sm
+                rep = lm.solve_mip(o)
+                if not rep.has_solution:
+                    raise SolveError(f"HiGHS stopped ({rep.status}) without any schedule")
                 break
             except (SolveError, RuntimeError) as exc:  # retried once, then reported
                 last_err = exc
@@ -272,8 +283,11 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
         sched = res.schedule.iloc[:keep]
         scheds.append(sched)
         costs.append(res.hourly_cost.iloc[:keep])
-        reports.append(WindowReport(str(ser.time[0]), str(ser.time[keep - 1]), rep.seconds["build"],
-                                    rep.seconds["solve"] + rep.seconds.get("start", 0.0), rep.status, rep.gap, tries))
+        reports.append(WindowReport(str(ser.time[0]), str(ser.time[keep - 1]),
+                                    rep.seconds["build"] + rep.seconds["load"],
+                                    rep.seconds["solve"] + rep.seconds.get("start", 0.0)
+                                    + rep.seconds.get("strengthen", 0.0), rep.status, rep.gap, tries,
+                                    reused=tries == 1 and models.reused > reused_before))
         cur = carry_states(cur, sched, cur)
         if on_window:
             on_window(w + 1, len(starts))

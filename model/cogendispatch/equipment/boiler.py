@@ -32,14 +32,22 @@ def heat_to_steam(h_steam: float, h_feedwater: float, blowdown: float, h_blowdow
     return (h_steam - h_feedwater) + blowdown / (1.0 - blowdown) * (h_blowdown - h_feedwater)
 
 
+# Largest share by which the convex hull of an efficiency curve may fall below a measured
+# point and still replace the curve [-]. Common practice: efficiency points from acceptance
+# tests are uncertain to several tenths of a per cent, so a "non-convexity" smaller than this
+# is measurement noise, and modelling it would cost a binary per segment and hour.
+HULL_TOLERANCE = 1e-3
+
+
 @dataclass(frozen=True)
 class BoilerCoefficients:
     """Linear data of one boiler.
 
-    steam : load points [t/h]; fuel : heat input at those points [GJ/h];
+    steam : load points the model uses [t/h]; fuel : heat input at those points [GJ/h];
     heat_per_t : heat absorbed per tonne of steam [GJ/t]; convex : whether fuel(steam) is
     convex so that the epigraph form is exact; feedwater_per_t : feedwater per tonne of
-    steam [t/t].
+    steam [t/t]; hull_shortfall : largest share by which the model's curve lies below a given
+    point (0 when the given curve is used as it is) [-].
     """
 
     steam: tuple[float, ...]
@@ -47,6 +55,7 @@ class BoilerCoefficients:
     heat_per_t: float
     convex: bool
     feedwater_per_t: float
+    hull_shortfall: float = 0.0
 
     @property
     def slopes(self) -> list[float]:
@@ -55,21 +64,49 @@ class BoilerCoefficients:
         return [(f[k + 1] - f[k]) / (s[k + 1] - s[k]) for k in range(len(s) - 1)]
 
 
+def lower_hull(steam: tuple[float, ...], fuel: tuple[float, ...]) -> list[int]:
+    """Indices of the points on the lower convex hull of (steam, fuel), in load order.
+
+    Andrew's monotone chain, lower half (points sorted by steam already).
+    """
+    keep: list[int] = []
+    for k in range(len(steam)):
+        while len(keep) >= 2:
+            a, b = keep[-2], keep[-1]
+            cross = (steam[b] - steam[a]) * (fuel[k] - fuel[a]) - (fuel[b] - fuel[a]) * (steam[k] - steam[a])
+            if cross <= 0:  # b lies on or above the chord a-k
+                keep.pop()
+            else:
+                break
+        keep.append(k)
+    return keep
+
+
 def coefficients(b: Boiler, states: SiteStates) -> BoilerCoefficients:
     """Fuel heat input at each load point of the efficiency curve.
 
     fuel_k [GJ/h] = steam_k [t/h] * q [kJ/kg] / 1000 / eta_k.
+
+    A curve whose convex hull lies at most ``HULL_TOLERANCE`` below every given point is
+    replaced by that hull (convex, no binaries); a curve further from convex keeps its
+    points and is modelled with ordering binaries.
     """
     hdr = states.headers[b.header]
     h_bd = state_px(hdr.p, 0.0).h
     q = heat_to_steam(hdr.h, states.h_feedwater, b.blowdown, h_bd) / 1000.0  # [GJ/t]
     steam = tuple(L * b.max_steam for L in b.efficiency_curve.load)
     fuel = tuple(s * q / eta for s, eta in zip(steam, b.efficiency_curve.efficiency))
-    co = BoilerCoefficients(steam=steam, fuel=fuel, heat_per_t=q, convex=True,
-                            feedwater_per_t=1.0 / (1.0 - b.blowdown))
-    sl = co.slopes
-    convex = all(sl[k + 1] >= sl[k] - 1e-9 for k in range(len(sl) - 1))
-    return BoilerCoefficients(steam, fuel, q, convex, co.feedwater_per_t)
+    fw = 1.0 / (1.0 - b.blowdown)
+    sl = [(fuel[k + 1] - fuel[k]) / (steam[k + 1] - steam[k]) for k in range(len(steam) - 1)]
+    if all(sl[k + 1] >= sl[k] - 1e-9 for k in range(len(sl) - 1)):
+        return BoilerCoefficients(steam, fuel, q, True, fw)
+    keep = lower_hull(steam, fuel)
+    hs, hf = tuple(steam[k] for k in keep), tuple(fuel[k] for k in keep)
+    hull = BoilerCoefficients(hs, hf, q, True, fw)
+    short = max((f - fuel_at(hull, s)) / f for s, f in zip(steam, fuel))
+    if short <= HULL_TOLERANCE:
+        return BoilerCoefficients(hs, hf, q, True, fw, hull_shortfall=max(0.0, short))
+    return BoilerCoefficients(steam, fuel, q, False, fw)
 
 
 def fuel_at(co: BoilerCoefficients, steam: float) -> float:
@@ -95,13 +132,6 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
     T = m.T
     hours = ctx.hours
     commitment(blk, hours, b.min_up, b.min_down, b.initial_on, b.initial_hours)
-    if not b.available:
-        for t in hours:
-            blk.on[t].fix(0)
-    elif b.must_run:
-        for t in hours:
-            if not blk.on[t].fixed:
-                blk.on[t].fix(1)
     blk.steam = pyo.Var(T, bounds=(0, b.max_steam))
     blk.fuel = pyo.Var(T, within=pyo.NonNegativeReals)
     blk.burn = pyo.Var(b.fuels, T, within=pyo.NonNegativeReals)
@@ -135,9 +165,10 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
         blk.delta_next = pyo.Constraint(
             segs[:-1], T, rule=lambda k, j, t: k.delta[j + 1, t] <= lengths[j + 1] * k.fill[j, t])
 
-    # ramp limits [t/h per hour]; a start may jump to the minimum stable load
-    s0 = b.initial_steam if b.initial_steam is not None else None
-    u0 = 1.0 if b.initial_on else 0.0
+    # ramp limits [t/h per hour]; a start may jump to the minimum stable load. The steam
+    # before the first hour is the parameter ``s0``; with none given, hour 0 has no ramp limit.
+    s0 = b.initial_steam
+    blk.s0 = pyo.Param(mutable=True, initialize=0.0 if s0 is None else s0)
     if b.ramp_up is not None:
         su = max(b.ramp_up, b.min_steam)
 
@@ -145,7 +176,7 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
             if t == 0:
                 if s0 is None:
                     return pyo.Constraint.Skip
-                return k.steam[t] - s0 <= b.ramp_up * u0 + su * k.start[t]
+                return k.steam[t] - k.s0 <= b.ramp_up * k.u0 + su * k.start[t]
             return k.steam[t] - k.steam[t - 1] <= b.ramp_up * k.on[t - 1] + su * k.start[t]
 
         blk.ramp_up = pyo.Constraint(T, rule=_up)
@@ -156,7 +187,7 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
             if t == 0:
                 if s0 is None:
                     return pyo.Constraint.Skip
-                return s0 - k.steam[t] <= b.ramp_down * k.on[t] + sd * k.stop[t]
+                return k.s0 - k.steam[t] <= b.ramp_down * k.on[t] + sd * k.stop[t]
             return k.steam[t - 1] - k.steam[t] <= b.ramp_down * k.on[t] + sd * k.stop[t]
 
         blk.ramp_down = pyo.Constraint(T, rule=_down)
@@ -165,14 +196,13 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
     ctx.header_terms[b.header].append(Term(b.id, f"{b.id} steam", lambda t: blk.steam[t]))
     fw = co.feedwater_per_t
     ctx.feedwater_terms.append(Term(b.id, f"{b.id} feedwater", lambda t: fw * blk.steam[t]))
-    fp, co2p = ctx.series.fuel_price, ctx.series.co2_price.to_numpy()
+    data = ctx.data
     factors = {fu.id: fu.co2_factor for fu in ctx.cfg.fuels}
     for fu in b.fuels:
-        price = fp[fu].to_numpy()
-        ctx.cost_terms["fuel"].append(lambda t, fu=fu, price=price: float(price[t]) * blk.burn[fu, t])
+        ctx.cost_terms["fuel"].append(lambda t, fu=fu: data.fuel_price(fu, t) * blk.burn[fu, t])
         if factors[fu] > 0:
             ctx.cost_terms["co2"].append(
-                lambda t, fu=fu: float(co2p[t]) * factors[fu] * blk.burn[fu, t])
+                lambda t, fu=fu: data.co2_price(t) * factors[fu] * blk.burn[fu, t])
         ctx.fuel_use[fu].append(lambda t, fu=fu: blk.burn[fu, t])
     if b.startup_cost > 0:
         ctx.cost_terms["start-up"].append(lambda t: b.startup_cost * blk.start[t])

@@ -18,6 +18,7 @@ import pyomo.environ as pyo
 from ..plant.schema import SiteConfig
 from ..plant.series import Series
 from ..steam import SteamState, header_state, state_px
+from .data import WindowData
 
 Expr = Callable[[int], object]  # hour index -> Pyomo expression or number
 
@@ -74,6 +75,7 @@ class ModelContext:
     series: Series
     states: SiteStates
     hours: list[int]
+    data: WindowData
     header_terms: dict[str, list[Term]] = field(default_factory=lambda: defaultdict(list))
     power_terms: list[Term] = field(default_factory=list)
     feedwater_terms: list[Term] = field(default_factory=list)  # drawn from deaerator [t/h]
@@ -112,7 +114,8 @@ def commitment(blk: pyo.Block, hours: list[int], min_up: float, min_down: float,
     Adds ``on`` (binary), ``start`` and ``stop`` (continuous in [0, 1], integral because
     ``on`` is) with on_t - on_{t-1} = start_t - stop_t and the turn-on/turn-off
     inequalities sum(start over last UT hours) <= on_t, sum(stop over last DT hours) <= 1 - on_t.
-    Hours already spent in the initial state count towards the minimum times.
+    The status before the first hour is the mutable parameter ``u0``; hours already spent in
+    it count towards the minimum times through :func:`hold_initial_status`.
 
     Parameters
     ----------
@@ -129,11 +132,11 @@ def commitment(blk: pyo.Block, hours: list[int], min_up: float, min_down: float,
     blk.on = pyo.Var(T, within=pyo.Binary)
     blk.start = pyo.Var(T, bounds=(0, 1))
     blk.stop = pyo.Var(T, bounds=(0, 1))
-    u0 = 1.0 if initial_on else 0.0
+    blk.u0 = pyo.Param(mutable=True, initialize=1.0 if initial_on else 0.0)
     UT, DT = max(1, int(round(min_up))), max(1, int(round(min_down)))
 
     def _trans(b, t):
-        prev = b.on[t - 1] if t > 0 else u0
+        prev = b.on[t - 1] if t > 0 else b.u0
         return b.on[t] - prev == b.start[t] - b.stop[t]
 
     blk.transition = pyo.Constraint(T, rule=_trans)
@@ -143,12 +146,57 @@ def commitment(blk: pyo.Block, hours: list[int], min_up: float, min_down: float,
     if DT > 1:
         blk.min_down = pyo.Constraint(
             T, rule=lambda b, t: sum(b.stop[k] for k in range(max(0, t - DT + 1), t + 1)) <= 1 - b.on[t])
-    # carry-over: a unit that has not yet served its minimum time keeps its status
-    hold = (UT - initial_hours) if initial_on else (DT - initial_hours)
-    for t in hours:
-        if t < hold:
-            blk.on[t].fix(u0)
     blk.commit_info = CommitInfo(UT, DT, bool(initial_on), float(initial_hours))
+
+
+def wanted_status(info: "CommitInfo", hours: int, available: bool = True, must_run: bool = False,
+                  outages: list[tuple[int, int]] | None = None) -> dict[int, int]:
+    """Hours whose on/off status is decided before the solve, and that status.
+
+    A unit out of service is off; a must-run unit is on; a unit that has not yet served its
+    minimum time in its initial status keeps it; an outage (first, last hour, inclusive)
+    turns it off whatever came before.
+    """
+    out: dict[int, int] = {}
+    if not available:
+        out = {t: 0 for t in range(hours)}
+    else:
+        u0 = 1 if info.initial_on else 0
+        hold = (info.min_up if info.initial_on else info.min_down) - info.initial_hours
+        out = {t: u0 for t in range(hours) if t < hold}
+        if must_run:
+            out.update({t: 1 for t in range(hours) if t not in out})
+    for a, b in outages or []:
+        out.update({t: 0 for t in range(max(0, a), min(b, hours - 1) + 1)})
+    return out
+
+
+def apply_fixings(var: pyo.Var, wanted: dict, keys: list) -> list:
+    """Hold ``var[k]`` at ``wanted[k]`` and free every other key; returns the entries changed.
+
+    A status is held by equal bounds, not by fixing the variable: a fixed variable would be
+    folded into the constraints as a constant, and a model re-used for the next window
+    (:mod:`cogendispatch.reuse`) must be able to free it again without reloading rows.
+    """
+    changed = []
+    for k in keys:
+        v = var[k]
+        want = (float(wanted[k]), float(wanted[k])) if k in wanted else (None, None)
+        if (pyo.value(v.lower), pyo.value(v.upper)) != want:
+            v.setlb(want[0])
+            v.setub(want[1])
+            changed.append(v)
+    return changed
+
+
+def held_value(v: pyo.Var) -> int | None:
+    """The status a binary is held at before the solve (fixed, or equal bounds), else None."""
+    if v.fixed:
+        return int(round(v.value))
+    lo, hi = pyo.value(v.lower), pyo.value(v.upper)
+    if lo is not None and hi is not None and lo == hi:
+        return int(round(lo))
+    return None
 
 
 @dataclass(frozen=True)

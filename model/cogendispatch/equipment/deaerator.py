@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import numpy as np
 import pyomo.environ as pyo
 
 from ..plant.schema import Deaerator
@@ -39,8 +38,7 @@ def add_deaerator(m: pyo.ConcreteModel, da: Deaerator, ctx: ModelContext) -> pyo
     h_s = ctx.states.headers[da.heating_steam].h
     h_mu = state_pT(da.pressure, da.makeup_temperature).h  # compressed liquid, below T_sat
     h_ret = state_pT(da.pressure, da.condensate_temperature).h
-    demand = ctx.series.demand.clip(lower=0.0).sum(axis=1).to_numpy()
-    ret = da.process_condensate_return * demand  # [t/h]
+    ret = ctx.data.condensate_return  # [t/h] by hour
     blk.steam = pyo.Var(T, within=pyo.NonNegativeReals)
     blk.makeup = pyo.Var(T, within=pyo.NonNegativeReals)
     blk.overflow = pyo.Var(T, within=pyo.NonNegativeReals)
@@ -48,15 +46,14 @@ def add_deaerator(m: pyo.ConcreteModel, da: Deaerator, ctx: ModelContext) -> pyo
     cond = ctx.condensate_terms
     hc = [ctx.condensate_enthalpy[c.unit] for c in cond]
     blk.mass = pyo.Constraint(T, rule=lambda b, t: fw(t) + b.overflow[t]
-                              == b.steam[t] + sum(c.expr(t) for c in cond) + float(ret[t]) + b.makeup[t])
+                              == b.steam[t] + sum(c.expr(t) for c in cond) + ret(t) + b.makeup[t])
     blk.energy = pyo.Constraint(T, rule=lambda b, t: (fw(t) + b.overflow[t]) * h_fw
                                 == b.steam[t] * h_s + sum(h * c.expr(t) for h, c in zip(hc, cond))
-                                + float(ret[t]) * h_ret + b.makeup[t] * h_mu)
+                                + ret(t) * h_ret + b.makeup[t] * h_mu)
     ctx.take(da.heating_steam, "deaerator", "deaerator heating steam", lambda t: blk.steam[t])
     if da.makeup_cost > 0:
         ctx.cost_terms["water"].append(lambda t: da.makeup_cost * (blk.makeup[t] + blk.overflow[t]))
     blk.feedwater = fw
-    blk.process_return = np.asarray(ret)
     blk.h = {"feedwater": h_fw, "steam": h_s, "makeup": h_mu, "return": h_ret}
     blk.unit = da
     return blk

@@ -13,7 +13,7 @@ import pyomo.environ as pyo
 
 from ..plant.schema import Drive
 from ..steam import isentropic_drop
-from .common import ModelContext, SiteStates, Term
+from .common import ModelContext, SiteStates, Term, apply_fixings
 
 
 @dataclass(frozen=True)
@@ -63,6 +63,17 @@ def coefficients(d: Drive, states: SiteStates) -> DriveCoefficients:
                              st is not None and d.motor is not None)
 
 
+def wanted_drivers(d: Drive, hours: list[int]) -> dict[tuple[int, int], int]:
+    """Driver of each position fixed before the solve: a switch made less than the minimum
+    time before the horizon holds the driver it chose (1 steam, 0 motor)."""
+    init = d.initial_on_steam
+    L = max(1, int(round(d.min_hours_between_switches)))
+    if init is None or L <= 1:
+        return {}
+    return {(k, t): (1 if k < init else 0) for k in range(d.count) for t in hours
+            if t < L - d.initial_hours_since_switch}
+
+
 def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:
     """Add a drive block: ``on_steam[k, t]`` (binary for dual drivers) per machine position."""
     co = coefficients(d, ctx.states)
@@ -70,38 +81,35 @@ def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:
     m.add_component(f"drive_{d.id}", blk)
     T, hours = m.T, ctx.hours
     K = list(range(d.count))
-    duty = ctx.series.duty[d.id].to_numpy()  # [MW] per machine
+    data = ctx.data
     if co.dual:
         blk.on_steam = pyo.Var(K, T, within=pyo.Binary)
         if d.count > 1:
             blk.order = pyo.Constraint(K[1:], T, rule=lambda b, k, t: b.on_steam[k, t] <= b.on_steam[k - 1, t])
         L = max(1, int(round(d.min_hours_between_switches)))
         if L > 1:
-            blk.switch = pyo.Var(K, T, bounds=(0, 1))
+            # A minimum time L between driver changes is a minimum up and down time of L on
+            # ``on_steam``; the turn-on/turn-off inequalities are the tight (convex hull) form.
+            blk.to_steam = pyo.Var(K, T, bounds=(0, 1))
+            blk.to_motor = pyo.Var(K, T, bounds=(0, 1))
             init = d.initial_on_steam
+            # driver of each position before the first hour (mutable for the next window)
+            blk.prev_on_steam = pyo.Param(K, mutable=True, initialize=lambda b, k: 1.0 if (init or 0) > k else 0.0)
 
-            def _prev(b, k, t):
-                if t > 0:
-                    return b.on_steam[k, t - 1]
-                return None if init is None else (1.0 if k < init else 0.0)
+            def _change(b, k, t):
+                if t == 0 and init is None:  # status before the horizon unknown: no change counted
+                    b.to_steam[k, t].fix(0)
+                    b.to_motor[k, t].fix(0)
+                    return pyo.Constraint.Skip
+                p = b.on_steam[k, t - 1] if t > 0 else b.prev_on_steam[k]
+                return b.on_steam[k, t] - p == b.to_steam[k, t] - b.to_motor[k, t]
 
-            def _sw_up(b, k, t):
-                p = _prev(b, k, t)
-                return pyo.Constraint.Skip if p is None else b.switch[k, t] >= b.on_steam[k, t] - p
-
-            def _sw_dn(b, k, t):
-                p = _prev(b, k, t)
-                return pyo.Constraint.Skip if p is None else b.switch[k, t] >= p - b.on_steam[k, t]
-
-            blk.switch_up = pyo.Constraint(K, T, rule=_sw_up)
-            blk.switch_down = pyo.Constraint(K, T, rule=_sw_dn)
-            blk.switch_gap = pyo.Constraint(
-                K, T, rule=lambda b, k, t: sum(b.switch[k, j] for j in range(max(0, t - L + 1), t + 1)) <= 1)
-            if init is not None:  # a switch made shortly before the horizon still counts
-                for t in hours:
-                    if t < L - d.initial_hours_since_switch:
-                        for k in K:
-                            blk.on_steam[k, t].fix(1 if k < init else 0)
+            blk.switch_change = pyo.Constraint(K, T, rule=_change)
+            blk.switch_stay_steam = pyo.Constraint(K, T, rule=lambda b, k, t: sum(
+                b.to_steam[k, j] for j in range(max(0, t - L + 1), t + 1)) <= b.on_steam[k, t])
+            blk.switch_stay_motor = pyo.Constraint(K, T, rule=lambda b, k, t: sum(
+                b.to_motor[k, j] for j in range(max(0, t - L + 1), t + 1)) <= 1 - b.on_steam[k, t])
+            apply_fixings(blk.on_steam, wanted_drivers(d, hours), [(k, t) for k in K for t in hours])
         steam_n = lambda t: sum(blk.on_steam[k, t] for k in K)  # noqa: E731
     else:
         fixed = d.count if d.steam_turbine is not None else 0
@@ -110,14 +118,14 @@ def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:
 
     if co.steam_rate is not None:
         sr, st = co.steam_rate, d.steam_turbine
-        flow = lambda t: sr * float(duty[t]) * steam_n(t)  # noqa: E731  [t/h]
+        flow = lambda t: sr * data.duty(d.id, t) * steam_n(t)  # noqa: E731  [t/h]
         ctx.take(st.inlet, d.id, f"{d.id} turbine inlet", flow)
         ctx.add_arrival(st.exhaust, d.id, f"{d.id} turbine exhaust", flow, co.exhaust_h)
         blk.steam_flow = flow
     if co.motor_efficiency is not None:
         eta = co.motor_efficiency
         ctx.power_terms.append(Term(d.id, f"{d.id} motors",
-                                    lambda t: -float(duty[t]) / eta * (d.count - steam_n(t))))
+                                    lambda t: -data.duty(d.id, t) / eta * (d.count - steam_n(t))))
     blk.coefficients = co
     blk.unit = d
     return blk

@@ -17,8 +17,7 @@ def add_grid(m: pyo.ConcreteModel, g: Grid, ctx: ModelContext) -> pyo.Block:
     blk = pyo.Block()
     m.add_component("grid", blk)
     T = m.T
-    pi = ctx.series.price_import.to_numpy()
-    pe = ctx.series.price_export.to_numpy()
+    pi, pe = ctx.data.a_import, ctx.data.a_export
     blk.imp = pyo.Var(T, bounds=(g.min_import, g.max_import))
     blk.exp = pyo.Var(T, bounds=(0, g.max_export))
     arb = [t for t in ctx.hours if pe[t] > pi[t] and g.max_export > 0]
@@ -28,7 +27,9 @@ def add_grid(m: pyo.ConcreteModel, g: Grid, ctx: ModelContext) -> pyo.Block:
         blk.exp_side = pyo.Constraint(arb, rule=lambda b, t: b.exp[t] <= g.max_export * (1 - b.importing[t]))
     ctx.power_terms.append(Term("grid", "import", lambda t: blk.imp[t]))
     ctx.power_terms.append(Term("grid", "export", lambda t: -blk.exp[t]))
-    ctx.cost_terms["import"].append(lambda t: float(pi[t]) * blk.imp[t])
-    ctx.cost_terms["export"].append(lambda t: -float(pe[t]) * blk.exp[t])
+    data = ctx.data
+    ctx.cost_terms["import"].append(lambda t: data.price_import(t) * blk.imp[t])
+    ctx.cost_terms["export"].append(lambda t: -data.price_export(t) * blk.exp[t])
+    blk.arbitrage_hours = tuple(arb)
     blk.unit = g
     return blk

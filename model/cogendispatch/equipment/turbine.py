@@ -101,9 +101,6 @@ def add_turbogenerator(m: pyo.ConcreteModel, tg: TurboGenerator, ctx: ModelConte
     S = list(range(n))
     X = list(range(n - 1))  # sections that end in an extraction
     commitment(blk, hours, tg.min_up, tg.min_down, tg.initial_on, tg.initial_hours)
-    if not tg.available:
-        for t in hours:
-            blk.on[t].fix(0)
     blk.throttle = pyo.Var(T, bounds=(0, tg.max_throttle))
     blk.flow = pyo.Var(S, T, within=pyo.NonNegativeReals)  # through each section [t/h]
     blk.extraction = pyo.Var(X, T, within=pyo.NonNegativeReals)
