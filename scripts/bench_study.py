@@ -43,9 +43,19 @@ def main() -> None:
         res = run_study(cfg, scen, opts)
         timings[weeks] = time.perf_counter() - t0
         w = res[0].windows
-        print(f"{weeks} week(s) x {a.scenarios} scenario(s): {timings[weeks]:.1f} s wall; per window: build "
-              f"{np.mean([x.build_s for x in w]):.2f} s, solve {np.mean([x.solve_s for x in w]):.2f} s, "
-              f"gaps {', '.join(f'{100 * x.gap:.2f}%' for x in w)}")
+        warm = [x for x in w if x.reused]
+        new = [x for x in w if not x.reused]
+        cost = [float(r.hourly_cost.to_numpy().sum()) for r in res]
+        print(f"{weeks} week(s) x {a.scenarios} scenario(s): {timings[weeks]:.1f} s wall; "
+              f"{len(warm)} of {len(w)} windows re-used a model")
+        if warm:
+            print(f"  re-used model: data update {np.mean([x.build_s for x in warm]):.2f} s, "
+                  f"solve {np.mean([x.solve_s for x in warm]):.2f} s per window")
+        print(f"  new model: build + load {np.mean([x.build_s for x in new]):.2f} s, "
+              f"solve {np.mean([x.solve_s for x in new]):.2f} s per window ({len(new)} windows)")
+        gaps = [x.gap for x in w if x.gap is not None]
+        print(f"  proven gaps: {len(gaps)} of {len(w)} windows" + (f", largest {100 * max(gaps):.2f} %" if gaps else ""))
+        print(f"  cost per scenario: {', '.join(f'{c:,.0f}' for c in cost)}; per week {cost[0] / weeks:,.0f}")
     if len(timings) > 1:
         print(f"time({a.weeks} weeks) / time(1 week) = {timings[a.weeks] / timings[1]:.1f} (linear would be {a.weeks})")
     rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024

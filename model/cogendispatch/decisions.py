@@ -146,6 +146,7 @@ class HourModel:
         """Cost of the hour under ``w`` [currency], without collecting the state."""
         self._reset()
         self._apply(w, hold)
+        self.h.setOptionValue("time_limit", self.h.getRunTime() + 30.0)  # HiGHS sums run time, see solve._run
         self.h.run()
         if self.h.getInfo().primal_solution_status != 2:
             raise RuntimeError("the hour has no solution")
@@ -187,6 +188,7 @@ class HourModel:
         vals = np.round(x[ints])
         self.h.changeColsBounds(len(ints), ints, vals, vals)
         self.lm._set_integrality(False)
+        self.h.setOptionValue("time_limit", self.h.getRunTime() + 30.0)  # HiGHS sums run time, see solve._run
         self.h.run()
         sol = self.h.getSolution()
         dual = np.array(sol.row_dual)

@@ -19,12 +19,13 @@ import numpy as np
 import pyomo.environ as pyo
 from pyomo.contrib.solver.solvers.highs import Highs
 
-from .equipment.common import held_value, repair_commitment
+from .equipment.common import CommitInfo, held_value, repair_commitment
 from .errors import SolveError
 from .site import SiteModel
 from .strengthen import add_reserve_covers
 
 Progress = Callable[[str], None]
+HINT_FREE_HOURS = 6  # [h] first hours a guessed start leaves free to join the initial state (ramps)
 
 
 @dataclass(frozen=True)
@@ -88,6 +89,9 @@ class LoadedModel:
         self.col_upper = np.array(lp.col_upper_, dtype=float)
         self.colmap = colmap
         self.base_rows = lp.num_row_  # rows of the Pyomo model; cover rows come after
+        self._relaxed = False
+        self._int_names: dict[str, int] | None = None
+        self.schedule: np.ndarray | None = None  # column values of the last solve_mip's schedule
         self.start_objective: float | None = None
         self.load_seconds = time.perf_counter() - t0
 
@@ -107,6 +111,7 @@ class LoadedModel:
         return self.colmap.get(id(v))
 
     def _set_integrality(self, integral: bool) -> None:
+        self._relaxed = not integral
         if len(self.int_cols) == 0:
             return
         kind = self.integrality[self.int_cols] if integral else np.zeros(len(self.int_cols), dtype=np.int64)
@@ -114,7 +119,11 @@ class LoadedModel:
                                      np.array([highspy.HighsVarType(int(k)) for k in kind]))
 
     def _run(self, time_limit: float, gap: float | None = None) -> None:
-        self.h.setOptionValue("time_limit", max(0.1, float(time_limit)))
+        # HiGHS compares an LP's time limit with the instance's run time summed over every
+        # earlier run (HiGHS issue #1477), so a re-used instance would stop its LPs at once;
+        # a MIP's limit is its own
+        offset = self.h.getRunTime() if (self._relaxed or len(self.int_cols) == 0) else 0.0
+        self.h.setOptionValue("time_limit", offset + max(0.1, float(time_limit)))
         if gap is not None:
             self.h.setOptionValue("mip_rel_gap", gap)
         self.h.run()
@@ -122,7 +131,7 @@ class LoadedModel:
     def solution(self) -> np.ndarray:
         return np.array(self.h.getSolution().col_value, dtype=float)
 
-    def rounding_start(self, time_limit: float, threshold: float = 0.01) -> np.ndarray | None:
+    def rounding_start(self, time_limit: float, threshold: float = 0.01, gap: float = 1e-3) -> np.ndarray | None:
         """LP relaxation, its commitment rounded up and repaired, the rest (drivers included)
         re-optimised as a small MILP.
 
@@ -136,30 +145,92 @@ class LoadedModel:
         self._set_integrality(True)
         if not lp_ok:
             return None
+        # round up: a unit partly on in the relaxation is there for its capacity (reserve,
+        # minimum loads elsewhere); committing it keeps the start feasible
+        # the LP may have used most of the time; the small MILP still gets a share of it
+        left = max(t_end - time.perf_counter(), 0.3 * time_limit)
+        return self.commitment_start(lambda c: int(x[c] >= threshold), left, gap)
+
+    def commitment_start(self, guess: Callable[[int], int], time_limit: float,
+                         gap: float = 1e-3, drivers: bool = False, free_until: int = 0) -> np.ndarray | None:
+        """A schedule from a guessed commitment: ``guess(column)`` gives each on/off column's
+        wanted status; the guess is repaired to honour held statuses and minimum up/down
+        times, fixed, and the rest optimised as a small MILP. With ``drivers`` the guess
+        also fixes each machine's driver (repaired to the minimum time between switches),
+        which leaves an LP; should that LP be infeasible, the drivers are freed again.
+        Hours before ``free_until`` are left to the solver (where a guess taken from another
+        window meets this window's initial state, e.g. a shutdown a ramp limit forbids).
+
+        Returns the full column vector of a feasible schedule (objective in
+        ``start_objective``), or None.
+        """
+        t_end = time.perf_counter() + time_limit
         fix_cols: list[int] = []
         fix_vals: list[float] = []
+        drv_cols: list[int] = []
+        drv_vals: list[float] = []
         m = self.sm.model
         for blk in m.component_data_objects(pyo.Block, descend_into=False):
             info = getattr(blk, "commit_info", None)
             if info is not None:
                 on = [blk.on[t] for t in m.T]
                 fixed = {t: h for t, h in enumerate(held_value(v) for v in on) if h is not None}
-                # round up: a unit partly on in the relaxation is there for its capacity
-                # (reserve, minimum loads elsewhere); committing it keeps the start feasible
-                wanted = [fixed[t] if t in fixed else int(x[self.col(v)] >= threshold) for t, v in enumerate(on)]
+                wanted = [fixed[t] if t in fixed else guess(self.col(v)) for t, v in enumerate(on)]
                 seq = repair_commitment(wanted, fixed, info)
-                for v, s in zip(on, seq):
+                for t, (v, s) in enumerate(zip(on, seq)):
                     c = self.col(v)
-                    if c is not None:
+                    if c is not None and t >= free_until:
                         fix_cols.append(c)
                         fix_vals.append(float(s))
+            elif drivers and blk.component("on_steam") is not None:
+                d = blk.unit
+                L = max(1, int(round(d.min_hours_between_switches)))
+                for k in range(d.count):
+                    pos = [blk.on_steam[k, t] for t in m.T]
+                    fixed = {t: h for t, h in enumerate(held_value(v) for v in pos) if h is not None}
+                    wanted = [fixed[t] if t in fixed else guess(self.col(v)) for t, v in enumerate(pos)]
+                    if d.initial_on_steam is None:
+                        was = CommitInfo(L, L, bool(wanted[0]), float(L))
+                    else:
+                        was = CommitInfo(L, L, k < d.initial_on_steam, float(d.initial_hours_since_switch))
+                    for t, (v, s) in enumerate(zip(pos, repair_commitment(wanted, fixed, was))):
+                        c = self.col(v)
+                        if c is not None and t >= free_until:
+                            drv_cols.append(c)
+                            drv_vals.append(float(s))
+        seed = None
+        if drv_cols:
+            # drivers as guessed: an LP; its schedule seeds the MILP over the drivers below
+            seed = self._fixed_run(fix_cols + drv_cols, fix_vals + drv_vals, t_end - time.perf_counter(), gap)
+            seed_obj = self.start_objective
+            if seed is not None and t_end - time.perf_counter() < 0.5:
+                return seed
         if not fix_cols:
-            return x
-        idx = np.array(fix_cols, dtype=np.int32)
-        vals = np.array(fix_vals)
-        self.h.changeColsBounds(len(idx), idx, vals, vals)
+            self._run(max(0.5, t_end - time.perf_counter()), gap=gap)
+            ok = self.h.getInfo().primal_solution_status == 2
+            self.start_objective = float(self.h.getInfo().objective_function_value) if ok else None
+            return self.solution() if ok else None
+        if seed is not None:
+            self._set_start(seed)
+        x = self._fixed_run(fix_cols, fix_vals, t_end - time.perf_counter(), gap)
+        if seed is not None and (x is None or self.start_objective is None or self.start_objective > seed_obj):
+            self.start_objective = seed_obj
+            return seed
+        return x
+
+    def _set_start(self, x: np.ndarray) -> None:
+        sol = highspy.HighsSolution()
+        sol.col_value = list(x)
+        sol.value_valid = True
+        self.h.setSolution(sol)
+
+    def _fixed_run(self, cols: list[int], vals: list[float], time_limit: float, gap: float) -> np.ndarray | None:
+        """Solve with ``cols`` held at ``vals``; the bounds are restored afterwards."""
+        idx = np.array(cols, dtype=np.int32)
+        v = np.array(vals)
+        self.h.changeColsBounds(len(idx), idx, v, v)
         try:
-            self._run(max(0.5, t_end - time.perf_counter()), gap=1e-3)
+            self._run(max(0.5, time_limit), gap=gap)
             ok = self.h.getModelStatus() == highspy.HighsModelStatus.kOptimal or (
                 self.h.getInfo().primal_solution_status == 2)
             start = self.solution() if ok else None
@@ -167,6 +238,29 @@ class LoadedModel:
         finally:
             self.h.changeColsBounds(len(idx), idx, self.col_lower[idx], self.col_upper[idx])
         return start
+
+    def int_names(self) -> dict[str, int]:
+        """Integer columns by the name of their Pyomo variable."""
+        if self._int_names is None:
+            ints = set(self.int_cols.tolist())
+            self._int_names = {v.name: int(c) for v, c in zip(self.vars, self.cols) if int(c) in ints}
+        return self._int_names
+
+    def guess_from(self, earlier: "LoadedModel", x: np.ndarray) -> Callable[[int], int]:
+        """A commitment guess from ``x``, the schedule of an earlier window solved with
+        ``earlier`` (this model or another of the same site): each on/off or driver column
+        takes the earlier value of the same variable, i.e. the same hour of the earlier
+        window (for weekly windows, the same hour of the week before); 0 where it has none."""
+        if earlier is self:
+            return lambda c: int(round(x[c]))
+        theirs = earlier.int_names()
+        mine = {c: n for n, c in self.int_names().items()}
+
+        def guess(c: int) -> int:
+            j = theirs.get(mine.get(c, ""))
+            return int(round(x[j])) if j is not None else 0
+
+        return guess
 
     def unit_int_cols(self) -> list[tuple[str, np.ndarray]]:
         """Integer columns of each committed unit (boilers, turbo-generators), by unit id."""
@@ -212,8 +306,13 @@ class LoadedModel:
                 self.h.changeColsBounds(len(hold), hold, self.col_lower[hold], self.col_upper[hold])
         return x, obj
 
-    def solve_mip(self, options: SolveOptions, progress: Progress | None = None) -> SolveReport:
-        """Solve the MILP (after the rounding start) and load the schedule into the model."""
+    def solve_mip(self, options: SolveOptions, progress: Progress | None = None,
+                  hint: Callable[[int], int] | None = None) -> SolveReport:
+        """Solve the MILP and load the schedule into the model.
+
+        The start comes from ``hint`` (a commitment guess, e.g. :meth:`guess_from` the
+        previous window of a study) when given and feasible, else from the rounding start.
+        """
         secs: dict[str, float] = {"build": self.sm.build_seconds, "load": self.load_seconds}
         t0 = time.perf_counter()
         start_obj = None
@@ -226,7 +325,12 @@ class LoadedModel:
         if options.warm_start and len(self.int_cols) > 0:
             if progress:
                 progress("finding a starting schedule (LP relaxation, rounded)")
-            start = self.rounding_start(min(options.time_limit / 2, 60.0))
+            gap = max(options.gap, 1e-4)
+            if hint is not None:
+                start = self.commitment_start(hint, min(options.time_limit / 2, 30.0), gap, drivers=True,
+                                              free_until=HINT_FREE_HOURS)
+            if start is None:
+                start = self.rounding_start(min(options.time_limit / 2, 60.0), gap=gap)
             if start is not None:
                 start_obj = self.start_objective
                 if progress:
@@ -252,7 +356,8 @@ class LoadedModel:
 
             self.h.setCallback(_cb, None)
             self.h.startCallback(highspy.cb.HighsCallbackType.kCallbackMipInterrupt)
-        remaining = max(1.0, options.time_limit - (time.perf_counter() - t0))
+        # with a start in hand the search may get as little as is left; without one, 1 s
+        remaining = max(0.1 if start is not None else 1.0, options.time_limit - (time.perf_counter() - t0))
         self._run(remaining, gap=options.gap)
         if progress:
             self.h.stopCallback(highspy.cb.HighsCallbackType.kCallbackMipInterrupt)
@@ -261,13 +366,18 @@ class LoadedModel:
         info = self.h.getInfo()
         has = info.primal_solution_status == 2
         obj = float(info.objective_function_value) if has else float("nan")
+        x = self.solution() if has else None
         if len(self.int_cols):
             bound = float(info.mip_dual_bound)
             gap = float(info.mip_gap) if has else float("inf")
         else:
             bound, gap = obj, 0.0
+        if start is not None and start_obj is not None and (not has or start_obj < obj - 1e-9 * abs(obj)):
+            # stopped before it took up the start (a short time limit): keep the start
+            has, obj, x = True, start_obj, start
+            gap = (obj - bound) / abs(obj) if math.isfinite(bound) and obj != 0 else float("inf")
+        self.schedule = x
         if has:
-            x = self.solution()
             for v, c in zip(self.vars, self.cols):
                 v.set_value(x[c], skip_validation=True)
         secs["total"] = sum(secs[k] for k in ("build", "load", "strengthen", "start", "solve"))

@@ -18,13 +18,17 @@ A scenario file (TOML) names scenarios; each changes the base series:
 The year is planned in windows of one week plus a look-ahead (24 h by default) whose
 decisions are discarded; unit states, hours in state, boiler loads and driver states carry
 from one window to the next, so minimum up/down times, ramps and switching limits hold
-across window edges. Scenarios are independent and run in a process pool (spawn start
-method, one HiGHS thread per worker, each worker building its own models) or on a Dask
-distributed scheduler.
+across window edges. Each window re-uses the model loaded for the previous window of the
+same shape (:mod:`cogendispatch.reuse`): its data, initial states and outages are
+overwritten in place, and the previous window's schedule, moved on by one window, is the
+guess its starting schedule is built from (same hour of the week before). Scenarios are independent and run in a process
+pool (spawn start method, one HiGHS thread per worker, each worker building its own
+models) or on a Dask distributed scheduler.
 """
 
 from __future__ import annotations
 
+import math
 import multiprocessing as mp
 import os
 import time
@@ -48,6 +52,12 @@ from .reuse import WindowModels
 from .solve import LoadedModel, SolveOptions
 
 WEEK = 168
+# [s] least time for a window with no earlier schedule to start from: it starts from the LP
+# relaxation, which alone takes about 4 s for 192 h of the demo site (measured, 2 cores)
+COLD_MIN = 15.0
+# [s] least time for a window that has a schedule to start from but a newly built model,
+# whose LPs have no basis to start from yet
+NEW_MODEL_MIN = 6.0
 
 
 class _T(BaseModel):
@@ -193,7 +203,7 @@ class WindowReport:
     build_s: float
     solve_s: float
     status: str
-    gap: float
+    gap: float | None  # None: the search stopped before it had a finite bound
     tries: int
     reused: bool = False  # the model of an earlier window was given this window's data
 
@@ -251,6 +261,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     diagnosis: list[str] = []
     cur = cfg
     models = WindowModels(options.threads)
+    last_lm, last_x = None, None
     for w, s0 in enumerate(starts):
         length = min(window + lookahead, n - s0)
         keep = min(window, n - s0)
@@ -265,12 +276,19 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
                 if tries == 1:
                     lm = models.model_for(cur, ser, opts)
                     o = options
+                    # start from the previous window's schedule, same hour of the week
+                    hint = lm.guess_from(last_lm, last_x) if last_x is not None else None
+                    if hint is None:  # no schedule to start from: the LP relaxation needs longer
+                        o = replace(options, time_limit=max(COLD_MIN, options.time_limit))
+                    elif models.reused == reused_before:  # a new model: its first LPs start cold
+                        o = replace(options, time_limit=max(NEW_MODEL_MIN, options.time_limit))
                 else:  # the retry builds a fresh model and allows twice the time
                     models.forget(cur, ser, opts)
                     lm = LoadedModel(build_site_model(cur, ser, opts), threads=options.threads)
-                    o = replace(options, time_limit=2 * options.time_limit)
+                    o = replace(options, time_limit=2 * max(COLD_MIN, options.time_limit))
+                    hint = None
                 sm = lm.sm
-                rep = lm.solve_mip(o)
+                rep = lm.solve_mip(o, hint=hint)
                 if not rep.has_solution:
                     raise SolveError(f"HiGHS stopped ({rep.status}) without any schedule")
                 break
@@ -278,6 +296,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
                 last_err = exc
         else:
             raise SolveError(f"scenario '{ps.name}': window {ser.time[0]} to {ser.time[-1]} failed twice: {last_err}")
+        last_lm, last_x = lm, lm.schedule
         res = plan_results(sm)
         diagnosis += diagnose(sm, keep)
         sched = res.schedule.iloc[:keep]
@@ -286,7 +305,8 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
         reports.append(WindowReport(str(ser.time[0]), str(ser.time[keep - 1]),
                                     rep.seconds["build"] + rep.seconds["load"],
                                     rep.seconds["solve"] + rep.seconds.get("start", 0.0)
-                                    + rep.seconds.get("strengthen", 0.0), rep.status, rep.gap, tries,
+                                    + rep.seconds.get("strengthen", 0.0), rep.status,
+                                    rep.gap if math.isfinite(rep.gap) else None, tries,
                                     reused=tries == 1 and models.reused > reused_before))
         cur = carry_states(cur, sched, cur)
         if on_window:

@@ -10,15 +10,13 @@ value and never read the series themselves, so both builds share one code path.
 
 from __future__ import annotations
 
-from typing import Union
-
 import numpy as np
 import pyomo.environ as pyo
 
 from ..plant.schema import SiteConfig
 from ..plant.series import Series
 
-Value = Union[float, pyo.Param]  # a number, or an indexed mutable parameter's entry
+Value = float | pyo.Param  # a number, or an indexed mutable parameter's entry
 
 
 class WindowData:
