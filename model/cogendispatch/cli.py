@@ -95,8 +95,8 @@ def build_parser() -> argparse.ArgumentParser:
     sd.add_argument("--window", type=int, default=168, help="hours kept per window (default 168)")
     sd.add_argument("--lookahead", type=int, default=24, help="hours solved past each window and discarded (default 24)")
     sd.add_argument("--gap", type=_positive, default=5e-3, help="relative MIP gap per window (default 0.005)")
-    sd.add_argument("--time-limit", type=_positive, default=2.0,
-                    help="solver time per window [s] (default 2); a window starts from the week before and "
+    sd.add_argument("--time-limit", type=_positive, default=1.5,
+                    help="solver time per window [s] (default 1.5); a window starts from the week before and "
                          "more time lets it improve further; a window with nothing to start from gets at "
                          "least 15 s, one needing a newly built model at least 6 s")
     sd.add_argument("--workers", type=int, default=None, help="local worker processes (default: one per core)")

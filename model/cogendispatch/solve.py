@@ -25,6 +25,7 @@ from .site import SiteModel
 from .strengthen import add_reserve_covers
 
 Progress = Callable[[str], None]
+QUICK_LIMIT = 10.0  # [s] below this, a solve from a guessed start adds no cover rows
 HINT_FREE_HOURS = 6  # [h] first hours a guessed start leaves free to join the initial state (ramps)
 
 
@@ -317,7 +318,10 @@ class LoadedModel:
         t0 = time.perf_counter()
         start_obj = None
         start = None
-        if options.strengthen and len(self.int_cols) > 0:
+        # the cover rows serve the search's bound; a window started from a guess with only
+        # a few seconds has next to no search for them to serve
+        quick = hint is not None and options.time_limit < QUICK_LIMIT
+        if options.strengthen and len(self.int_cols) > 0 and not quick:
             if progress:
                 progress("bounding each hour's boiler steam; adding reserve cover inequalities")
             add_reserve_covers(self, min(options.time_limit / 4, 30.0))

@@ -46,7 +46,7 @@ from .errors import InputError, InputErrors, SolveError
 from .plant.load import validation_problems
 from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
-from .results import diagnose, plan_results
+from .results import cost_frame, diagnose, schedule_frame
 from .site import BuildOptions, build_site_model
 from .reuse import WindowModels
 from .solve import LoadedModel, SolveOptions
@@ -297,11 +297,12 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
         else:
             raise SolveError(f"scenario '{ps.name}': window {ser.time[0]} to {ser.time[-1]} failed twice: {last_err}")
         last_lm, last_x = lm, lm.schedule
-        res = plan_results(sm)
+        # the schedule and costs only: a study writes no balances
+        schedule, hourly = schedule_frame(sm), cost_frame(sm)
         diagnosis += diagnose(sm, keep)
-        sched = res.schedule.iloc[:keep]
+        sched = schedule.iloc[:keep]
         scheds.append(sched)
-        costs.append(res.hourly_cost.iloc[:keep])
+        costs.append(hourly.iloc[:keep])
         reports.append(WindowReport(str(ser.time[0]), str(ser.time[keep - 1]),
                                     rep.seconds["build"] + rep.seconds["load"],
                                     rep.seconds["solve"] + rep.seconds.get("start", 0.0)
