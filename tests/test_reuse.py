@@ -114,3 +114,20 @@ def test_lp_time_limit_holds_after_the_instance_has_run_for_longer() -> None:
         lm._run(5.0)
     lm._run(0.2)
     assert lm.h.getModelStatus() == highspy.HighsModelStatus.kOptimal
+
+
+def test_a_start_from_the_week_before_that_leaves_demand_unmet_gets_a_second_solve(monkeypatch) -> None:  # noqa: ANN001
+    # a guess with every unit off (as after an outage that has ended) leaves the header short;
+    # the window is solved again from its own LP relaxation and meets the demand
+    cfg = _site()
+    ser = _two_weeks(cfg)
+    monkeypatch.setattr(LoadedModel, "guess_from", lambda self, earlier, x: (lambda c: 0))
+    from cogendispatch import studies
+    calls = []
+    second = studies._second_opinion
+    monkeypatch.setattr(studies, "_second_opinion", lambda *a: calls.append(1) or second(*a))
+    opts = SolveOptions(gap=1e-4, time_limit=0.2, warm_start=True)  # too short to repair the guess
+    r = rolling_horizon(cfg, PreparedScenario("base", ser, ()), opts, window=48, lookahead=24)
+    assert calls and r.shortfall_hours == 0
+    mono = solve(build_site_model(cfg, ser), FAST)
+    assert float(r.hourly_cost.to_numpy().sum()) == pytest.approx(mono.objective, rel=5e-3)

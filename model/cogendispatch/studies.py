@@ -49,7 +49,7 @@ from .plant.series import Series, load_series
 from .results import cost_frame, diagnose, schedule_frame
 from .site import BuildOptions, build_site_model
 from .reuse import WindowModels
-from .solve import LoadedModel, SolveOptions
+from .solve import LoadedModel, SolveOptions, SolveReport
 
 WEEK = 168
 # [s] least time for a window with no earlier schedule to start from: it starts from the LP
@@ -291,6 +291,8 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
                 rep = lm.solve_mip(o, hint=hint)
                 if not rep.has_solution:
                     raise SolveError(f"HiGHS stopped ({rep.status}) without any schedule")
+                if hint is not None and _short(lm):
+                    rep = _second_opinion(lm, rep, replace(options, time_limit=max(COLD_MIN, options.time_limit)))
                 break
             except (SolveError, RuntimeError) as exc:  # retried once, then reported
                 last_err = exc
@@ -319,6 +321,28 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     if "penalty" in hourly:
         bal_short = int((hourly["penalty"] > 1e-6).sum())
     return ScenarioResult(ps.name, schedule, hourly, bal_short, reports, diagnosis)
+
+
+def _short(lm: LoadedModel) -> bool:
+    """Whether the schedule loaded in ``lm`` leaves any demand or reserve unmet."""
+    m = lm.sm.model
+    slacks = [*m.steam_short.values(), *m.power_short.values(), *m.reserve_short.values()]
+    return any((v.value or 0.0) > 1e-6 for v in slacks)
+
+
+def _second_opinion(lm: LoadedModel, rep: SolveReport, options: SolveOptions) -> SolveReport:
+    """A window started from the week before that leaves demand unmet is solved again from
+    its own LP relaxation: the week before may have had a unit out that is back now. The
+    cheaper of the two schedules is kept (and loaded into the model)."""
+    first = lm.schedule
+    again = lm.solve_mip(options)
+    if again.has_solution and again.objective < rep.objective:
+        again.seconds["solve"] += rep.seconds["solve"] + rep.seconds.get("start", 0.0)
+        return again
+    lm.schedule = first
+    for v, c in zip(lm.vars, lm.cols):
+        v.set_value(first[c], skip_validation=True)
+    return rep
 
 
 # ------------------------------------------------------------------ summaries
