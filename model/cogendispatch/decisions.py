@@ -71,7 +71,6 @@ class HourModel:
         self.lm = LoadedModel(self.sm)
         self.h: highspy.Highs = self.lm.h
         self.h.setOptionValue("mip_rel_gap", 1e-9)
-        self.h.setOptionValue("time_limit", 30.0)
         self.h.setOptionValue("presolve", "off")  # faster on a model this small
         self.held = held
         m = self.sm.model
@@ -146,8 +145,7 @@ class HourModel:
         """Cost of the hour under ``w`` [currency], without collecting the state."""
         self._reset()
         self._apply(w, hold)
-        self.h.setOptionValue("time_limit", self.h.getRunTime() + 30.0)  # HiGHS sums run time, see solve._run
-        self.h.run()
+        self.lm._run(30.0)
         if self.h.getInfo().primal_solution_status != 2:
             raise RuntimeError("the hour has no solution")
         return float(self.h.getInfo().objective_function_value)
@@ -188,8 +186,7 @@ class HourModel:
         vals = np.round(x[ints])
         self.h.changeColsBounds(len(ints), ints, vals, vals)
         self.lm._set_integrality(False)
-        self.h.setOptionValue("time_limit", self.h.getRunTime() + 30.0)  # HiGHS sums run time, see solve._run
-        self.h.run()
+        self.lm._run(30.0)
         sol = self.h.getSolution()
         dual = np.array(sol.row_dual)
         x = np.array(sol.col_value)

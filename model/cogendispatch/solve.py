@@ -146,10 +146,10 @@ class LoadedModel:
         self._set_integrality(True)
         if not lp_ok:
             return None
-        # round up: a unit partly on in the relaxation is there for its capacity (reserve,
-        # minimum loads elsewhere); committing it keeps the start feasible
         # the LP may have used most of the time; the small MILP still gets a share of it
         left = max(t_end - time.perf_counter(), 0.3 * time_limit)
+        # round up: a unit partly on in the relaxation is there for its capacity (reserve,
+        # minimum loads elsewhere); committing it keeps the start feasible
         return self.commitment_start(lambda c: int(x[c] >= threshold), left, gap)
 
     def commitment_start(self, guess: Callable[[int], int], time_limit: float,
@@ -174,31 +174,16 @@ class LoadedModel:
         for blk in m.component_data_objects(pyo.Block, descend_into=False):
             info = getattr(blk, "commit_info", None)
             if info is not None:
-                on = [blk.on[t] for t in m.T]
-                fixed = {t: h for t, h in enumerate(held_value(v) for v in on) if h is not None}
-                wanted = [fixed[t] if t in fixed else guess(self.col(v)) for t, v in enumerate(on)]
-                seq = repair_commitment(wanted, fixed, info)
-                for t, (v, s) in enumerate(zip(on, seq)):
-                    c = self.col(v)
-                    if c is not None and t >= free_until:
-                        fix_cols.append(c)
-                        fix_vals.append(float(s))
+                self._repaired([blk.on[t] for t in m.T], info, guess, free_until, fix_cols, fix_vals)
             elif drivers and blk.component("on_steam") is not None:
                 d = blk.unit
                 L = max(1, int(round(d.min_hours_between_switches)))
                 for k in range(d.count):
-                    pos = [blk.on_steam[k, t] for t in m.T]
-                    fixed = {t: h for t, h in enumerate(held_value(v) for v in pos) if h is not None}
-                    wanted = [fixed[t] if t in fixed else guess(self.col(v)) for t, v in enumerate(pos)]
-                    if d.initial_on_steam is None:
-                        was = CommitInfo(L, L, bool(wanted[0]), float(L))
+                    if d.initial_on_steam is None:  # no history: take the guess's first hour as it
+                        was = CommitInfo(L, L, bool(guess(self.col(blk.on_steam[k, 0]))), float(L))
                     else:
                         was = CommitInfo(L, L, k < d.initial_on_steam, float(d.initial_hours_since_switch))
-                    for t, (v, s) in enumerate(zip(pos, repair_commitment(wanted, fixed, was))):
-                        c = self.col(v)
-                        if c is not None and t >= free_until:
-                            drv_cols.append(c)
-                            drv_vals.append(float(s))
+                    self._repaired([blk.on_steam[k, t] for t in m.T], was, guess, free_until, drv_cols, drv_vals)
         seed = None
         if drv_cols:
             # drivers as guessed: an LP; its schedule seeds the MILP over the drivers below
@@ -218,6 +203,18 @@ class LoadedModel:
             self.start_objective = seed_obj
             return seed
         return x
+
+    def _repaired(self, status: list[pyo.Var], info: CommitInfo, guess: Callable[[int], int], free_until: int,
+                  cols: list[int], vals: list[float]) -> None:
+        """Append to ``cols``/``vals`` one unit's (or driver position's) guessed hourly
+        status, repaired for held hours and minimum times, from hour ``free_until`` on."""
+        fixed = {t: h for t, h in enumerate(held_value(v) for v in status) if h is not None}
+        wanted = [fixed[t] if t in fixed else guess(self.col(v)) for t, v in enumerate(status)]
+        for t, (v, s) in enumerate(zip(status, repair_commitment(wanted, fixed, info))):
+            c = self.col(v)
+            if c is not None and t >= free_until:
+                cols.append(c)
+                vals.append(float(s))
 
     def _set_start(self, x: np.ndarray) -> None:
         sol = highspy.HighsSolution()
@@ -295,10 +292,7 @@ class LoadedModel:
             vals = np.round(x[hold])
             self.h.changeColsBounds(len(hold), hold, vals, vals)
             try:
-                sol = highspy.HighsSolution()
-                sol.col_value = list(x)
-                sol.value_valid = True
-                self.h.setSolution(sol)
+                self._set_start(x)
                 self._run(min(left, 10.0), gap=1e-4)
                 info = self.h.getInfo()
                 if info.primal_solution_status == 2 and info.objective_function_value < obj - 1e-6 * abs(obj):
@@ -343,10 +337,7 @@ class LoadedModel:
         secs["start"] = time.perf_counter() - t0 - secs["strengthen"]
         t1 = time.perf_counter()
         if start is not None:
-            sol = highspy.HighsSolution()
-            sol.col_value = list(start)
-            sol.value_valid = True
-            self.h.setSolution(sol)
+            self._set_start(start)
         if progress:
             last = [0.0]
 

@@ -130,8 +130,7 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
     blk = pyo.Block()
     m.add_component(f"boiler_{b.id}", blk)
     T = m.T
-    hours = ctx.hours
-    commitment(blk, hours, b.min_up, b.min_down, b.initial_on, b.initial_hours)
+    commitment(blk, b.min_up, b.min_down, b.initial_on, b.initial_hours)
     blk.steam = pyo.Var(T, bounds=(0, b.max_steam))
     blk.fuel = pyo.Var(T, within=pyo.NonNegativeReals)
     blk.burn = pyo.Var(b.fuels, T, within=pyo.NonNegativeReals)

@@ -107,15 +107,14 @@ class ModelContext:
         self.header_terms[header].append(Term(unit, label, lambda t: -flow(t)))
 
 
-def commitment(blk: pyo.Block, hours: list[int], min_up: float, min_down: float,
-               initial_on: bool, initial_hours: float) -> None:
+def commitment(blk: pyo.Block, min_up: float, min_down: float, initial_on: bool, initial_hours: float) -> None:
     """On/off status with start-up and shut-down indicators and minimum up/down times.
 
     Adds ``on`` (binary), ``start`` and ``stop`` (continuous in [0, 1], integral because
     ``on`` is) with on_t - on_{t-1} = start_t - stop_t and the turn-on/turn-off
     inequalities sum(start over last UT hours) <= on_t, sum(stop over last DT hours) <= 1 - on_t.
     The status before the first hour is the mutable parameter ``u0``; hours already spent in
-    it count towards the minimum times through :func:`hold_initial_status`.
+    it count towards the minimum times through :func:`wanted_status`.
 
     Parameters
     ----------

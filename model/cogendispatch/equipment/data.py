@@ -86,37 +86,45 @@ class WindowData:
         self._store()
 
     # -- what the blocks ask for ------------------------------------------------------------
+    def _pick(self, name: str, t: int, key: str | None = None) -> Value:
+        """The parameter ``data_<name>`` (mutable builds) or the number from ``a_<name>``."""
+        if self.mutable:
+            param = getattr(self.m, f"data_{name}")
+            return param[key, t] if key is not None else param[t]
+        arr = getattr(self, f"a_{name}")
+        return float((arr[key] if key is not None else arr)[t])
+
     def demand(self, header: str, t: int) -> Value:
         """Process steam demand [t/h] (negative: process waste-heat boilers export)."""
-        return self.m.data_demand[header, t] if self.mutable else float(self.a_demand[header][t])
+        return self._pick("demand", t, header)
 
     def load(self, t: int) -> Value:
         """Site electric load [MW]."""
-        return self.m.data_load[t] if self.mutable else float(self.a_load[t])
+        return self._pick("load", t)
 
     def duty(self, drive: str, t: int) -> Value:
         """Shaft power of one machine of a drive [MW]."""
-        return self.m.data_duty[drive, t] if self.mutable else float(self.a_duty[drive][t])
+        return self._pick("duty", t, drive)
 
     def price_import(self, t: int) -> Value:
         """[currency/MWh]"""
-        return self.m.data_import[t] if self.mutable else float(self.a_import[t])
+        return self._pick("import", t)
 
     def price_export(self, t: int) -> Value:
         """[currency/MWh]"""
-        return self.m.data_export[t] if self.mutable else float(self.a_export[t])
+        return self._pick("export", t)
 
     def fuel_price(self, fuel: str, t: int) -> Value:
         """[currency/GJ]"""
-        return self.m.data_fuel[fuel, t] if self.mutable else float(self.a_fuel[fuel][t])
+        return self._pick("fuel", t, fuel)
 
     def co2_price(self, t: int) -> Value:
         """[currency/t CO2]"""
-        return self.m.data_co2[t] if self.mutable else float(self.a_co2[t])
+        return self._pick("co2", t)
 
     def condensate_return(self, t: int) -> Value:
         """Process condensate returned to the deaerator [t/h]."""
-        return self.m.data_return[t] if self.mutable else float(self.a_return[t])
+        return self._pick("return", t)
 
     def any_demand(self, header: str) -> bool:
         """Whether the header's demand term is needed (always, in a mutable build)."""

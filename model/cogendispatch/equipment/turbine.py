@@ -96,11 +96,11 @@ def add_turbogenerator(m: pyo.ConcreteModel, tg: TurboGenerator, ctx: ModelConte
     co = coefficients(tg, ctx.states)
     blk = pyo.Block()
     m.add_component(f"tg_{tg.id}", blk)
-    T, hours = m.T, ctx.hours
+    T = m.T
     n = len(co.sections)
     S = list(range(n))
     X = list(range(n - 1))  # sections that end in an extraction
-    commitment(blk, hours, tg.min_up, tg.min_down, tg.initial_on, tg.initial_hours)
+    commitment(blk, tg.min_up, tg.min_down, tg.initial_on, tg.initial_hours)
     blk.throttle = pyo.Var(T, bounds=(0, tg.max_throttle))
     blk.flow = pyo.Var(S, T, within=pyo.NonNegativeReals)  # through each section [t/h]
     blk.extraction = pyo.Var(X, T, within=pyo.NonNegativeReals)

@@ -64,10 +64,11 @@ def lines(frame: pd.DataFrame, title: str, ylabel: str, step: bool = False) -> s
     fig, ax = plt.subplots(figsize=(9.5, 2.8))
     x = np.arange(len(frame))
     for i, c in enumerate(frame.columns):
+        style = {"color": PALETTE[i % len(PALETTE)], "lw": 1.2, "label": str(c)}
         if step:
-            ax.step(x, frame[c].to_numpy(), where="post", color=PALETTE[i % len(PALETTE)], lw=1.2, label=str(c))
+            ax.step(x, frame[c].to_numpy(), where="post", **style)
         else:
-            ax.plot(x, frame[c].to_numpy(), color=PALETTE[i % len(PALETTE)], lw=1.2, label=str(c))
+            ax.plot(x, frame[c].to_numpy(), **style)
     _time_axis(ax, frame.index)
     ax.set_title(title, loc="left")
     ax.set_ylabel(ylabel)
