@@ -29,7 +29,7 @@ def main() -> None:
     s = rep.seconds
     outside = s["build"] + s["load"] + extract
     print(f"hours {series.hours}, status {rep.status}, objective {rep.objective:,.0f}, bound {rep.bound:,.0f}, gap {100 * rep.gap:.3f} %")
-    print(f"build {s['build']:.2f} s | load {s['load']:.2f} s | cover rows {s.get('strengthen', 0):.2f} s | "
+    print(f"build {s['build']:.2f} s | load {s['load']:.2f} s | reserve rows {s.get('strengthen', 0):.2f} s | "
           f"start heuristic {s['start']:.2f} s | "
           f"HiGHS MIP {s['solve']:.2f} s | results {extract:.2f} s | total {s['total'] + extract:.2f} s")
     print(f"outside HiGHS (build + load + results): {outside:.2f} s = {100 * outside / (s['total'] + extract):.1f} % of total")

@@ -11,7 +11,8 @@ from cogendispatch.cli import main
 from cogendispatch.errors import InputError
 from cogendispatch.site import build_site_model
 from cogendispatch.solve import SolveOptions, solve
-from cogendispatch.studies import PreparedScenario, load_scenarios, rolling_horizon, run_study, summarise
+from cogendispatch.studies import (PreparedScenario, load_scenarios, rolling_horizon, run_study, short_hours,
+                                   summarise)
 from tiny import series, site
 
 FAST = SolveOptions(gap=1e-4, time_limit=60, warm_start=False)
@@ -194,3 +195,12 @@ def test_study_reports_shortfalls_like_a_plan(capsys) -> None:  # noqa: ANN001
     # the peak straddles a window edge: each window names its short headers, with dates
     assert r.diagnosis and all("header short" in d and "2027-03-01 1" in d for d in r.diagnosis)
     assert any("binding in hour" in d and "at its" in d for d in r.diagnosis)
+
+
+def test_round_off_is_no_shortfall_hour() -> None:
+    """A slack of round-off size priced at a large penalty is not a shortfall hour; a real
+    one is (zero tolerance 1e-5 t/h or MW at the cheapest slack price)."""
+    cfg = site(penalties={"steam_shortfall": "1e6 per t", "steam_surplus": "1e6 per t",
+                          "power_shortfall": "1e6 per MWh", "power_surplus": "1e6 per MWh"})
+    hourly = pd.DataFrame({"fuel": [100.0, 100.0, 100.0], "penalty": [0.0, 1e-3, 5e4]})
+    assert short_hours(cfg, hourly).tolist() == [False, False, True]

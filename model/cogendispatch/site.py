@@ -18,6 +18,7 @@ from .equipment.deaerator import add_deaerator
 from .equipment.grid import add_grid
 from .plant.schema import SiteConfig
 from .plant.series import Series
+from .reserve import add_reserve
 
 
 @dataclass(frozen=True)
@@ -104,19 +105,7 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
                 m.T, rule=lambda mm, t, uses=uses, cap=f.max_supply: sum(u(t) for u in uses) <= cap))
 
     # steam reserve: the spare capacity of the other running boilers covers any one of them
-    use_reserve = cfg.reserve.enabled if options.reserve is None else options.reserve
-    m.reserve_short = pyo.Var(m.T, within=pyo.NonNegativeReals)
-    if use_reserve and ctx.boilers:
-        bs = ctx.boilers
-        cover = cfg.reserve.cover
-        spare = lambda t: sum(b.unit.max_steam * b.on[t] - b.steam[t] for b in bs)  # noqa: E731
-        m.reserve = pyo.Constraint(
-            range(len(bs)), m.T,
-            rule=lambda mm, i, t: spare(t) - (bs[i].unit.max_steam * bs[i].on[t] - bs[i].steam[t])
-            + m.reserve_short[t] >= cover * bs[i].steam[t])
-    else:
-        for t in hours:
-            m.reserve_short[t].fix(0)
+    add_reserve(m, ctx, cfg.reserve.enabled if options.reserve is None else options.reserve)
 
     ctx.cost_terms["penalty"].append(lambda t: sum(
         pen.steam_shortfall * m.steam_short[h, t] + pen.steam_surplus * m.steam_surplus[h, t] for h in H)

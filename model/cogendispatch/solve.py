@@ -22,24 +22,29 @@ from pyomo.contrib.solver.solvers.highs import Highs
 from .equipment.common import CommitInfo, held_value, repair_commitment
 from .errors import SolveError
 from .site import SiteModel
-from .strengthen import add_reserve_covers
+from .strengthen import add_reserve_rows
 
 Progress = Callable[[str], None]
-QUICK_LIMIT = 10.0  # [s] below this, a solve from a guessed start adds no cover rows
+SEARCH_SHARE_MAX = 30.0  # [s] most of a plan's time limit held back for HiGHS's own search
+QUICK_LIMIT = 10.0  # [s] below this, a solve from a guessed start adds no reserve rows
 HINT_FREE_HOURS = 6  # [h] first hours a guessed start leaves free to join the initial state (ramps)
 
 
 @dataclass(frozen=True)
 class SolveOptions:
     """gap : relative MIP gap [-]; time_limit : [s]; threads : HiGHS threads;
-    warm_start : build the rounding start first; strengthen : add the reserve cover
-    inequalities of :mod:`cogendispatch.strengthen`."""
+    warm_start : build the rounding start first; strengthen : add the reserve rows
+    of :mod:`cogendispatch.strengthen`; search_share : share of the time limit (at most
+    SEARCH_SHARE_MAX) a solve without a guessed start keeps for HiGHS's own search rather
+    than for improving the start [-]: a plan wants the proven bound that search gives, a
+    study window's schedule matters more than its bound."""
 
     gap: float = 1e-3
     time_limit: float = 120.0
     threads: int = 1
     warm_start: bool = True
     strengthen: bool = True
+    search_share: float = 0.5
 
 
 @dataclass
@@ -68,6 +73,14 @@ _STATUS = {
 }
 
 
+def _ordered(vals: list[float], count: int) -> bool:
+    """Whether ``count`` equal-length driver sequences, concatenated, keep machine k on steam
+    only where machine k-1 is (the symmetry order of identical machines)."""
+    n = len(vals) // count
+    seq = [vals[k * n:(k + 1) * n] for k in range(count)]
+    return all(seq[k][t] <= seq[k - 1][t] for k in range(1, count) for t in range(n))
+
+
 class LoadedModel:
     """A site model loaded into a persistent HiGHS instance, with the column map."""
 
@@ -89,7 +102,7 @@ class LoadedModel:
         self.col_lower = np.array(lp.col_lower_, dtype=float)
         self.col_upper = np.array(lp.col_upper_, dtype=float)
         self.colmap = colmap
-        self.base_rows = lp.num_row_  # rows of the Pyomo model; cover rows come after
+        self.base_rows = lp.num_row_  # rows of the Pyomo model; reserve rows come after
         self._relaxed = False
         self._int_names: dict[str, int] | None = None
         self.schedule: np.ndarray | None = None  # column values of the last solve_mip's schedule
@@ -98,7 +111,7 @@ class LoadedModel:
 
     def refresh(self) -> None:
         """After the Pyomo model's data changed in place (:mod:`cogendispatch.reuse`): drop
-        the cover rows of the last solve and re-read the column bounds."""
+        the reserve rows of the last solve and re-read the column bounds."""
         n = self.h.getNumRow()
         if n > self.base_rows:
             extra = np.arange(self.base_rows, n, dtype=np.int32)
@@ -132,15 +145,17 @@ class LoadedModel:
     def solution(self) -> np.ndarray:
         return np.array(self.h.getSolution().col_value, dtype=float)
 
-    def rounding_start(self, time_limit: float, threshold: float = 0.01, gap: float = 1e-3) -> np.ndarray | None:
+    def rounding_start(self, time_limit: float, threshold: float = 0.01, gap: float = 1e-3,
+                       lp_time_limit: float | None = None) -> np.ndarray | None:
         """LP relaxation, its commitment rounded up and repaired, the rest (drivers included)
-        re-optimised as a small MILP.
+        re-optimised as a small MILP. The LP may take up to ``lp_time_limit`` (default
+        ``time_limit``) [s]: without it there is nothing to round.
 
         Returns the full column vector of a feasible schedule, or None.
         """
         t_end = time.perf_counter() + time_limit
         self._set_integrality(False)
-        self._run(time_limit)
+        self._run(max(time_limit, lp_time_limit or 0.0))
         lp_ok = self.h.getModelStatus() == highspy.HighsModelStatus.kOptimal
         x = self.solution()
         self._set_integrality(True)
@@ -178,12 +193,22 @@ class LoadedModel:
             elif drivers and blk.component("on_steam") is not None:
                 d = blk.unit
                 L = max(1, int(round(d.min_hours_between_switches)))
+                cols: list[int] = []
+                vals: list[float] = []
                 for k in range(d.count):
                     if d.initial_on_steam is None:  # no history: take the guess's first hour as it
                         was = CommitInfo(L, L, bool(guess(self.col(blk.on_steam[k, 0]))), float(L))
                     else:
                         was = CommitInfo(L, L, k < d.initial_on_steam, float(d.initial_hours_since_switch))
-                    self._repaired([blk.on_steam[k, t] for t in m.T], was, guess, free_until, drv_cols, drv_vals)
+                    self._repaired([blk.on_steam[k, t] for t in m.T], was, guess, free_until, cols, vals)
+                if d.count > 1 and len(vals) == d.count * (len(m.T) - free_until) and _ordered(vals, d.count):
+                    drv_cols += cols
+                    drv_vals += vals
+                elif d.count == 1:
+                    drv_cols += cols
+                    drv_vals += vals
+                # else: positions repaired one by one broke the order of identical machines
+                # (machine k on steam only if machine k-1 is); leave this drive to the search
         seed = None
         if drv_cols:
             # drivers as guessed: an LP; its schedule seeds the MILP over the drivers below
@@ -227,6 +252,11 @@ class LoadedModel:
         idx = np.array(cols, dtype=np.int32)
         v = np.array(vals)
         self.h.changeColsBounds(len(idx), idx, v, v)
+        # every integer held: solve it as the LP it is (quicker than HiGHS's MIP path, and
+        # under the LP time-limit offset of _run)
+        lp = len(self.int_cols) > 0 and np.isin(self.int_cols, idx).all()
+        if lp:
+            self._set_integrality(False)
         try:
             self._run(max(0.5, time_limit), gap=gap)
             ok = self.h.getModelStatus() == highspy.HighsModelStatus.kOptimal or (
@@ -234,6 +264,8 @@ class LoadedModel:
             start = self.solution() if ok else None
             self.start_objective = float(self.h.getInfo().objective_function_value) if ok else None
         finally:
+            if lp:
+                self._set_integrality(True)
             self.h.changeColsBounds(len(idx), idx, self.col_lower[idx], self.col_upper[idx])
         return start
 
@@ -312,13 +344,13 @@ class LoadedModel:
         t0 = time.perf_counter()
         start_obj = None
         start = None
-        # the cover rows serve the search's bound; a window started from a guess with only
+        # the reserve rows serve the search's bound; a window started from a guess with only
         # a few seconds has next to no search for them to serve
         quick = hint is not None and options.time_limit < QUICK_LIMIT
         if options.strengthen and len(self.int_cols) > 0 and not quick:
             if progress:
-                progress("bounding each hour's boiler steam; adding reserve cover inequalities")
-            add_reserve_covers(self, min(options.time_limit / 4, 30.0))
+                progress("bounding each hour's boiler steam; adding reserve rows")
+            add_reserve_rows(self, min(options.time_limit / 4, 30.0))
         secs["strengthen"] = time.perf_counter() - t0
         if options.warm_start and len(self.int_cols) > 0:
             if progress:
@@ -328,12 +360,21 @@ class LoadedModel:
                 start = self.commitment_start(hint, min(options.time_limit / 2, 30.0), gap, drivers=True,
                                               free_until=HINT_FREE_HOURS)
             if start is None:
-                start = self.rounding_start(min(options.time_limit / 2, 60.0), gap=gap)
+                # the LP may use the whole limit: a search without a start is far worse
+                start = self.rounding_start(min(options.time_limit / 2, 60.0), gap=gap,
+                                            lp_time_limit=options.time_limit)
             if start is not None:
                 start_obj = self.start_objective
-                if progress:
-                    progress(f"improving the start ({start_obj:,.0f}) unit by unit")
-                start, start_obj = self.improve(start, start_obj, min(options.time_limit / 3, 30.0))
+                budget = min(options.time_limit / 3, 30.0)
+                if hint is None and options.search_share > 0:
+                    # keep a share of the limit for HiGHS: its root LP and first cut rounds
+                    # are what prove a bound
+                    left = options.time_limit - (time.perf_counter() - t0)
+                    budget = min(budget, left - min(options.search_share * options.time_limit, SEARCH_SHARE_MAX))
+                if budget >= 1.0:
+                    if progress:
+                        progress(f"improving the start ({start_obj:,.0f}) unit by unit")
+                    start, start_obj = self.improve(start, start_obj, budget)
         secs["start"] = time.perf_counter() - t0 - secs["strengthen"]
         t1 = time.perf_counter()
         if start is not None:

@@ -1,27 +1,42 @@
 """Valid inequalities that make the steam reserve's relaxation tight enough to branch on.
 
-The reserve row for boiler b, sum_{j != b} (M_j on_j - s_j) + rs >= c s_b, lets the LP
-relaxation "buy" reserve with a boiler committed a few per cent: the relaxation carries
-that boiler's no-load fuel for a fraction of the hour only, and the proven bound stays far
-below the best schedule. Integer reasoning does better once the hour's total boiler steam
-S_t is known to be large:
+The reserve rows (:mod:`cogendispatch.reserve`) let the LP relaxation "buy" reserve with a
+boiler committed a few per cent: it carries that boiler's no-load fuel, minimum load and
+start for a fraction only, and the proven bound stays far below the best schedule. Integer
+reasoning does better once the hour's total boiler steam S_t is known to be large:
 
 1. Minimum steam: drop every constraint that links hours (commitment transitions, minimum
    up/down times, ramps, switching limits) and integrality; then the hours decouple, and
-   one LP minimising sum_t (S_t + K * shortfall_t) gives each hour's minimum
-   L_t <= S_t + K * shortfall_t, valid for every schedule of the full model.
-2. Covers: with the reserve, sum_{j != b} M_j on_j + rs >= S_t - (1 - c) M_b, so a set C of
+   one LP minimising sum_t (S_t + K_s * steam shortfall_t + K_p * power shortfall_t) gives
+   each hour's minimum L_t <= S_t + K_s * steam shortfall_t + K_p * power shortfall_t,
+   valid for every schedule of the full model and any weights K > 0. The power shortfall
+   must be in it: on a site whose import is capped, the steam that machines on motors
+   would save has to be made on site as power, so shaving the steam peak has a floor.
+2. Running sets: a set k of running boilers carries at most C_k t/h with its reserve
+   (:func:`cogendispatch.reserve.set_capacity`), so a set with C_k < L_t can run only on
+   slack. With the set weights z_{k,t} of the reserve module, one row per hour says so:
+
+       sum_{k: C_k < L_t} (L_t - C_k) z_{k,t} <= r_t + K_s * steam shortfall_t + K_p * power shortfall_t
+
+   Without slack the hour's statuses lie in the convex hull of the sets that can carry
+   L_t, e.g. "at least three boilers" or "the large boiler runs".
+3. On sites with more boilers than the set weights allow, cover rows instead: a set C of
    the other boilers whose joint rating exceeds what may be off,
    sum_C M_j > sum_{j != b} M_j - R_b (R_b = L_t - (1 - c) M_b), cannot be off together
    without slack g_C = R_b - (sum_{j != b} M_j - sum_C M_j):
 
-       sum_{j in C} on_j + (rs + K * shortfall_t) / g_C >= 1.
+       sum_{j in C} u_j + (r_t + K_s * steam shortfall_t + K_p * power shortfall_t) / g_C >= 1.
 
-Both are implied by the model (no schedule is cut off); the slacks keep them valid in hours
-that cannot be met.
+All are implied by the model (no schedule is cut off); the slacks keep them valid in hours
+that cannot be met. The weights K set how dearly the relaxation pays for escaping a row
+through a slack (penalty / K per t/h): a small K makes the rows bite harder but lets the
+minimum-steam LP trade steam for slack, which lowers L_t. Both effects depend on the site,
+so the rows are written for a small and a large power weight; each set is valid.
 
 References
 ----------
+Balas, E., Disjunctive programming: properties of the convex hull of feasible points,
+Discrete Applied Mathematics 89 (1998) 3-44.
 Nemhauser & Wolsey, Integer and Combinatorial Optimization (1988), sec. II.2 (cover
 inequalities for knapsack sets).
 """
@@ -36,7 +51,9 @@ import pyomo.environ as pyo
 
 from .equipment.common import held_value
 
-K_SHORT = 5.0  # [t of boiler steam per t/h of header shortfall] weight in the bound (any K > 0 is valid)
+K_SHORT = 5.0  # [t/h of boiler steam per t/h of header shortfall] weight in the bound (any K > 0 is valid)
+# [t/h of boiler steam per MW of power shortfall]: a small and a large weight (module docstring)
+K_POWER = (2.0, 50.0)
 _LINKING = ("transition", "min_up", "min_down", "ramp_up", "ramp_down", "switch_change", "switch_stay_steam",
             "switch_stay_motor")
 
@@ -45,13 +62,21 @@ def _row(opt, con) -> int | None:  # noqa: ANN001
     return opt._pyomo_con_to_solver_con_map.get(con)
 
 
-def minimum_steam(lm, time_limit: float) -> np.ndarray | None:  # noqa: ANN001
-    """Each hour's lower bound L_t on S_t + K * shortfall_t [t/h], from the decoupled LP."""
+def _slack_cols(lm, t: int, k_power: float, reserve: bool = True) -> list[tuple[int, float]]:  # noqa: ANN001
+    """(column, weight) of hour t's steam and power shortfalls in L_t, and with ``reserve``
+    the reserve shortfall (weight 1, the rows' own slack)."""
+    m = lm.sm.model
+    cols = [(lm.col(m.power_short[t]), k_power)] + ([(lm.col(m.reserve_short[t]), 1.0)] if reserve else [])
+    cols += [(lm.col(m.steam_short[hh.id, t]), K_SHORT) for hh in lm.sm.ctx.cfg.headers]
+    return [(c, a) for c, a in cols if c is not None]
+
+
+def _decoupled_lp(lm, cost: dict[int, float], time_limit: float) -> np.ndarray | None:  # noqa: ANN001
+    """Column values minimising sum(cost[c] * x[c]) over the LP relaxation without the rows
+    that link hours, so that each hour's part of the optimum is that hour's own minimum;
+    None when the LP does not solve. The loaded model is restored afterwards."""
     m = lm.sm.model
     h: highspy.Highs = lm.h
-    hours = list(m.T)
-    steam_cols = [[lm.col(b.steam[t]) for b in lm.sm.ctx.boilers] for t in hours]
-    short_cols = [[lm.col(m.steam_short[hh, t]) for hh in [x.id for x in lm.sm.ctx.cfg.headers]] for t in hours]
     rows = []
     for blk in m.component_data_objects(pyo.Block, descend_into=False):
         for name in _LINKING:
@@ -62,19 +87,14 @@ def minimum_steam(lm, time_limit: float) -> np.ndarray | None:  # noqa: ANN001
     cost0 = np.array(lp.col_cost_, dtype=float)
     rlo = np.array(lp.row_lower_, dtype=float)
     rup = np.array(lp.row_upper_, dtype=float)
-    cost = np.zeros_like(cost0)
-    for t in range(len(hours)):
-        for c in steam_cols[t]:
-            if c is not None:
-                cost[c] = 1.0
-        for c in short_cols[t]:
-            if c is not None:
-                cost[c] = K_SHORT
-    all_cols = np.arange(len(cost), dtype=np.int32)
+    c_new = np.zeros_like(cost0)
+    for c, a in cost.items():
+        c_new[c] = a
+    all_cols = np.arange(len(c_new), dtype=np.int32)
     idx = np.array(rows, dtype=np.int32)
     inf = highspy.kHighsInf
     try:
-        h.changeColsCost(len(all_cols), all_cols, cost)
+        h.changeColsCost(len(all_cols), all_cols, c_new)
         if len(idx):
             h.changeRowsBounds(len(idx), idx, np.full(len(idx), -inf), np.full(len(idx), inf))
         lm._set_integrality(False)
@@ -86,37 +106,70 @@ def minimum_steam(lm, time_limit: float) -> np.ndarray | None:  # noqa: ANN001
         h.changeColsCost(len(all_cols), all_cols, cost0)
         if len(idx):
             h.changeRowsBounds(len(idx), idx, rlo[idx], rup[idx])
-    if not ok:
+    return x if ok else None
+
+
+def minimum_steam(lm, time_limit: float, k_power: float = K_POWER[-1]) -> np.ndarray | None:  # noqa: ANN001
+    """Each hour's lower bound L_t on S_t + K_s * steam shortfall_t + K_p * power shortfall_t
+    [t/h], from the decoupled LP (module docstring, item 1); ``k_power`` is K_p [t/h per MW]."""
+    m = lm.sm.model
+    hours = list(m.T)
+    steam_cols = [[c for c in (lm.col(b.steam[t]) for b in lm.sm.ctx.boilers) if c is not None] for t in hours]
+    slack_cols = [_slack_cols(lm, t, k_power, reserve=False) for t in hours]
+    cost = {c: 1.0 for cols in steam_cols for c in cols}
+    cost.update({c: a for cols in slack_cols for c, a in cols})
+    x = _decoupled_lp(lm, cost, time_limit)
+    if x is None:
         return None
-    return np.array([sum(x[c] for c in steam_cols[t] if c is not None)
-                     + K_SHORT * sum(x[c] for c in short_cols[t] if c is not None) for t in range(len(hours))])
+    return np.array([sum(x[c] for c in steam_cols[t]) + sum(a * x[c] for c, a in slack_cols[t])
+                     for t in range(len(hours))])
 
 
-def add_reserve_covers(lm, time_limit: float = 30.0) -> int:  # noqa: ANN001
-    """Add the cover inequalities of the module docstring to the loaded HiGHS model.
+def _floor(L: float) -> float:
+    # a hair below the LP value, so that round-off never cuts off a schedule
+    return L * (1 - 1e-7) - 1e-6
 
-    Returns the number of rows added (0 when the reserve is off or nothing is implied).
+
+def add_set_rows(lm, L: np.ndarray, k_power: float, skip: np.ndarray | None = None) -> int:  # noqa: ANN001
+    """Add the running-set rows (module docstring, item 2) for the bounds ``L`` [t/h]
+    found with power weight ``k_power``; hours where ``skip`` is true get none.
+    Returns the number of rows added."""
+    m = lm.sm.model
+    sets = lm.sm.ctx.boiler_sets
+    n_rows = 0
+    for t in m.T:
+        if skip is not None and skip[t]:
+            continue
+        Lt = _floor(L[t])
+        terms = [(lm.col(m.boiler_set[k, t]), Lt - cap) for k, (_, cap) in enumerate(sets) if cap < Lt]
+        terms = [(c, a) for c, a in terms if c is not None and lm.col_upper[c] > 0]
+        if not terms:
+            continue
+        terms += [(c, -a) for c, a in _slack_cols(lm, t, k_power)]
+        idx = np.array([c for c, _ in terms], dtype=np.int32)
+        lm.h.addRow(-highspy.kHighsInf, 0.0, len(idx), idx, np.array([a for _, a in terms]))
+        n_rows += 1
+    return n_rows
+
+
+def add_reserve_covers(lm, L: np.ndarray, k_power: float) -> int:  # noqa: ANN001
+    """Add the cover rows (module docstring, item 3) for the bounds ``L`` [t/h].
+
+    Returns the number of rows added.
     """
     m = lm.sm.model
-    if m.component("reserve") is None:
-        return 0
     boilers = lm.sm.ctx.boilers
     cover = lm.sm.ctx.cfg.reserve.cover
-    L = minimum_steam(lm, time_limit)
-    if L is None:
-        return 0
-    headers = [x.id for x in lm.sm.ctx.cfg.headers]
     rate = [b.unit.max_steam for b in boilers]
     n_rows = 0
     for t in m.T:
         on_cols = [lm.col(b.on[t]) for b in boilers]
         fixed_on = [held_value(b.on[t]) for b in boilers]
-        slack = [(lm.col(m.reserve_short[t]), 1.0)] + [(lm.col(m.steam_short[hh, t]), K_SHORT) for hh in headers]
-        slack = [(c, a) for c, a in slack if c is not None]
+        slack = _slack_cols(lm, t, k_power)
         seen: set[tuple[int, ...]] = set()
         for b in range(len(boilers)):
             others = [j for j in range(len(boilers)) if j != b]
-            R = L[t] * (1 - 1e-7) - 1e-6 - (1.0 - cover) * rate[b]
+            R = _floor(L[t]) - (1.0 - cover) * rate[b]
             A = sum(rate[j] for j in others)
             if R <= 0:
                 continue
@@ -138,4 +191,30 @@ def add_reserve_covers(lm, time_limit: float = 30.0) -> int:  # noqa: ANN001
                     val = np.array([1.0] * len(cols) + [a / g for _, a in slack])
                     lm.h.addRow(1.0, highspy.kHighsInf, len(idx), idx, val)
                     n_rows += 1
+    return n_rows
+
+
+def add_reserve_rows(lm, time_limit: float = 30.0) -> int:  # noqa: ANN001
+    """Add the rows of the module docstring to the loaded HiGHS model, for each power
+    weight in :data:`K_POWER`: running-set rows where the model has set weights, covers
+    otherwise. An hour whose bound does not drop with the small weight keeps only the
+    small weight's row (it is the stronger one).
+
+    Returns the number of rows added (0 when the reserve is off or nothing is implied).
+    """
+    m = lm.sm.model
+    if m.component("reserve") is None:
+        return 0
+    n_rows = 0
+    first: np.ndarray | None = None
+    for k_power in K_POWER:
+        L = minimum_steam(lm, time_limit, k_power)
+        if L is None:
+            continue
+        skip = None if first is None else L <= first + 1e-6
+        if m.component("boiler_set") is not None:
+            n_rows += add_set_rows(lm, L, k_power, skip)
+        else:
+            n_rows += add_reserve_covers(lm, np.where(skip, 0.0, L) if skip is not None else L, k_power)
+        first = L if first is None else np.maximum(first, L)
     return n_rows

@@ -46,15 +46,16 @@ from .errors import InputError, InputErrors, SolveError
 from .plant.load import validation_problems
 from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
-from .results import cost_frame, diagnose, schedule_frame
+from .results import TOL, cost_frame, diagnose, schedule_frame
 from .site import BuildOptions, build_site_model
 from .reuse import WindowModels
 from .solve import LoadedModel, SolveOptions, SolveReport
 
 WEEK = 168
 # [s] least time for a window with no earlier schedule to start from: it starts from the LP
-# relaxation, which alone takes about 4 s for 192 h of the demo site (measured, 2 cores)
-COLD_MIN = 15.0
+# relaxation, which with the reserve rows takes about 10 s for 192 h of the demo site
+# (measured, 2 cores; the LP may run past this limit), and the rounded start needs more
+COLD_MIN = 20.0
 # [s] least time for a window that has a schedule to start from but a newly built model,
 # whose LPs have no basis to start from yet
 NEW_MODEL_MIN = 6.0
@@ -316,10 +317,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
             on_window(w + 1, len(starts))
     schedule = pd.concat(scheds)
     hourly = pd.concat(costs).fillna(0.0)
-    bal_short = 0
-    # hours with any shortfall: from the penalty column (only slacks are priced there)
-    if "penalty" in hourly:
-        bal_short = int((hourly["penalty"] > 1e-6).sum())
+    bal_short = int(short_hours(cfg, hourly).sum())
     return ScenarioResult(ps.name, schedule, hourly, bal_short, reports, diagnosis)
 
 
@@ -347,6 +345,17 @@ def _second_opinion(lm: LoadedModel, rep: SolveReport, options: SolveOptions) ->
 
 # ------------------------------------------------------------------ summaries
 
+def short_hours(cfg: SiteConfig, hourly: pd.DataFrame) -> pd.Series:
+    """Hours with any slack in use, from the penalty column of an hourly cost frame (only
+    slacks are priced there): more than the results' zero tolerance at the cheapest slack
+    price, so that round-off in a solution never counts as a shortfall."""
+    if "penalty" not in hourly:
+        return pd.Series(False, index=hourly.index)
+    p = cfg.penalties
+    cheapest = min(p.steam_shortfall, p.steam_surplus, p.power_shortfall, p.power_surplus)
+    return hourly["penalty"] > TOL * cheapest
+
+
 def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.DataFrame:
     """Totals per scenario (and month): cost by category, fuel, import/export, CO2, starts,
     running hours per unit, hours on steam per machine, hours with a shortfall."""
@@ -368,7 +377,7 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
         frame[f"hours_on_{u.id}"] = s[f"{u.id}.on"]
     for d in cfg.drives:
         frame[f"machine_hours_on_steam_{d.id}"] = s[f"{d.id}.on_steam"]
-    frame["shortfall_hours"] = (c["penalty"] > 1e-6).astype(int) if "penalty" in c else 0
+    frame["shortfall_hours"] = short_hours(cfg, c).astype(int)
     idx = pd.DatetimeIndex(s.index)
     if by_month:
         out = frame.groupby(idx.to_period("M").astype(str)).sum()
@@ -394,8 +403,10 @@ def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: Solve
               progress: Callable[[str, int, int], None] | None = None) -> list[ScenarioResult]:
     """Run every scenario; in a local process pool by default, or on the Dask scheduler at
     ``cluster``. Results come back in the scenarios' order."""
+    # one thread per window (windows run side by side); a window's accuracy rests on its
+    # start, so no time is held back from improving it for a bound
     opts = SolveOptions(gap=options.gap, time_limit=options.time_limit, threads=1,
-                        warm_start=options.warm_start, strengthen=options.strengthen)
+                        warm_start=options.warm_start, strengthen=options.strengthen, search_share=0.0)
     if cluster is not None:
         from distributed import Client
 

@@ -83,6 +83,9 @@ class ModelContext:
     cost_terms: dict[str, list[Expr]] = field(default_factory=lambda: defaultdict(list))
     fuel_use: dict[str, list[Expr]] = field(default_factory=lambda: defaultdict(list))  # [GJ/h]
     boilers: list[pyo.Block] = field(default_factory=list)
+    # running boiler sets (indices into ``boilers``) and the steam each carries with its
+    # reserve [t/h]; filled by :func:`cogendispatch.reserve.add_reserve`
+    boiler_sets: list[tuple[tuple[int, ...], float]] = field(default_factory=list)
     condenser_users: dict[str, list[pyo.Block]] = field(default_factory=lambda: defaultdict(list))
     condensate_enthalpy: dict[str, float] = field(default_factory=dict)
 

@@ -214,10 +214,14 @@ class Reserve(_Table):
 
 
 class Penalties(_Table):
-    steam_shortfall: MassPrice = 10000.0  # [currency/t]
-    steam_surplus: MassPrice = 10000.0
-    power_shortfall: PowerPrice = 10000.0  # [currency/MWh]
-    power_surplus: PowerPrice = 10000.0
+    """Prices of the balance slacks. They must exceed what any real decision could save:
+    a shortfall of a few hundredths of a MW for one hour must still cost more than a boiler
+    start and its minimum up time, or the optimiser reports a feasible week as short."""
+
+    steam_shortfall: MassPrice = 1.0e6  # [currency/t]
+    steam_surplus: MassPrice = 1.0e6
+    power_shortfall: PowerPrice = 1.0e6  # [currency/MWh]
+    power_surplus: PowerPrice = 1.0e6
 
 
 class SiteConfig(_Table):
