@@ -26,6 +26,7 @@ from .strengthen import add_reserve_rows
 
 Progress = Callable[[str], None]
 SEARCH_SHARE_MAX = 30.0  # [s] most of a plan's time limit held back for HiGHS's own search
+SEARCH_LP_TIMES = 2.5  # held back at least this many times the LP relaxation's time [-]
 QUICK_LIMIT = 10.0  # [s] below this, a solve from a guessed start adds no reserve rows
 HINT_FREE_HOURS = 6  # [h] first hours a guessed start leaves free to join the initial state (ramps)
 
@@ -34,17 +35,18 @@ HINT_FREE_HOURS = 6  # [h] first hours a guessed start leaves free to join the i
 class SolveOptions:
     """gap : relative MIP gap [-]; time_limit : [s]; threads : HiGHS threads;
     warm_start : build the rounding start first; strengthen : add the reserve rows
-    of :mod:`cogendispatch.strengthen`; search_share : share of the time limit (at most
-    SEARCH_SHARE_MAX) a solve without a guessed start keeps for HiGHS's own search rather
-    than for improving the start [-]: a plan wants the proven bound that search gives, a
-    study window's schedule matters more than its bound."""
+    of :mod:`cogendispatch.strengthen`; search_share : share of the time limit a solve
+    without a guessed start keeps for HiGHS's own search rather than for improving the
+    start (at least SEARCH_LP_TIMES times the LP relaxation's time, at most
+    SEARCH_SHARE_MAX; 0 keeps nothing) [-]: a plan wants the proven bound that search
+    gives, a study window's schedule matters more than its bound."""
 
     gap: float = 1e-3
     time_limit: float = 120.0
     threads: int = 1
     warm_start: bool = True
     strengthen: bool = True
-    search_share: float = 0.5
+    search_share: float = 0.25
 
 
 @dataclass
@@ -107,6 +109,7 @@ class LoadedModel:
         self._int_names: dict[str, int] | None = None
         self.schedule: np.ndarray | None = None  # column values of the last solve_mip's schedule
         self.start_objective: float | None = None
+        self.lp_seconds: float | None = None  # [s] of the last rounding start's LP relaxation
         self.load_seconds = time.perf_counter() - t0
 
     def refresh(self) -> None:
@@ -155,7 +158,9 @@ class LoadedModel:
         """
         t_end = time.perf_counter() + time_limit
         self._set_integrality(False)
+        t_lp = time.perf_counter()
         self._run(max(time_limit, lp_time_limit or 0.0))
+        self.lp_seconds = time.perf_counter() - t_lp
         lp_ok = self.h.getModelStatus() == highspy.HighsModelStatus.kOptimal
         x = self.solution()
         self._set_integrality(True)
@@ -367,10 +372,11 @@ class LoadedModel:
                 start_obj = self.start_objective
                 budget = min(options.time_limit / 3, 30.0)
                 if hint is None and options.search_share > 0:
-                    # keep a share of the limit for HiGHS: its root LP and first cut rounds
-                    # are what prove a bound
+                    # keep time for HiGHS: its root LP and first cut rounds are what prove a
+                    # bound, and they take a few times the LP relaxation's time
                     left = options.time_limit - (time.perf_counter() - t0)
-                    budget = min(budget, left - min(options.search_share * options.time_limit, SEARCH_SHARE_MAX))
+                    keep = max(options.search_share * options.time_limit, SEARCH_LP_TIMES * (self.lp_seconds or 0.0))
+                    budget = min(budget, left - min(keep, SEARCH_SHARE_MAX))
                 if budget >= 1.0:
                     if progress:
                         progress(f"improving the start ({start_obj:,.0f}) unit by unit")
