@@ -405,6 +405,10 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
     if run.results.diagnosis:
         for line in run.results.diagnosis:
             err.print(f"[bold red]not met:[/bold red] {escape(line)}", highlight=False)
+        if run.report.status != "optimal":
+            # the search may have stopped before it found a schedule without shortfall
+            err.print(Text(f"the search stopped ({run.report.status}) before proving this schedule; the shortfall "
+                           "may be the search's rather than the site's: try a longer --time-limit"))
         return EXIT_SHORT
     return EXIT_OK
 

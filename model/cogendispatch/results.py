@@ -120,7 +120,9 @@ def cost_frame(sm: SiteModel) -> pd.DataFrame:
     ctx = sm.ctx
     data = {cat: sum((_series(term, ctx.hours) for term in terms), np.zeros(len(ctx.hours)))
             for cat, terms in ctx.cost_terms.items()}
-    return pd.DataFrame(data, index=pd.Index(ctx.series.time, name="time"))
+    df = pd.DataFrame(data, index=pd.Index(ctx.series.time, name="time"))
+    # a slack of solver round-off times a large penalty is not a cost worth printing
+    return df.where(df.abs() > 1e-6, 0.0)
 
 
 def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
