@@ -75,12 +75,10 @@ _STATUS = {
 }
 
 
-def _ordered(vals: list[float], count: int) -> bool:
-    """Whether ``count`` equal-length driver sequences, concatenated, keep machine k on steam
-    only where machine k-1 is (the symmetry order of identical machines)."""
-    n = len(vals) // count
-    seq = [vals[k * n:(k + 1) * n] for k in range(count)]
-    return all(seq[k][t] <= seq[k - 1][t] for k in range(1, count) for t in range(n))
+def _ordered(seqs: list[list[float]]) -> bool:
+    """Whether the driver sequences of identical machines keep machine k on steam only
+    where machine k-1 is (their symmetry order); sequences of unequal length never do."""
+    return all(len(b) == len(a) and all(y <= x for x, y in zip(a, b)) for a, b in zip(seqs, seqs[1:]))
 
 
 class LoadedModel:
@@ -198,22 +196,20 @@ class LoadedModel:
             elif drivers and blk.component("on_steam") is not None:
                 d = blk.unit
                 L = max(1, int(round(d.min_hours_between_switches)))
-                cols: list[int] = []
-                vals: list[float] = []
+                positions: list[tuple[list[int], list[float]]] = []
                 for k in range(d.count):
                     if d.initial_on_steam is None:  # no history: take the guess's first hour as it
                         was = CommitInfo(L, L, bool(guess(self.col(blk.on_steam[k, 0]))), float(L))
                     else:
                         was = CommitInfo(L, L, k < d.initial_on_steam, float(d.initial_hours_since_switch))
-                    self._repaired([blk.on_steam[k, t] for t in m.T], was, guess, free_until, cols, vals)
-                if d.count > 1 and len(vals) == d.count * (len(m.T) - free_until) and _ordered(vals, d.count):
-                    drv_cols += cols
-                    drv_vals += vals
-                elif d.count == 1:
-                    drv_cols += cols
-                    drv_vals += vals
-                # else: positions repaired one by one broke the order of identical machines
-                # (machine k on steam only if machine k-1 is); leave this drive to the search
+                    positions.append(([], []))
+                    self._repaired([blk.on_steam[k, t] for t in m.T], was, guess, free_until, *positions[-1])
+                # positions repaired one by one may break the order of identical machines
+                # (machine k on steam only if machine k-1 is): then the search decides them
+                if _ordered([vals for _, vals in positions]):
+                    for cols, vals in positions:
+                        drv_cols += cols
+                        drv_vals += vals
         seed = None
         if drv_cols:
             # drivers as guessed: an LP; its schedule seeds the MILP over the drivers below

@@ -152,8 +152,9 @@ def add_set_rows(lm, L: np.ndarray, k_power: float, skip: np.ndarray | None = No
     return n_rows
 
 
-def add_reserve_covers(lm, L: np.ndarray, k_power: float) -> int:  # noqa: ANN001
-    """Add the cover rows (module docstring, item 3) for the bounds ``L`` [t/h].
+def add_reserve_covers(lm, L: np.ndarray, k_power: float, skip: np.ndarray | None = None) -> int:  # noqa: ANN001
+    """Add the cover rows (module docstring, item 3) for the bounds ``L`` [t/h] found with
+    power weight ``k_power``; hours where ``skip`` is true get none.
 
     Returns the number of rows added.
     """
@@ -163,6 +164,8 @@ def add_reserve_covers(lm, L: np.ndarray, k_power: float) -> int:  # noqa: ANN00
     rate = [b.unit.max_steam for b in boilers]
     n_rows = 0
     for t in m.T:
+        if skip is not None and skip[t]:
+            continue
         on_cols = [lm.col(b.on[t]) for b in boilers]
         fixed_on = [held_value(b.on[t]) for b in boilers]
         slack = _slack_cols(lm, t, k_power)
@@ -212,9 +215,7 @@ def add_reserve_rows(lm, time_limit: float = 30.0) -> int:  # noqa: ANN001
         if L is None:
             continue
         skip = None if first is None else L <= first + 1e-6
-        if m.component("boiler_set") is not None:
-            n_rows += add_set_rows(lm, L, k_power, skip)
-        else:
-            n_rows += add_reserve_covers(lm, np.where(skip, 0.0, L) if skip is not None else L, k_power)
+        add = add_set_rows if m.component("boiler_set") is not None else add_reserve_covers
+        n_rows += add(lm, L, k_power, skip)
         first = L if first is None else np.maximum(first, L)
     return n_rows
