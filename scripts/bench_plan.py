@@ -18,16 +18,19 @@ def main() -> None:
     ap.add_argument("--series", default="plant_configs/saltmarsh_week.csv")
     ap.add_argument("--time-limit", type=float, default=60.0)
     ap.add_argument("--gap", type=float, default=1e-3)
+    ap.add_argument("--threads", type=int, default=2,
+                    help="threads of the solve (default 2: HiGHS on one, the helper search beside it; 1: one thread)")
     a = ap.parse_args()
     cfg = load_site(a.site)
     series = load_series(a.series, cfg)
     sm = build_site_model(cfg, series)
-    rep = solve(sm, SolveOptions(gap=a.gap, time_limit=a.time_limit))
+    rep = solve(sm, SolveOptions(gap=a.gap, time_limit=a.time_limit, threads=a.threads))
     t0 = time.perf_counter()
     plan_results(sm)
     extract = time.perf_counter() - t0
     s = rep.seconds
     outside = s["build"] + s["load"] + extract
+    print(f"threads {a.threads}, schedule found by: {rep.found_by}")
     print(f"hours {series.hours}, status {rep.status}, objective {rep.objective:,.0f}, bound {rep.bound:,.0f}, gap {100 * rep.gap:.3f} %")
     print(f"build {s['build']:.2f} s | load {s['load']:.2f} s | reserve rows {s.get('strengthen', 0):.2f} s | "
           f"start heuristic {s['start']:.2f} s | "

@@ -45,6 +45,7 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
         "bound": run_report.bound,
         "gap": run_report.gap,
         "start_objective": run_report.start_objective,
+        "found_by": run_report.found_by,
         "currency": cfg.site.currency,
         "cost": t["cost"],
         "cost_total": float(sum(t["cost"].values())),

@@ -9,7 +9,9 @@ The MILP then starts from that schedule and closes the gap.
 
 from __future__ import annotations
 
+import copy
 import math
+import threading
 import time
 from dataclasses import dataclass, field
 from typing import Callable
@@ -19,6 +21,7 @@ import numpy as np
 import pyomo.environ as pyo
 from pyomo.contrib.solver.solvers.highs import Highs
 
+from .beside import Incumbent, helper_search, interruptible
 from .equipment.common import CommitInfo, held_value, repair_commitment
 from .errors import SolveError
 from .site import SiteModel
@@ -48,6 +51,17 @@ class SolveOptions:
     strengthen: bool = True
     search_share: float = 0.25
 
+    @property
+    def beside(self) -> bool:
+        """Whether a helper thread builds and improves the start beside HiGHS (two or
+        more threads and a start wanted; :mod:`cogendispatch.beside`)."""
+        return self.threads >= 2 and self.warm_start
+
+    @property
+    def highs_threads(self) -> int:
+        """HiGHS's own threads: one goes to the helper when there is one."""
+        return self.threads - 1 if self.beside else self.threads
+
 
 @dataclass
 class SolveReport:
@@ -57,6 +71,7 @@ class SolveReport:
     gap: float
     seconds: dict[str, float] = field(default_factory=dict)
     start_objective: float | None = None
+    found_by: str = ""  # what found the schedule: "HiGHS", "start", "window by window", "unit by unit"
 
     @property
     def has_solution(self) -> bool:
@@ -105,10 +120,22 @@ class LoadedModel:
         self.base_rows = lp.num_row_  # rows of the Pyomo model; reserve rows come after
         self._relaxed = False
         self._int_names: dict[str, int] | None = None
+        self._col_hours: np.ndarray | None = None
         self.schedule: np.ndarray | None = None  # column values of the last solve_mip's schedule
         self.start_objective: float | None = None
         self.lp_seconds: float | None = None  # [s] of the last rounding start's LP relaxation
         self.load_seconds = time.perf_counter() - t0
+
+    def spare(self) -> "LoadedModel":
+        """A copy of this loaded model (rows added so far included) in a HiGHS instance of
+        its own with one thread, for a search in another thread; same column numbers."""
+        other = copy.copy(self)
+        other.h = highspy.Highs()
+        other.h.setOptionValue("output_flag", False)
+        other.h.setOptionValue("threads", 1)
+        other.h.passModel(self.h.getLp())
+        other._relaxed = False
+        return other
 
     def refresh(self) -> None:
         """After the Pyomo model's data changed in place (:mod:`cogendispatch.reuse`): drop
@@ -305,9 +332,76 @@ class LoadedModel:
                 out.append((blk.unit.id, np.array(sorted(cols), dtype=np.int32)))
         return out
 
-    def improve(self, x: np.ndarray, obj: float, time_limit: float) -> tuple[np.ndarray, float]:
+    def col_hours(self) -> np.ndarray:
+        """Hour of each column (the last index of its variable), -1 for none."""
+        if self._col_hours is None:
+            hours = np.full(self.h.getNumCol(), -1, dtype=np.int64)
+            for v, c in zip(self.vars, self.cols):
+                i = v.index()
+                t = i[-1] if isinstance(i, tuple) else i
+                if isinstance(t, int):
+                    hours[c] = t
+            self._col_hours = hours
+        return self._col_hours
+
+    def improve_windows(self, x: np.ndarray, obj: float, time_limit: float, width: int = 24, step: int = 12,
+                        first: int = 0, best: Incumbent | None = None, gap: float = 1e-5) -> tuple[np.ndarray, float]:
+        """Fix-and-optimise over time: free every column of ``width`` hours, hold every
+        other column (continuous ones too) at the incumbent, re-solve; keep improvements;
+        windows advance by ``step`` hours from hour ``first`` (with one window before it
+        when ``first`` > 0) to the end. Holding the rest whole leaves HiGHS's presolve a
+        MILP of the window alone, so each step is quick, and it moves boilers,
+        turbo-generators and drivers together, which the unit-by-unit search cannot.
+        ``gap`` is each window's relative gap on the whole objective [-]; ``best`` as in
+        :meth:`improve`.
+
+        References
+        ----------
+        Helber, S. & Sahling, F., A fix-and-optimize approach for the multi-level capacitated
+        lot sizing problem, Int. J. Production Economics 123 (2010) 247-256 (fix-and-optimize
+        over time windows).
+        """
+        t_end = time.perf_counter() + time_limit
+        hours = self.col_hours()
+        n = int(hours.max()) + 1
+        starts, a = [], (first - step if first > 0 else 0)
+        while True:
+            starts.append(max(0, a))
+            if a + width >= n:
+                break
+            a += step
+        for a in starts:
+            left = t_end - time.perf_counter()
+            if left < 0.3 or (best is not None and best.stop.is_set()):
+                break
+            if best is not None:
+                bx, bobj, _ = best.get()
+                if bx is not None and bobj < obj:
+                    x, obj = bx, bobj
+            hold = np.flatnonzero((hours >= 0) & ((hours < a) | (hours >= a + width))).astype(np.int32)
+            vals = x[hold].copy()
+            ints = np.isin(hold, self.int_cols)
+            vals[ints] = np.round(vals[ints])
+            vals = np.clip(vals, self.col_lower[hold], self.col_upper[hold])
+            self.h.changeColsBounds(len(hold), hold, vals, vals)
+            try:
+                self._set_start(x)
+                self._run(min(left, 5.0), gap=gap)
+                info = self.h.getInfo()
+                if info.primal_solution_status == 2 and info.objective_function_value < obj - 1e-6 * abs(obj):
+                    x, obj = self.solution(), float(info.objective_function_value)
+                    if best is not None:
+                        best.offer(x, obj, "window by window")
+            finally:
+                self.h.changeColsBounds(len(hold), hold, self.col_lower[hold], self.col_upper[hold])
+        return x, obj
+
+    def improve(self, x: np.ndarray, obj: float, time_limit: float,
+                best: Incumbent | None = None) -> tuple[np.ndarray, float]:
         """Fix-and-optimise: free one committed unit's (then each pair's) on/off decisions,
         hold every other integer decision at the incumbent, re-solve; keep improvements.
+        With ``best`` (shared with a search beside it) each step starts from the newest
+        incumbent, improvements are offered to it, and its stop event ends the search.
 
         A local search around the incumbent that the MILP's own heuristics do not reach
         quickly on reserve-constrained sites.
@@ -318,8 +412,12 @@ class LoadedModel:
         groups += [[a, b] for a in range(len(units)) for b in range(a + 1, len(units))]
         for g in groups:
             left = t_end - time.perf_counter()
-            if left < 0.5:
+            if left < 0.5 or (best is not None and best.stop.is_set()):
                 break
+            if best is not None:
+                bx, bobj, _ = best.get()
+                if bx is not None and bobj < obj:
+                    x, obj = bx, bobj
             free = np.concatenate([units[i][1] for i in g])
             hold = np.setdiff1d(self.int_cols, free).astype(np.int32)
             vals = np.round(x[hold])
@@ -330,6 +428,8 @@ class LoadedModel:
                 info = self.h.getInfo()
                 if info.primal_solution_status == 2 and info.objective_function_value < obj - 1e-6 * abs(obj):
                     x, obj = self.solution(), float(info.objective_function_value)
+                    if best is not None:
+                        best.offer(x, obj, "unit by unit")
             finally:
                 self.h.changeColsBounds(len(hold), hold, self.col_lower[hold], self.col_upper[hold])
         return x, obj
@@ -340,6 +440,8 @@ class LoadedModel:
 
         The start comes from ``hint`` (a commitment guess, e.g. :meth:`guess_from` the
         previous window of a study) when given and feasible, else from the rounding start.
+        With two threads or more and no hint, the rounding start and its improvement run
+        in a thread beside HiGHS instead of before it (:mod:`cogendispatch.beside`).
         """
         secs: dict[str, float] = {"build": self.sm.build_seconds, "load": self.load_seconds}
         t0 = time.perf_counter()
@@ -353,52 +455,33 @@ class LoadedModel:
                 progress("bounding each hour's boiler steam; adding reserve rows")
             add_reserve_rows(self, min(options.time_limit / 4, 30.0))
         secs["strengthen"] = time.perf_counter() - t0
-        if options.warm_start and len(self.int_cols) > 0:
+        best = Incumbent()
+        helper: threading.Thread | None = None
+        if options.beside and hint is None and len(self.int_cols) > 0:
+            spare = self.spare()
+            interruptible(spare.h, best.stop)
+            helper = threading.Thread(target=helper_search, name="cogen-helper", daemon=True,
+                                      args=(spare, best, t0 + options.time_limit))
             if progress:
-                progress("finding a starting schedule (LP relaxation, rounded)")
-            gap = max(options.gap, 1e-4)
-            if hint is not None:
-                start = self.commitment_start(hint, min(options.time_limit / 2, 30.0), gap, drivers=True,
-                                              free_until=HINT_FREE_HOURS)
-            if start is None:
-                # the LP may use the whole limit: a search without a start is far worse
-                start = self.rounding_start(min(options.time_limit / 2, 60.0), gap=gap,
-                                            lp_time_limit=options.time_limit)
-            if start is not None:
-                start_obj = self.start_objective
-                budget = min(options.time_limit / 3, 30.0)
-                if hint is None and options.search_share > 0:
-                    # keep time for HiGHS: its root LP and first cut rounds are what prove a
-                    # bound, and they take a few times the LP relaxation's time
-                    left = options.time_limit - (time.perf_counter() - t0)
-                    keep = max(options.search_share * options.time_limit, SEARCH_LP_TIMES * (self.lp_seconds or 0.0))
-                    budget = min(budget, left - min(keep, SEARCH_SHARE_MAX))
-                if budget >= 1.0:
-                    if progress:
-                        progress(f"improving the start ({start_obj:,.0f}) unit by unit")
-                    start, start_obj = self.improve(start, start_obj, budget)
+                progress("HiGHS searching; beside it, a starting schedule and its improvement unit by unit")
+            helper.start()
+        elif options.warm_start and len(self.int_cols) > 0:
+            start, start_obj = self._start_before(options, t0, hint, progress)
         secs["start"] = time.perf_counter() - t0 - secs["strengthen"]
         t1 = time.perf_counter()
         if start is not None:
             self._set_start(start)
-        if progress:
-            last = [0.0]
-
-            def _cb(callback_type, message, data_out, data_in, user_data):  # noqa: ANN001
-                now = time.perf_counter()
-                if now - last[0] >= 2.0:
-                    last[0] = now
-                    p, d = data_out.objective_function_value, data_out.mip_dual_bound
-                    g = data_out.mip_gap
-                    progress(f"solving: best {p:,.0f}, bound {d:,.0f}, gap {100 * g:.2f} %")
-
-            self.h.setCallback(_cb, None)
-            self.h.startCallback(highspy.cb.HighsCallbackType.kCallbackMipInterrupt)
+            best.offer(start, start_obj, "start")
+        self._callbacks(best, progress)
         # with a start in hand the search may get as little as is left; without one, 1 s
         remaining = max(0.1 if start is not None else 1.0, options.time_limit - (time.perf_counter() - t0))
-        self._run(remaining, gap=options.gap)
-        if progress:
-            self.h.stopCallback(highspy.cb.HighsCallbackType.kCallbackMipInterrupt)
+        try:
+            self._run(remaining, gap=options.gap)
+        finally:
+            best.stop.set()
+            if helper is not None:
+                helper.join()
+            self._callbacks(None, None)
         secs["solve"] = time.perf_counter() - t1
         status = _STATUS.get(self.h.getModelStatus(), str(self.h.getModelStatus()).split(".")[-1])
         info = self.h.getInfo()
@@ -410,17 +493,89 @@ class LoadedModel:
             gap = float(info.mip_gap) if has else float("inf")
         else:
             bound, gap = obj, 0.0
-        if start is not None and start_obj is not None and (not has or start_obj < obj - 1e-9 * abs(obj)):
-            # stopped before it took up the start (a short time limit): keep the start
-            has, obj, x = True, start_obj, start
+        bx, bobj, _ = best.get()
+        if bx is not None and (not has or bobj < obj - 1e-9 * abs(obj)):
+            # a schedule HiGHS did not take up: a short time limit stopped it before the
+            # start, or the helper found it after HiGHS's last look
+            has, obj, x = True, bobj, bx
             gap = (obj - bound) / abs(obj) if math.isfinite(bound) and obj != 0 else float("inf")
+        found_by = best.source if has and bx is not None and bobj <= obj + 1e-9 * abs(obj) else "HiGHS"
+        if helper is not None:
+            start_obj = best.first_start
         self.schedule = x
         if has:
             for v, c in zip(self.vars, self.cols):
                 v.set_value(x[c], skip_validation=True)
         secs["total"] = sum(secs[k] for k in ("build", "load", "strengthen", "start", "solve"))
         return SolveReport(status=status, objective=obj, bound=bound, gap=gap, seconds=secs,
-                           start_objective=start_obj)
+                           start_objective=start_obj, found_by=found_by if has else "")
+
+    def _start_before(self, options: SolveOptions, t0: float, hint: Callable[[int], int] | None,
+                      progress: Progress | None) -> tuple[np.ndarray | None, float | None]:
+        """The start built before HiGHS runs (one thread): from ``hint`` or the rounding
+        start, improved unit by unit with what the time split leaves (module docstring)."""
+        if progress:
+            progress("finding a starting schedule (LP relaxation, rounded)")
+        gap = max(options.gap, 1e-4)
+        start = None
+        if hint is not None:
+            start = self.commitment_start(hint, min(options.time_limit / 2, 30.0), gap, drivers=True,
+                                          free_until=HINT_FREE_HOURS)
+        if start is None:
+            # the LP may use the whole limit: a search without a start is far worse
+            start = self.rounding_start(min(options.time_limit / 2, 60.0), gap=gap,
+                                        lp_time_limit=options.time_limit)
+        if start is None:
+            return None, None
+        start_obj = self.start_objective
+        budget = min(options.time_limit / 3, 30.0)
+        if hint is None and options.search_share > 0:
+            # keep time for HiGHS: its root LP and first cut rounds are what prove a
+            # bound, and they take a few times the LP relaxation's time
+            left = options.time_limit - (time.perf_counter() - t0)
+            keep = max(options.search_share * options.time_limit, SEARCH_LP_TIMES * (self.lp_seconds or 0.0))
+            budget = min(budget, left - min(keep, SEARCH_SHARE_MAX))
+        if budget >= 1.0:
+            if progress:
+                progress(f"improving the start ({start_obj:,.0f}) unit by unit")
+            start, start_obj = self.improve(start, start_obj, budget)
+        return start, start_obj
+
+    def _callbacks(self, best: Incumbent | None, progress: Progress | None) -> None:
+        """HiGHS's MIP callbacks for one run: progress every 2 s; with a helper beside it,
+        its schedules handed in and HiGHS's own handed out. None, None stops them all."""
+        kinds = (highspy.cb.HighsCallbackType.kCallbackMipInterrupt,
+                 highspy.cb.HighsCallbackType.kCallbackMipUserSolution,
+                 highspy.cb.HighsCallbackType.kCallbackMipImprovingSolution)
+        if best is None:
+            for k in kinds:
+                self.h.stopCallback(k)
+            return
+        last = [0.0]
+        sent = [best.get()[2]]  # the start, if any, is already set
+
+        def _cb(callback_type, message, data_out, data_in, user_data):  # noqa: ANN001
+            if callback_type == kinds[1]:
+                x, _, version = best.get()
+                if version > sent[0] and x is not None:
+                    sent[0] = version
+                    data_in.setSolution(x)
+            elif callback_type == kinds[2]:
+                best.offer(np.array(data_out.mip_solution), data_out.objective_function_value, "HiGHS")
+                sent[0] = max(sent[0], best.get()[2])
+            elif progress is not None:
+                now = time.perf_counter()
+                if now - last[0] >= 2.0:
+                    last[0] = now
+                    p, d = min(data_out.objective_function_value, best.get()[1]), data_out.mip_dual_bound
+                    if math.isfinite(p) and p != 0:
+                        progress(f"solving: best {p:,.0f}, bound {d:,.0f}, gap {100 * (p - d) / abs(p):.2f} %")
+                    else:
+                        progress(f"solving: no schedule yet, bound {d:,.0f}")
+
+        self.h.setCallback(_cb, None)
+        for k in kinds:
+            self.h.startCallback(k)
 
 
 def solve(sm: SiteModel, options: SolveOptions = SolveOptions(), progress: Progress | None = None) -> SolveReport:
@@ -430,7 +585,7 @@ def solve(sm: SiteModel, options: SolveOptions = SolveOptions(), progress: Progr
     ------
     SolveError when the solver stops with no schedule at all.
     """
-    lm = LoadedModel(sm, threads=options.threads)
+    lm = LoadedModel(sm, threads=options.highs_threads)
     rep = lm.solve_mip(options, progress)
     if not rep.has_solution:
         raise SolveError(f"HiGHS stopped ({rep.status}) without any schedule; "

@@ -1,0 +1,99 @@
+"""A second core's search beside HiGHS's branch and bound.
+
+HiGHS proves the bound with one thread; the start heuristic of :mod:`cogendispatch.solve`
+(LP relaxation rounded, then improved unit by unit) runs meanwhile on a copy of the loaded
+model in a second thread. Each better schedule either side finds is handed to the other:
+HiGHS takes the helper's through its user-solution callback (pruning with it and searching
+around it), and the helper improves from HiGHS's newest incumbent. HiGHS releases the
+Python lock while it solves, so the two threads run on two cores.
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+import time
+from typing import TYPE_CHECKING
+
+import highspy
+import numpy as np
+
+if TYPE_CHECKING:
+    from .solve import LoadedModel
+
+
+class Incumbent:
+    """The best schedule found so far by either thread (column values and objective)."""
+
+    def __init__(self) -> None:
+        self._lock = threading.Lock()
+        self.x: np.ndarray | None = None
+        self.objective = math.inf
+        self.version = 0  # counts improvements, so a reader knows whether it has the newest
+        self.source = ""
+        self.first_start: float | None = None  # [EUR] the rounding start's objective, for the report
+        self.stop = threading.Event()
+        self.error: str | None = None  # what stopped the helper early, if anything
+
+    def offer(self, x: np.ndarray, objective: float, source: str) -> bool:
+        """Keep ``x`` if it beats the incumbent by more than round-off; True if kept."""
+        with self._lock:
+            if objective < self.objective - 1e-9 * max(1.0, abs(objective)):
+                self.x, self.objective, self.source = np.array(x, dtype=float), float(objective), source
+                self.version += 1
+                return True
+        return False
+
+    def get(self) -> tuple[np.ndarray | None, float, int]:
+        with self._lock:
+            return self.x, self.objective, self.version
+
+
+def interruptible(h: highspy.Highs, stop: threading.Event) -> None:
+    """Make every LP and MIP run of ``h`` stop soon after ``stop`` is set."""
+
+    def _cb(callback_type, message, data_out, data_in, user_data):  # noqa: ANN001
+        if stop.is_set():
+            data_in.user_interrupt = True
+
+    h.setCallback(_cb, None)
+    for kind in (highspy.cb.HighsCallbackType.kCallbackSimplexInterrupt,
+                 highspy.cb.HighsCallbackType.kCallbackMipInterrupt):
+        h.startCallback(kind)
+
+
+# the helper's improvement passes, in turn: (hours per window, hours between windows, first
+# window's hour) for fix-and-optimise over time, or None for unit by unit over the week
+PASSES: tuple[tuple[int, int, int] | None, ...] = ((24, 12, 0), (48, 24, 0), None, (24, 12, 6))
+
+
+START_GAP = 1e-2  # [-] the rounded start's MILP over the drivers: 1.7 s on the demo week (5.6 s at 1e-3)
+
+
+def helper_search(helper: LoadedModel, best: Incumbent, deadline: float) -> None:
+    """The second thread's work until ``deadline`` [perf_counter s] or ``best.stop``: the
+    LP relaxation rounded (drivers too), then improvement passes (:data:`PASSES`) from the
+    newest incumbent; when a whole round of passes finds nothing, it waits for HiGHS's next."""
+    try:
+        left = deadline - time.perf_counter()
+        # a quick start at a loose gap: the passes below improve on it faster than HiGHS closes it
+        x = helper.rounding_start(min(left / 2, 60.0), gap=START_GAP, lp_time_limit=left)
+        if x is not None and helper.start_objective is not None:
+            best.first_start = helper.start_objective
+            best.offer(x, helper.start_objective, "start")
+        stale, seen, turn = 0, -1, 0
+        while not best.stop.is_set() and deadline - time.perf_counter() > 0.5:
+            x, obj, version = best.get()
+            stale = stale + 1 if version == seen else 0
+            if x is None or stale >= len(PASSES):  # nothing new to search around: wait
+                best.stop.wait(0.5)
+                continue
+            seen = version
+            kind = PASSES[turn % len(PASSES)]
+            turn += 1
+            if kind is None:
+                helper.improve(x, obj, deadline - time.perf_counter(), best=best)
+            else:
+                helper.improve_windows(x, obj, deadline - time.perf_counter(), *kind, best=best)
+    except Exception as exc:  # noqa: BLE001  the helper only ever adds schedules; HiGHS goes on alone
+        best.error = f"{type(exc).__name__}: {exc}"
