@@ -125,3 +125,16 @@ def test_two_threads_reach_the_one_thread_optimum_and_stop_with_highs(case, opti
     # HiGHS proves this optimum within a second or two; the helper must stop with it
     # rather than search on to the 60 s limit
     assert elapsed < 20.0
+
+
+def test_a_failing_helper_leaves_highs_to_finish_alone(case, optimum, monkeypatch) -> None:  # noqa: ANN001
+    def broken(self, *args, **kwargs):  # noqa: ANN001, ANN202
+        raise RuntimeError("no start today")
+
+    monkeypatch.setattr(LoadedModel, "rounding_start", broken)
+    said: list[str] = []
+    lm = LoadedModel(build_site_model(*case))
+    rep = lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60, threads=2), progress=said.append)
+    assert rep.status == "optimal" and rep.found_by == "HiGHS"
+    assert rep.objective == pytest.approx(optimum, rel=1e-7)
+    assert any("helper search stopped early (RuntimeError: no start today)" in s for s in said)

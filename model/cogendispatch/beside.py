@@ -1,8 +1,8 @@
 """A second core's search beside HiGHS's branch and bound.
 
 HiGHS proves the bound with one thread; the start heuristic of :mod:`cogendispatch.solve`
-(LP relaxation rounded, then improved unit by unit) runs meanwhile on a copy of the loaded
-model in a second thread. Each better schedule either side finds is handed to the other:
+(LP relaxation rounded, then fix-and-optimise window by window and unit by unit) runs
+meanwhile on a copy of the loaded model in a second thread. Each better schedule either side finds is handed to the other:
 HiGHS takes the helper's through its user-solution callback (pruning with it and searching
 around it), and the helper improves from HiGHS's newest incumbent. HiGHS releases the
 Python lock while it solves, so the two threads run on two cores.
@@ -72,8 +72,10 @@ START_GAP = 1e-2  # [-] the rounded start's MILP over the drivers: 1.7 s on the 
 
 def helper_search(helper: LoadedModel, best: Incumbent, deadline: float) -> None:
     """The second thread's work until ``deadline`` [perf_counter s] or ``best.stop``: the
-    LP relaxation rounded (drivers too), then improvement passes (:data:`PASSES`) from the
-    newest incumbent; when a whole round of passes finds nothing, it waits for HiGHS's next."""
+    LP relaxation's commitment rounded (drivers by a MILP at :data:`START_GAP`), then
+    improvement passes (:data:`PASSES`) from the newest incumbent; when a whole round of
+    passes finds nothing, it waits for HiGHS's next. An error ends the helper only; it is
+    kept in ``best.error``."""
     try:
         left = deadline - time.perf_counter()
         # a quick start at a loose gap: the passes below improve on it faster than HiGHS closes it

@@ -463,7 +463,7 @@ class LoadedModel:
             helper = threading.Thread(target=helper_search, name="cogen-helper", daemon=True,
                                       args=(spare, best, t0 + options.time_limit))
             if progress:
-                progress("HiGHS searching; beside it, a starting schedule and its improvement unit by unit")
+                progress("HiGHS searching; beside it, a rounded start improved window by window and unit by unit")
             helper.start()
         elif options.warm_start and len(self.int_cols) > 0:
             start, start_obj = self._start_before(options, t0, hint, progress)
@@ -472,16 +472,18 @@ class LoadedModel:
         if start is not None:
             self._set_start(start)
             best.offer(start, start_obj, "start")
-        self._callbacks(best, progress)
-        # with a start in hand the search may get as little as is left; without one, 1 s
-        remaining = max(0.1 if start is not None else 1.0, options.time_limit - (time.perf_counter() - t0))
-        try:
+        try:  # whatever happens here, the helper is stopped and joined before returning
+            self._callbacks(best, progress)
+            # with a start in hand the search may get as little as is left; without one, 1 s
+            remaining = max(0.1 if start is not None else 1.0, options.time_limit - (time.perf_counter() - t0))
             self._run(remaining, gap=options.gap)
         finally:
             best.stop.set()
             if helper is not None:
                 helper.join()
             self._callbacks(None, None)
+        if best.error and progress:
+            progress(f"the helper search stopped early ({best.error}); HiGHS went on alone")
         secs["solve"] = time.perf_counter() - t1
         status = _STATUS.get(self.h.getModelStatus(), str(self.h.getModelStatus()).split(".")[-1])
         info = self.h.getInfo()
