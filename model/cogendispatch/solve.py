@@ -96,6 +96,15 @@ def _ordered(seqs: list[list[float]]) -> bool:
     return all(len(b) == len(a) and all(y <= x for x, y in zip(a, b)) for a, b in zip(seqs, seqs[1:]))
 
 
+def _newest(x: np.ndarray, obj: float, best: Incumbent | None) -> tuple[np.ndarray, float]:
+    """The shared incumbent when it beats ``x`` (objective ``obj``), else ``x``."""
+    if best is not None:
+        bx, bobj, _ = best.get()
+        if bx is not None and bobj < obj:
+            return bx, bobj
+    return x, obj
+
+
 class LoadedModel:
     """A site model loaded into a persistent HiGHS instance, with the column map."""
 
@@ -374,26 +383,31 @@ class LoadedModel:
             left = t_end - time.perf_counter()
             if left < 0.3 or (best is not None and best.stop.is_set()):
                 break
-            if best is not None:
-                bx, bobj, _ = best.get()
-                if bx is not None and bobj < obj:
-                    x, obj = bx, bobj
+            x, obj = _newest(x, obj, best)
             hold = np.flatnonzero((hours >= 0) & ((hours < a) | (hours >= a + width))).astype(np.int32)
             vals = x[hold].copy()
             ints = np.isin(hold, self.int_cols)
             vals[ints] = np.round(vals[ints])
             vals = np.clip(vals, self.col_lower[hold], self.col_upper[hold])
-            self.h.changeColsBounds(len(hold), hold, vals, vals)
-            try:
-                self._set_start(x)
-                self._run(min(left, 5.0), gap=gap)
-                info = self.h.getInfo()
-                if info.primal_solution_status == 2 and info.objective_function_value < obj - 1e-6 * abs(obj):
-                    x, obj = self.solution(), float(info.objective_function_value)
-                    if best is not None:
-                        best.offer(x, obj, "window by window")
-            finally:
-                self.h.changeColsBounds(len(hold), hold, self.col_lower[hold], self.col_upper[hold])
+            x, obj = self._search_around(x, obj, hold, vals, min(left, 5.0), gap, best, "window by window")
+        return x, obj
+
+    def _search_around(self, x: np.ndarray, obj: float, hold: np.ndarray, vals: np.ndarray, time_limit: float,
+                       gap: float, best: Incumbent | None, source: str) -> tuple[np.ndarray, float]:
+        """Re-solve from the schedule ``x`` (objective ``obj``) with the columns ``hold`` held
+        at ``vals``; return the better of the two schedules, offering an improvement to
+        ``best`` as found by ``source``. The bounds are restored afterwards."""
+        self.h.changeColsBounds(len(hold), hold, vals, vals)
+        try:
+            self._set_start(x)
+            self._run(time_limit, gap=gap)
+            info = self.h.getInfo()
+            if info.primal_solution_status == 2 and info.objective_function_value < obj - 1e-6 * abs(obj):
+                x, obj = self.solution(), float(info.objective_function_value)
+                if best is not None:
+                    best.offer(x, obj, source)
+        finally:
+            self.h.changeColsBounds(len(hold), hold, self.col_lower[hold], self.col_upper[hold])
         return x, obj
 
     def improve(self, x: np.ndarray, obj: float, time_limit: float,
@@ -414,24 +428,11 @@ class LoadedModel:
             left = t_end - time.perf_counter()
             if left < 0.5 or (best is not None and best.stop.is_set()):
                 break
-            if best is not None:
-                bx, bobj, _ = best.get()
-                if bx is not None and bobj < obj:
-                    x, obj = bx, bobj
+            x, obj = _newest(x, obj, best)
             free = np.concatenate([units[i][1] for i in g])
             hold = np.setdiff1d(self.int_cols, free).astype(np.int32)
-            vals = np.round(x[hold])
-            self.h.changeColsBounds(len(hold), hold, vals, vals)
-            try:
-                self._set_start(x)
-                self._run(min(left, 10.0), gap=1e-4)
-                info = self.h.getInfo()
-                if info.primal_solution_status == 2 and info.objective_function_value < obj - 1e-6 * abs(obj):
-                    x, obj = self.solution(), float(info.objective_function_value)
-                    if best is not None:
-                        best.offer(x, obj, "unit by unit")
-            finally:
-                self.h.changeColsBounds(len(hold), hold, self.col_lower[hold], self.col_upper[hold])
+            x, obj = self._search_around(x, obj, hold, np.round(x[hold]), min(left, 10.0), 1e-4, best,
+                                         "unit by unit")
         return x, obj
 
     def solve_mip(self, options: SolveOptions, progress: Progress | None = None,
