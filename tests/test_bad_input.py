@@ -319,6 +319,8 @@ def test_unreadable_series_is_refused(name: str, make: Callable[[Path], object] 
     pytest.param(["--gap", "-1"], ["--gap", "'-1' must be positive"], id="negative-gap"),
     pytest.param(["--gap", "tiny"], ["--gap", "'tiny' is not a number"], id="gap-not-a-number"),
     pytest.param(["--time-limit", "0"], ["--time-limit", "must be positive"], id="zero-time-limit"),
+    pytest.param(["--threads", "-1"], ["--threads", "'-1' must be 1 or more"], id="negative-threads"),
+    pytest.param(["--threads", "two"], ["--threads", "'two' is not a whole number"], id="threads-not-a-number"),
 ])
 def test_bad_option_exits_2(extra: list[str], expected: list[str], demo_site: Path, demo_series: Path,
                             tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
@@ -337,6 +339,8 @@ def test_bad_option_exits_2(extra: list[str], expected: list[str], demo_site: Pa
     pytest.param(["optimise", "site.toml"], "invalid choice: 'optimise'", id="unknown-subcommand"),
     pytest.param([], "required: command", id="no-subcommand"),
     pytest.param(["plan", "site.toml", "--out", "x"], "--series", id="plan-without-series"),
+    pytest.param(["study", "site.toml", "--series", "s.csv", "--scenarios", "c.toml", "--out", "x", "--workers", "0"],
+                 "'0' must be 1 or more", id="study-zero-workers"),
 ])
 def test_usage_error_exits_2(argv: list[str], expected: str, capsys: pytest.CaptureFixture[str]) -> None:
     with pytest.raises(SystemExit) as exc:

@@ -49,6 +49,17 @@ def _positive(text: str) -> float:
     return v
 
 
+def _count(text: str) -> int:
+    """A whole number of at least 1 (threads, workers)."""
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"'{text}' must be 1 or more")
+    return v
+
+
 def _units_option(p: argparse.ArgumentParser) -> None:
     p.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
 
@@ -78,7 +89,7 @@ def build_parser() -> argparse.ArgumentParser:
     pl.add_argument("--out", required=True, help="output folder (created, or replaced if it holds earlier results)")
     pl.add_argument("--gap", type=_positive, default=1e-3, help="relative MIP gap to stop at (default 0.001 = 0.1 %%)")
     pl.add_argument("--time-limit", type=_positive, default=120.0, help="solver time limit [s] (default 120)")
-    pl.add_argument("--threads", type=int, default=1,
+    pl.add_argument("--threads", type=_count, default=1,
                     help="threads for the solve (default 1); with 2 or more, one builds and improves "
                          "schedules beside HiGHS, which gets the rest: better results in the same time")
     pl.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
@@ -101,7 +112,7 @@ def build_parser() -> argparse.ArgumentParser:
                     help="solver time per window [s] (default 1.5); a window starts from the week before and "
                          "more time lets it improve further; a window with nothing to start from gets at "
                          "least 15 s, one needing a newly built model at least 6 s")
-    sd.add_argument("--workers", type=int, default=None, help="local worker processes (default: one per core)")
+    sd.add_argument("--workers", type=_count, default=None, help="local worker processes (default: one per core)")
     sd.add_argument("--cluster", metavar="ADDRESS", help="send the scenarios to this Dask scheduler instead")
     sd.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
     _units_option(sd)
