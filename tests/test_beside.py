@@ -138,3 +138,12 @@ def test_a_failing_helper_leaves_highs_to_finish_alone(case, optimum, monkeypatc
     assert rep.status == "optimal" and rep.found_by == "HiGHS"
     assert rep.objective == pytest.approx(optimum, rel=1e-7)
     assert any("helper search stopped early (RuntimeError: no start today)" in s for s in said)
+
+
+def test_solves_with_different_thread_counts_follow_each_other(case, optimum) -> None:  # noqa: ANN001
+    # HiGHS sizes its task scheduler by the first run in an OS thread and refuses a later
+    # run asking for another size; a plan on 3 threads is followed by its 1-thread baseline
+    for threads in (3, 1, 2):
+        rep = solve(build_site_model(*case), SolveOptions(gap=1e-9, time_limit=60, threads=threads))
+        assert rep.status == "optimal"
+        assert rep.objective == pytest.approx(optimum, rel=1e-7)

@@ -33,16 +33,18 @@ class Incumbent:
         self.source = ""
         self.first_start: float | None = None  # [EUR] the rounding start's objective, for the report
         self.stop = threading.Event()
+        self.started = threading.Event()  # set once the helper's start is made (or failed)
         self.error: str | None = None  # what stopped the helper early, if anything
 
-    def offer(self, x: np.ndarray, objective: float, source: str) -> bool:
-        """Keep ``x`` if it beats the incumbent by more than round-off; True if kept."""
+    def offer(self, x: np.ndarray, objective: float, source: str) -> int:
+        """Keep ``x`` if it beats the incumbent by more than round-off; the version it
+        became, 0 if not kept."""
         with self._lock:
             if objective < self.objective - 1e-9 * max(1.0, abs(objective)):
                 self.x, self.objective, self.source = np.array(x, dtype=float), float(objective), source
                 self.version += 1
-                return True
-        return False
+                return self.version
+        return 0
 
     def get(self) -> tuple[np.ndarray | None, float, int]:
         with self._lock:
@@ -58,6 +60,7 @@ def interruptible(h: highspy.Highs, stop: threading.Event) -> None:
 
     h.setCallback(_cb, None)
     for kind in (highspy.cb.HighsCallbackType.kCallbackSimplexInterrupt,
+                 highspy.cb.HighsCallbackType.kCallbackIpmInterrupt,
                  highspy.cb.HighsCallbackType.kCallbackMipInterrupt):
         h.startCallback(kind)
 
@@ -79,10 +82,13 @@ def helper_search(helper: LoadedModel, best: Incumbent, deadline: float) -> None
     try:
         left = deadline - time.perf_counter()
         # a quick start at a loose gap: the passes below improve on it faster than HiGHS closes it
-        x = helper.rounding_start(min(left / 2, 60.0), gap=START_GAP, lp_time_limit=left)
-        if x is not None and helper.start_objective is not None:
-            best.first_start = helper.start_objective
-            best.offer(x, helper.start_objective, "start")
+        try:
+            x = helper.rounding_start(min(left / 2, 60.0), gap=START_GAP, lp_time_limit=left)
+            if x is not None and helper.start_objective is not None:
+                best.first_start = helper.start_objective
+                best.offer(x, helper.start_objective, "start")
+        finally:
+            best.started.set()
         stale, seen, turn = 0, -1, 0
         while not best.stop.is_set() and deadline - time.perf_counter() > 0.5:
             x, obj, version = best.get()

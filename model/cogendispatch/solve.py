@@ -96,6 +96,18 @@ def _ordered(seqs: list[list[float]]) -> bool:
     return all(len(b) == len(a) and all(y <= x for x, y in zip(a, b)) for a, b in zip(seqs, seqs[1:]))
 
 
+_SCHEDULER = threading.local()
+
+
+def _scheduler_for(threads: int) -> None:
+    """HiGHS keeps one task scheduler per OS thread, sized by the first run in that thread,
+    and refuses a later run that asks for another size (a plan on several threads followed
+    by its one-thread baseline, say): reset it when the size changes."""
+    if getattr(_SCHEDULER, "threads", threads) != threads:
+        highspy.Highs.resetGlobalScheduler(True)
+    _SCHEDULER.threads = threads
+
+
 def _newest(x: np.ndarray, obj: float, best: Incumbent | None) -> tuple[np.ndarray, float]:
     """The shared incumbent when it beats ``x`` (objective ``obj``), else ``x``."""
     if best is not None:
@@ -117,6 +129,7 @@ class LoadedModel:
         self.h: highspy.Highs = self.opt._solver_model
         self.h.setOptionValue("output_flag", False)
         self.h.setOptionValue("threads", threads)
+        self.threads = threads
         colmap = self.opt._pyomo_var_to_solver_var_map
         self.vars = [entry[0] for entry in self.opt._vars.values()]
         self.cols = np.array([colmap[id(v)] for v in self.vars], dtype=np.int64)
@@ -143,6 +156,7 @@ class LoadedModel:
         other.h.setOptionValue("output_flag", False)
         other.h.setOptionValue("threads", 1)
         other.h.passModel(self.h.getLp())
+        other.threads = 1
         other._relaxed = False
         return other
 
@@ -177,7 +191,9 @@ class LoadedModel:
         self.h.setOptionValue("time_limit", offset + max(0.1, float(time_limit)))
         if gap is not None:
             self.h.setOptionValue("mip_rel_gap", gap)
-        self.h.run()
+        _scheduler_for(self.threads)
+        if self.h.run() == highspy.HighsStatus.kError:
+            raise SolveError(f"HiGHS refused to run (status {self.h.getModelStatus()}); see its log with output_flag")
 
     def solution(self) -> np.ndarray:
         return np.array(self.h.getSolution().col_value, dtype=float)
@@ -375,7 +391,7 @@ class LoadedModel:
         n = int(hours.max()) + 1
         starts, a = [], (first - step if first > 0 else 0)
         while True:
-            starts.append(max(0, a))
+            starts.append(a)  # the lead window before ``first`` may start before hour 0
             if a + width >= n:
                 break
             a += step
@@ -474,14 +490,21 @@ class LoadedModel:
             self._set_start(start)
             best.offer(start, start_obj, "start")
         try:  # whatever happens here, the helper is stopped and joined before returning
-            self._callbacks(best, progress)
+            self._callbacks(best, progress, helper=helper is not None)
             # with a start in hand the search may get as little as is left; without one, 1 s
             remaining = max(0.1 if start is not None else 1.0, options.time_limit - (time.perf_counter() - t0))
             self._run(remaining, gap=options.gap)
+            if helper is not None and best.get()[0] is None and self.h.getInfo().primal_solution_status != 2:
+                # a short limit ran out before any schedule: let the helper finish its start,
+                # as the one-thread path would (its LP may take the whole limit)
+                best.started.wait(options.time_limit)
         finally:
             best.stop.set()
-            if helper is not None:
-                helper.join()
+            while helper is not None and helper.is_alive():
+                try:
+                    helper.join(0.5)
+                except KeyboardInterrupt:  # the helper stops at its next callback: wait for it
+                    continue
             self._callbacks(None, None)
         if best.error and progress:
             progress(f"the helper search stopped early ({best.error}); HiGHS went on alone")
@@ -502,6 +525,8 @@ class LoadedModel:
             # start, or the helper found it after HiGHS's last look
             has, obj, x = True, bobj, bx
             gap = (obj - bound) / abs(obj) if math.isfinite(bound) and obj != 0 else float("inf")
+            if gap <= options.gap:
+                status = "optimal"
         found_by = best.source if has and bx is not None and bobj <= obj + 1e-9 * abs(obj) else "HiGHS"
         if helper is not None:
             start_obj = best.first_start
@@ -544,9 +569,10 @@ class LoadedModel:
             start, start_obj = self.improve(start, start_obj, budget)
         return start, start_obj
 
-    def _callbacks(self, best: Incumbent | None, progress: Progress | None) -> None:
-        """HiGHS's MIP callbacks for one run: progress every 2 s; with a helper beside it,
-        its schedules handed in and HiGHS's own handed out. None, None stops them all."""
+    def _callbacks(self, best: Incumbent | None, progress: Progress | None, helper: bool = False) -> None:
+        """HiGHS's MIP callbacks for one run: progress every 2 s; with a ``helper`` beside
+        it, the helper's schedules handed in and HiGHS's own handed out through ``best``.
+        None, None stops them all."""
         kinds = (highspy.cb.HighsCallbackType.kCallbackMipInterrupt,
                  highspy.cb.HighsCallbackType.kCallbackMipUserSolution,
                  highspy.cb.HighsCallbackType.kCallbackMipImprovingSolution)
@@ -554,8 +580,11 @@ class LoadedModel:
             for k in kinds:
                 self.h.stopCallback(k)
             return
+        wanted = ([kinds[0]] if progress is not None else []) + (list(kinds[1:]) if helper else [])
+        if not wanted:
+            return
         last = [0.0]
-        sent = [best.get()[2]]  # the start, if any, is already set
+        sent = [best.get()[2]]  # newest version HiGHS has; a start, if any, is already set
 
         def _cb(callback_type, message, data_out, data_in, user_data):  # noqa: ANN001
             if callback_type == kinds[1]:
@@ -564,20 +593,24 @@ class LoadedModel:
                     sent[0] = version
                     data_in.setSolution(x)
             elif callback_type == kinds[2]:
-                best.offer(np.array(data_out.mip_solution), data_out.objective_function_value, "HiGHS")
-                sent[0] = max(sent[0], best.get()[2])
-            elif progress is not None:
+                # only HiGHS's own schedule is known to HiGHS: a newer one of the helper's
+                # still has to be handed in
+                mine = best.offer(np.array(data_out.mip_solution), data_out.objective_function_value, "HiGHS")
+                if mine and mine == best.get()[2]:
+                    sent[0] = max(sent[0], mine)
+            else:
                 now = time.perf_counter()
                 if now - last[0] >= 2.0:
                     last[0] = now
                     p, d = min(data_out.objective_function_value, best.get()[1]), data_out.mip_dual_bound
-                    if math.isfinite(p) and p != 0:
-                        progress(f"solving: best {p:,.0f}, bound {d:,.0f}, gap {100 * (p - d) / abs(p):.2f} %")
+                    bound = f"bound {d:,.0f}" if math.isfinite(d) else "no bound yet (root LP)"
+                    if math.isfinite(p) and p != 0 and math.isfinite(d):
+                        progress(f"solving: best {p:,.0f}, {bound}, gap {100 * (p - d) / abs(p):.2f} %")
                     else:
-                        progress(f"solving: no schedule yet, bound {d:,.0f}")
+                        progress(f"solving: {f'best {p:,.0f}' if math.isfinite(p) else 'no schedule yet'}, {bound}")
 
         self.h.setCallback(_cb, None)
-        for k in kinds:
+        for k in wanted:
             self.h.startCallback(k)
 
 
