@@ -96,6 +96,10 @@ def _ordered(seqs: list[list[float]]) -> bool:
     return all(len(b) == len(a) and all(y <= x for x, y in zip(a, b)) for a, b in zip(seqs, seqs[1:]))
 
 
+# HiGHS's MIP callbacks a plan uses: progress, schedules handed in, schedules handed out
+_MIP_CALLBACKS = (highspy.cb.HighsCallbackType.kCallbackMipInterrupt,
+                  highspy.cb.HighsCallbackType.kCallbackMipUserSolution,
+                  highspy.cb.HighsCallbackType.kCallbackMipImprovingSolution)
 _SCHEDULER = threading.local()
 
 
@@ -384,7 +388,7 @@ class LoadedModel:
         ----------
         Helber, S. & Sahling, F., A fix-and-optimize approach for the multi-level capacitated
         lot sizing problem, Int. J. Production Economics 123 (2010) 247-256 (fix-and-optimize
-        over time windows).
+        over time windows; citation from memory).
         """
         t_end = time.perf_counter() + time_limit
         hours = self.col_hours()
@@ -505,7 +509,7 @@ class LoadedModel:
                     helper.join(0.5)
                 except KeyboardInterrupt:  # the helper stops at its next callback: wait for it
                     continue
-            self._callbacks(None, None)
+            self._stop_callbacks()
         if best.error and progress:
             progress(f"the helper search stopped early ({best.error}); HiGHS went on alone")
         secs["solve"] = time.perf_counter() - t1
@@ -569,17 +573,11 @@ class LoadedModel:
             start, start_obj = self.improve(start, start_obj, budget)
         return start, start_obj
 
-    def _callbacks(self, best: Incumbent | None, progress: Progress | None, helper: bool = False) -> None:
+    def _callbacks(self, best: Incumbent, progress: Progress | None, helper: bool = False) -> None:
         """HiGHS's MIP callbacks for one run: progress every 2 s; with a ``helper`` beside
         it, the helper's schedules handed in and HiGHS's own handed out through ``best``.
-        None, None stops them all."""
-        kinds = (highspy.cb.HighsCallbackType.kCallbackMipInterrupt,
-                 highspy.cb.HighsCallbackType.kCallbackMipUserSolution,
-                 highspy.cb.HighsCallbackType.kCallbackMipImprovingSolution)
-        if best is None:
-            for k in kinds:
-                self.h.stopCallback(k)
-            return
+        :meth:`_stop_callbacks` ends them."""
+        kinds = _MIP_CALLBACKS
         wanted = ([kinds[0]] if progress is not None else []) + (list(kinds[1:]) if helper else [])
         if not wanted:
             return
@@ -612,6 +610,10 @@ class LoadedModel:
         self.h.setCallback(_cb, None)
         for k in wanted:
             self.h.startCallback(k)
+
+    def _stop_callbacks(self) -> None:
+        for k in _MIP_CALLBACKS:
+            self.h.stopCallback(k)
 
 
 def solve(sm: SiteModel, options: SolveOptions = SolveOptions(), progress: Progress | None = None) -> SolveReport:
