@@ -14,7 +14,7 @@ import pytest
 
 from cogendispatch.beside import Incumbent, helper_search
 from cogendispatch.site import build_site_model
-from cogendispatch.solve import LoadedModel, SolveOptions, solve
+from cogendispatch.solve import BESIDE_HIGHS_OPTIONS, LoadedModel, SolveOptions, solve
 from test_reuse import _lp_arrays
 from test_studies import _site
 from tiny import series
@@ -138,6 +138,30 @@ def test_a_failing_helper_leaves_highs_to_finish_alone(case, optimum, monkeypatc
     assert rep.status == "optimal" and rep.found_by == "HiGHS"
     assert rep.objective == pytest.approx(optimum, rel=1e-7)
     assert any("helper search stopped early (RuntimeError: no start today)" in s for s in said)
+
+
+def _option(lm: LoadedModel, name: str) -> object:
+    got = lm.h.getOptionValue(name)
+    return got[1] if isinstance(got, tuple) else got
+
+
+def test_highs_leaves_its_heuristics_to_the_helper_and_gets_its_options_back(case, optimum, monkeypatch) -> None:  # noqa: ANN001
+    lm = LoadedModel(build_site_model(*case))
+    during: list[tuple[object, ...]] = []
+    run = LoadedModel._run
+
+    def recording(self, *args, **kwargs):  # noqa: ANN001, ANN202
+        if self is lm:  # the main instance's run, not the helper's copy
+            during.append(tuple(_option(lm, k) for k in BESIDE_HIGHS_OPTIONS))
+        return run(self, *args, **kwargs)
+
+    monkeypatch.setattr(LoadedModel, "_run", recording)
+    before = tuple(_option(lm, k) for k in BESIDE_HIGHS_OPTIONS)
+    rep = lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60, threads=2))
+    assert rep.status == "optimal" and rep.objective == pytest.approx(optimum, rel=1e-7)
+    assert during == [tuple(BESIDE_HIGHS_OPTIONS.values())]
+    # a later solve of the same loaded model (a study's next window) gets HiGHS's own again
+    assert tuple(_option(lm, k) for k in BESIDE_HIGHS_OPTIONS) == before != during[0]
 
 
 def test_solves_with_different_thread_counts_follow_each_other(case, optimum) -> None:  # noqa: ANN001
