@@ -14,7 +14,7 @@ import pytest
 
 from cogendispatch.beside import Incumbent, helper_search
 from cogendispatch.site import build_site_model
-from cogendispatch.solve import BESIDE_HIGHS_OPTIONS, LoadedModel, SolveOptions, solve
+from cogendispatch.solve import BESIDE_HIGHS_OPTIONS, MIP_OPTIONS, LoadedModel, SolveOptions, solve
 from test_reuse import _lp_arrays
 from test_studies import _site
 from tiny import series
@@ -145,23 +145,27 @@ def _option(lm: LoadedModel, name: str) -> object:
     return got[1] if isinstance(got, tuple) else got
 
 
-def test_highs_leaves_its_heuristics_to_the_helper_and_gets_its_options_back(case, optimum, monkeypatch) -> None:  # noqa: ANN001
+@pytest.mark.parametrize("threads", [1, 2])
+def test_highs_options_for_its_search_are_set_and_set_back(case, optimum, monkeypatch, threads) -> None:  # noqa: ANN001
     lm = LoadedModel(build_site_model(*case))
-    during: list[tuple[object, ...]] = []
+    during: list[dict[str, object]] = []
     run = LoadedModel._run
 
     def recording(self, *args, **kwargs):  # noqa: ANN001, ANN202
-        if self is lm:  # the main instance's run, not the helper's copy
-            during.append(tuple(_option(lm, k) for k in BESIDE_HIGHS_OPTIONS))
+        if self is lm:  # the main instance's runs, not the helper's copy
+            during.append({k: _option(lm, k) for k in BESIDE_HIGHS_OPTIONS})
         return run(self, *args, **kwargs)
 
     monkeypatch.setattr(LoadedModel, "_run", recording)
-    before = tuple(_option(lm, k) for k in BESIDE_HIGHS_OPTIONS)
-    rep = lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60, threads=2))
+    before = {k: _option(lm, k) for k in BESIDE_HIGHS_OPTIONS}
+    rep = lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60, threads=threads))
     assert rep.status == "optimal" and rep.objective == pytest.approx(optimum, rel=1e-7)
-    assert during == [tuple(BESIDE_HIGHS_OPTIONS.values())]
+    # the branch and bound is the last run: no restart; with the helper, no heuristics of its own
+    wanted = BESIDE_HIGHS_OPTIONS if threads == 2 else {**before, **MIP_OPTIONS}
+    assert during[-1] == wanted and during[-1] != before
+    assert threads == 1 or len(during) == 1  # with the helper, the start is built on its copy
     # a later solve of the same loaded model (a study's next window) gets HiGHS's own again
-    assert tuple(_option(lm, k) for k in BESIDE_HIGHS_OPTIONS) == before != during[0]
+    assert {k: _option(lm, k) for k in BESIDE_HIGHS_OPTIONS} == before
 
 
 def test_solves_with_different_thread_counts_follow_each_other(case, optimum) -> None:  # noqa: ANN001

@@ -32,15 +32,20 @@ SEARCH_SHARE_MAX = 30.0  # [s] most of a plan's time limit held back for HiGHS's
 SEARCH_LP_TIMES = 2.5  # held back at least this many times the LP relaxation's time [-]
 QUICK_LIMIT = 10.0  # [s] below this, a solve from a guessed start adds no reserve rows
 HINT_FREE_HOURS = 6  # [h] first hours a guessed start leaves free to join the initial state (ramps)
-# HiGHS's options while the helper searches beside it. Its own heuristics and restarts then
-# cost the bound more than they give: proving 0.1 % on the demo week from the best schedule
-# took HiGHS 126 s with them and 66 s without (its sub-MIPs took 39 s of the root node and
-# the restart re-solved the root's LPs); the schedules come from the helper instead
-# (measured here, 2 cores). A one-thread solve keeps HiGHS's defaults: it has no helper.
+# HiGHS's options for the main branch and bound. No restart: on the demo week HiGHS restarts
+# once, after its root cuts, when under 1 % of the columns are fixed, and then solves the
+# root's LPs again; without it one thread proves 0.1 % in 171 to 179 s, not 208 to 213 s
+# (measured here, two runs each).
+MIP_OPTIONS: dict[str, float | bool] = {"mip_allow_restart": False}
+# and while the helper searches beside it, none of HiGHS's own primal heuristics: they then
+# cost the bound more than they give. Proving 0.1 % on the demo week from the best schedule
+# took HiGHS 126 s with them and 66 s without (its sub-MIPs took 39 s of the root node); the
+# schedules come from the helper instead (measured here, 2 cores). A one-thread solve keeps
+# them: there, no helper finds schedules (without them it took 236 s instead of 171 to 179 s).
 BESIDE_HIGHS_OPTIONS: dict[str, float | bool] = {
     "mip_heuristic_effort": 0.0, "mip_heuristic_run_rins": False, "mip_heuristic_run_rens": False,
     "mip_heuristic_run_root_reduced_cost": False, "mip_heuristic_run_feasibility_jump": False,
-    "mip_allow_restart": False,
+    **MIP_OPTIONS,
 }
 
 
@@ -503,7 +508,7 @@ class LoadedModel:
         if start is not None:
             self._set_start(start)
             best.offer(start, start_obj, "start")
-        kept = self._set_options(BESIDE_HIGHS_OPTIONS if helper is not None else {})
+        kept = self._set_options(BESIDE_HIGHS_OPTIONS if helper is not None else MIP_OPTIONS)
         try:  # whatever happens here, the helper is stopped and joined before returning
             self._callbacks(best, progress, helper=helper is not None)
             # with a start in hand the search may get as little as is left; without one, 1 s
