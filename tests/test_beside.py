@@ -115,6 +115,28 @@ def test_the_helper_alone_builds_and_improves_a_schedule(case, optimum) -> None:
     assert lm.h.getNumCol() == spare.h.getNumCol()  # the copy never touched the original
 
 
+@pytest.mark.parametrize("quick, first", [(True, (12, 6, 0)), (False, (24, 12, 0))])
+def test_a_short_time_limit_sweeps_12_h_windows_first(case, monkeypatch, quick, first) -> None:  # noqa: ANN001
+    widths: list[tuple[int, int, int]] = []
+    sweep = LoadedModel.improve_windows
+
+    def recording(self, x, obj, time_limit, width=24, step=12, first=0, **kwargs):  # noqa: ANN001, ANN202
+        widths.append((width, step, first))
+        return sweep(self, x, obj, time_limit, width, step, first, **kwargs)
+
+    monkeypatch.setattr(LoadedModel, "improve_windows", recording)
+    spare = _loaded(case).spare()
+    best = Incumbent()
+    helper_search(spare, best, time.perf_counter() + 4.0, quick_sweep=quick)
+    assert best.error is None and widths and widths[0] == first
+    assert (12, 6, 0) not in widths[1:]  # made once, never in the cycled passes
+    # which sweep a solve asks for follows its time limit
+    asked: list[bool] = []
+    monkeypatch.setattr("cogendispatch.solve.helper_search", lambda h, b, d, q: (asked.append(q), b.started.set()))
+    LoadedModel(build_site_model(*case)).solve_mip(SolveOptions(gap=1e-9, time_limit=15.0 if quick else 120.0, threads=2))
+    assert asked == [quick]
+
+
 def test_two_threads_reach_the_one_thread_optimum_and_stop_with_highs(case, optimum) -> None:  # noqa: ANN001
     t0 = time.perf_counter()
     rep = solve(build_site_model(*case), SolveOptions(gap=1e-9, time_limit=60, threads=2))

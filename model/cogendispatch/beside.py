@@ -70,12 +70,20 @@ def interruptible(h: highspy.Highs, stop: threading.Event) -> None:
 PASSES: tuple[tuple[int, int, int] | None, ...] = ((24, 12, 0), (48, 24, 0), None, (24, 12, 6))
 
 
+# [s] below this time limit the helper first sweeps 12 h windows (6 h apart) over the rounded
+# start: 0.1 to 0.3 s each, about 5 s in all on the demo week. It halves the gap at 15 s (0.61
+# to 0.27 %) and at 30 s (0.17 to 0.24 % down to 0.14 %), but when HiGHS has time to prove
+# 0.1 % it made that proof slower and erratic (76 to 202 s in eight runs against 67 to 76 s),
+# so only limits too short for the proof get it (measured here, 2 cores; DEVELOPERS.md)
+QUICK_SWEEP_LIMIT = 45.0
+
 START_GAP = 1e-2  # [-] the rounded start's MILP over the drivers: 1.7 s on the demo week (5.6 s at 1e-3)
 
 
-def helper_search(helper: LoadedModel, best: Incumbent, deadline: float) -> None:
+def helper_search(helper: LoadedModel, best: Incumbent, deadline: float, quick_sweep: bool = False) -> None:
     """The second thread's work until ``deadline`` [perf_counter s] or ``best.stop``: the
-    LP relaxation's commitment rounded (drivers by a MILP at :data:`START_GAP`), then
+    LP relaxation's commitment rounded (drivers by a MILP at :data:`START_GAP`), with
+    ``quick_sweep`` one sweep of 12 h windows over it (see :data:`QUICK_SWEEP_LIMIT`), then
     improvement passes (:data:`PASSES`) from the newest incumbent; when a whole round of
     passes finds nothing, it waits for HiGHS's next. An error ends the helper only; it is
     kept in ``best.error``."""
@@ -89,6 +97,9 @@ def helper_search(helper: LoadedModel, best: Incumbent, deadline: float) -> None
                 best.offer(x, helper.start_objective, "start")
         finally:
             best.started.set()
+        x, obj, _ = best.get()
+        if quick_sweep and x is not None:
+            helper.improve_windows(x, obj, deadline - time.perf_counter(), 12, 6, 0, best=best)
         stale, seen, turn = 0, -1, 0
         while not best.stop.is_set() and deadline - time.perf_counter() > 0.5:
             x, obj, version = best.get()

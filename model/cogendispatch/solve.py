@@ -21,7 +21,7 @@ import numpy as np
 import pyomo.environ as pyo
 from pyomo.contrib.solver.solvers.highs import Highs
 
-from .beside import Incumbent, helper_search, interruptible
+from .beside import QUICK_SWEEP_LIMIT, Incumbent, helper_search, interruptible
 from .equipment.common import CommitInfo, held_value, repair_commitment
 from .errors import SolveError
 from .site import SiteModel
@@ -497,7 +497,8 @@ class LoadedModel:
             spare = self.spare()
             interruptible(spare.h, best.stop)
             helper = threading.Thread(target=helper_search, name="cogen-helper", daemon=True,
-                                      args=(spare, best, t0 + options.time_limit))
+                                      args=(spare, best, t0 + options.time_limit,
+                                            options.time_limit < QUICK_SWEEP_LIMIT))
             if progress:
                 progress("HiGHS searching; beside it, a rounded start improved window by window and unit by unit")
             helper.start()
