@@ -162,11 +162,6 @@ def test_a_failing_helper_leaves_highs_to_finish_alone(case, optimum, monkeypatc
     assert any("helper search stopped early (RuntimeError: no start today)" in s for s in said)
 
 
-def _option(lm: LoadedModel, name: str) -> object:
-    got = lm.h.getOptionValue(name)
-    return got[1] if isinstance(got, tuple) else got
-
-
 @pytest.mark.parametrize("threads", [1, 2])
 def test_highs_options_for_its_search_are_set_and_set_back(case, optimum, monkeypatch, threads) -> None:  # noqa: ANN001
     lm = LoadedModel(build_site_model(*case))
@@ -175,11 +170,11 @@ def test_highs_options_for_its_search_are_set_and_set_back(case, optimum, monkey
 
     def recording(self, *args, **kwargs):  # noqa: ANN001, ANN202
         if self is lm:  # the main instance's runs, not the helper's copy
-            during.append({k: _option(lm, k) for k in BESIDE_HIGHS_OPTIONS})
+            during.append({k: lm.option_value(k) for k in BESIDE_HIGHS_OPTIONS})
         return run(self, *args, **kwargs)
 
     monkeypatch.setattr(LoadedModel, "_run", recording)
-    before = {k: _option(lm, k) for k in BESIDE_HIGHS_OPTIONS}
+    before = {k: lm.option_value(k) for k in BESIDE_HIGHS_OPTIONS}
     rep = lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60, threads=threads))
     assert rep.status == "optimal" and rep.objective == pytest.approx(optimum, rel=1e-7)
     # the branch and bound is the last run: no restart; with the helper, no heuristics of its own
@@ -187,7 +182,7 @@ def test_highs_options_for_its_search_are_set_and_set_back(case, optimum, monkey
     assert during[-1] == wanted and during[-1] != before
     assert threads == 1 or len(during) == 1  # with the helper, the start is built on its copy
     # a later solve of the same loaded model (a study's next window) gets HiGHS's own again
-    assert {k: _option(lm, k) for k in BESIDE_HIGHS_OPTIONS} == before
+    assert {k: lm.option_value(k) for k in BESIDE_HIGHS_OPTIONS} == before
 
 
 def test_solves_with_different_thread_counts_follow_each_other(case, optimum) -> None:  # noqa: ANN001

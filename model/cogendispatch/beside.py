@@ -2,10 +2,12 @@
 
 HiGHS proves the bound with one thread; the start heuristic of :mod:`cogendispatch.solve`
 (LP relaxation rounded, then fix-and-optimise window by window and unit by unit) runs
-meanwhile on a copy of the loaded model in a second thread. Each better schedule either side finds is handed to the other:
-HiGHS takes the helper's through its user-solution callback (pruning with it and searching
-around it), and the helper improves from HiGHS's newest incumbent. HiGHS releases the
-Python lock while it solves, so the two threads run on two cores.
+meanwhile on a copy of the loaded model in a second thread. Each better schedule either
+side finds is handed to the other: HiGHS takes the helper's through its user-solution
+callback (pruning with it and searching around it), and the helper improves from HiGHS's
+newest incumbent. HiGHS releases the Python lock while it solves, so the two threads run
+on two cores. While the helper runs, HiGHS leaves finding schedules to it (no primal
+heuristics of its own; ``BESIDE_HIGHS_OPTIONS`` in :mod:`cogendispatch.solve`).
 """
 
 from __future__ import annotations
@@ -76,6 +78,7 @@ PASSES: tuple[tuple[int, int, int] | None, ...] = ((24, 12, 0), (48, 24, 0), Non
 # 0.1 % it made that proof slower and erratic (76 to 202 s in eight runs against 67 to 76 s),
 # so only limits too short for the proof get it (measured here, 2 cores; DEVELOPERS.md)
 QUICK_SWEEP_LIMIT = 45.0
+QUICK_SWEEP = (12, 6, 0)  # (hours per window, hours between windows, first window's hour)
 
 START_GAP = 1e-2  # [-] the rounded start's MILP over the drivers: 1.7 s on the demo week (5.6 s at 1e-3)
 
@@ -99,7 +102,7 @@ def helper_search(helper: LoadedModel, best: Incumbent, deadline: float, quick_s
             best.started.set()
         x, obj, _ = best.get()
         if quick_sweep and x is not None:
-            helper.improve_windows(x, obj, deadline - time.perf_counter(), 12, 6, 0, best=best)
+            helper.improve_windows(x, obj, deadline - time.perf_counter(), *QUICK_SWEEP, best=best)
         stale, seen, turn = 0, -1, 0
         while not best.stop.is_set() and deadline - time.perf_counter() > 0.5:
             x, obj, version = best.get()

@@ -4,7 +4,8 @@ Pyomo builds the model and hands it to HiGHS once (``load``). HiGHS's own heuris
 it hard to commit boilers so that every header is supplied in every hour, so the solve
 first builds a start: the LP relaxation, its commitment rounded up and repaired to honour
 minimum up/down times, the rest re-optimised, then improved unit by unit.
-The MILP then starts from that schedule and closes the gap.
+The MILP then starts from that schedule and closes the gap. With two threads or more the
+start is built and improved beside HiGHS instead (:mod:`cogendispatch.beside`).
 """
 
 from __future__ import annotations
@@ -51,7 +52,8 @@ BESIDE_HIGHS_OPTIONS: dict[str, float | bool] = {
 
 @dataclass(frozen=True)
 class SolveOptions:
-    """gap : relative MIP gap [-]; time_limit : [s]; threads : HiGHS threads;
+    """gap : relative MIP gap [-]; time_limit : [s]; threads : threads of the solve (with
+    two or more and ``warm_start``, one goes to the helper search beside HiGHS);
     warm_start : build the rounding start first; strengthen : add the reserve rows
     of :mod:`cogendispatch.strengthen`; search_share : share of the time limit a solve
     without a guessed start keeps for HiGHS's own search rather than for improving the
@@ -629,12 +631,14 @@ class LoadedModel:
         for k in wanted:
             self.h.startCallback(k)
 
+    def option_value(self, name: str) -> float | bool | int | str:
+        """The value of one HiGHS option of this instance."""
+        got = self.h.getOptionValue(name)  # (status, value) in highspy 1.16, the value alone in some others
+        return got[1] if isinstance(got, tuple) else got
+
     def _set_options(self, options: dict[str, float | bool]) -> dict[str, float | bool]:
         """Set HiGHS options; return their earlier values, to set them back."""
-        kept = {}
-        for k in options:
-            got = self.h.getOptionValue(k)  # (status, value) in highspy 1.16, the value alone in some others
-            kept[k] = got[1] if isinstance(got, tuple) else got
+        kept = {k: self.option_value(k) for k in options}
         for k, v in options.items():
             self.h.setOptionValue(k, v)
         return kept
