@@ -8,12 +8,13 @@ hand-worked cases.
 from __future__ import annotations
 
 import pytest
+from pyomo.core.expr.visitor import identify_variables
 
 from cogendispatch import reserve
 from cogendispatch.reserve import set_capacity
 from cogendispatch.site import build_site_model
 from cogendispatch.solve import LoadedModel, SolveOptions, solve
-from cogendispatch.strengthen import add_reserve_rows, minimum_steam
+from cogendispatch.strengthen import add_reserve_rows, linking_rows, minimum_steam
 from tiny import series, site
 
 
@@ -100,3 +101,31 @@ def test_minimum_steam_counts_the_import_limit() -> None:
     # without the power shortfall in the bound the motor looks free and L drops to the demand
     low = minimum_steam(lm, 30, k_power=1e-3)
     assert low is not None and low.max() < 30.0 * f - 3.0
+
+
+def test_linking_rows_are_the_rows_spanning_hours() -> None:
+    """The decoupled LP drops exactly the rows whose variables belong to two hours or more,
+    found here independently from the Pyomo expressions; those include every unit's
+    transition, minimum-time, ramp and switching rows."""
+    boilers = [dict(b, ramp_up="40 t/h", ramp_down="40 t/h") for b in _boilers()]
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "60 t/h", "min_throttle": "10 t/h", "generator_rating": "8 MW",
+          "no_load_loss": "0.2 MW", "min_up": "3 h", "min_down": "2 h", "initial_on": True,
+          "section": [{"to": "LP", "efficiency": 0.75}]}
+    drive = {"id": "P", "duty": "1 MW", "count": 2, "normal": "motor", "motor": {"efficiency": 0.95},
+             "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": 0.5}, "min_hours_between_switches": "3 h"}
+    cfg = site(boiler=boilers, turbogenerator=[tg], drive=[drive], reserve={"enabled": True})
+    sm = build_site_model(cfg, series(cfg, 8, demand_LP=[40, 60, 90, 110, 100, 70, 50, 40]))
+    lm = LoadedModel(sm)
+    by_row = {r: c for c, r in lm.opt._pyomo_con_to_solver_con_map.items()}
+    spanning = set()
+    for r, con in by_row.items():
+        hours = {v.index()[-1] if isinstance(v.index(), tuple) else v.index()
+                 for v in identify_variables(con.body, include_fixed=False)}
+        if len(hours) > 1:
+            spanning.add(r)
+    found = set(linking_rows(lm).tolist())
+    assert found == spanning
+    kinds = {by_row[r].parent_component().local_name for r in found}
+    assert {"transition", "min_up", "min_down", "ramp_up", "ramp_down", "switch_change",
+            "switch_stay_steam", "switch_stay_motor"} <= kinds
+    assert not kinds & {"header_balance", "power_balance", "reserve", "boiler_set_status"}

@@ -47,19 +47,39 @@ from itertools import combinations
 
 import highspy
 import numpy as np
-import pyomo.environ as pyo
 
 from .equipment.common import held_value
 
 K_SHORT = 5.0  # [t/h of boiler steam per t/h of header shortfall] weight in the bound (any K > 0 is valid)
 # [t/h of boiler steam per MW of power shortfall]: a small and a large weight (module docstring)
 K_POWER = (2.0, 50.0)
-_LINKING = ("transition", "min_up", "min_down", "ramp_up", "ramp_down", "switch_change", "switch_stay_steam",
-            "switch_stay_motor")
 
 
-def _row(opt, con) -> int | None:  # noqa: ANN001
-    return opt._pyomo_con_to_solver_con_map.get(con)
+def linking_rows(lm) -> np.ndarray:  # noqa: ANN001
+    """Rows of the loaded model whose columns belong to more than one hour (commitment
+    transitions, minimum up/down times, ramps, switching limits, whatever a new equipment
+    kind adds), or to no hour at all (such a column could tie hours together).
+
+    Found from the matrix rather than from constraint names, so that no block's linking
+    rows can be missed: one left in would make the decoupled LP's L_t too high and the
+    running-set rows would cut off schedules. Rows of one hour that hold the initial state
+    (a minimum down time at hour 0) stay; every schedule meets them, so L_t stays a bound.
+    """
+    hours = lm.col_hours()
+    a = lm.h.getLp().a_matrix_
+    start, index = np.asarray(a.start_), np.asarray(a.index_)
+    n_rows = lm.h.getNumRow()
+    if a.format_ == highspy.MatrixFormat.kRowwise:
+        row_of, col_of = np.repeat(np.arange(n_rows), np.diff(start)), index
+    else:
+        row_of, col_of = index, np.repeat(np.arange(a.num_col_), np.diff(start))
+    first = np.full(n_rows, np.iinfo(np.int64).max)
+    last = np.full(n_rows, -1)
+    np.minimum.at(first, row_of, hours[col_of])
+    np.maximum.at(last, row_of, hours[col_of])
+    used = np.zeros(n_rows, dtype=bool)
+    used[row_of] = True
+    return np.flatnonzero(used & ((first != last) | (first < 0))).astype(np.int32)
 
 
 def _slack_cols(lm, t: int, k_power: float, reserve: bool = True) -> list[tuple[int, float]]:  # noqa: ANN001
@@ -75,14 +95,8 @@ def _decoupled_lp(lm, cost: dict[int, float], time_limit: float) -> np.ndarray |
     """Column values minimising sum(cost[c] * x[c]) over the LP relaxation without the rows
     that link hours, so that each hour's part of the optimum is that hour's own minimum;
     None when the LP does not solve. The loaded model is restored afterwards."""
-    m = lm.sm.model
     h: highspy.Highs = lm.h
-    rows = []
-    for blk in m.component_data_objects(pyo.Block, descend_into=False):
-        for name in _LINKING:
-            c = blk.component(name)
-            if isinstance(c, pyo.Constraint):
-                rows += [r for r in (_row(lm.opt, cd) for cd in c.values()) if r is not None]
+    idx = linking_rows(lm)
     lp = h.getLp()
     cost0 = np.array(lp.col_cost_, dtype=float)
     rlo = np.array(lp.row_lower_, dtype=float)
@@ -91,7 +105,6 @@ def _decoupled_lp(lm, cost: dict[int, float], time_limit: float) -> np.ndarray |
     for c, a in cost.items():
         c_new[c] = a
     all_cols = np.arange(len(c_new), dtype=np.int32)
-    idx = np.array(rows, dtype=np.int32)
     inf = highspy.kHighsInf
     try:
         h.changeColsCost(len(all_cols), all_cols, c_new)
