@@ -271,6 +271,8 @@ SERIES_CASES = [
     # --- columns
     pytest.param(lambda df: df.drop(columns=LOAD), ["header row", "site electric load", "load [MW]"],
                  id="missing-load-column"),
+    pytest.param(lambda df: df.drop(columns=LP), ["header row", "demand of header 'LP'", "demand:LP [t/h]"],
+                 id="missing-demand-column"),
     pytest.param(rename(LP, "demand:XX [t/h]"), ["column 'demand:XX [t/h]'", "unknown header 'XX'"],
                  id="demand-unknown-header"),
     pytest.param(rename(LOAD, "load"), ["column 'load'", "'name [unit]'"], id="column-without-unit"),

@@ -177,7 +177,7 @@ def test_excel_series_is_read_like_csv(tmp_path):  # noqa: ANN001
     from cogendispatch.plant.series import load_series
     cfg = site()
     df = pd.DataFrame({"time": [str(t) for t in pd.date_range("2027-03-01", periods=3, freq="h")],
-                       "demand:LP [t/h]": [10, 20, 30], "load [MW]": [5, 5, 5],
+                       "demand:HP [t/h]": [0, 0, 0], "demand:LP [t/h]": [10, 20, 30], "load [MW]": [5, 5, 5],
                        "price:import [per MWh]": [50, 60, 70]})
     df.to_excel(tmp_path / "s.xlsx", index=False)
     df.to_csv(tmp_path / "s.csv", index=False)
@@ -224,8 +224,8 @@ max_flow = "100 t/h"
 def test_cli_plan_exits_3_with_a_diagnosis_and_still_writes_the_schedule(tmp_path, capsys):  # noqa: ANN001
     from cogendispatch.cli import main
     (tmp_path / "site.toml").write_text(TINY_TOML)
-    (tmp_path / "s.csv").write_text("time,demand:LP [t/h],load [MW],price:import [per MWh]\n"
-                                    "2027-03-01T00:00,20,5,50\n2027-03-01T01:00,90,5,50\n2027-03-01T02:00,20,5,50\n")
+    (tmp_path / "s.csv").write_text("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n"
+                                    "2027-03-01T00:00,0,20,5,50\n2027-03-01T01:00,0,90,5,50\n2027-03-01T02:00,0,20,5,50\n")
     out = tmp_path / "out"
     rc = main(["plan", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--out", str(out), "--quiet"])
     err = capsys.readouterr().err

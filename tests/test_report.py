@@ -13,8 +13,8 @@ from openpyxl import load_workbook
 from cogendispatch.cli import main
 from test_plan_small import TINY_TOML
 
-SERIES = ("time,demand:LP [t/h],load [MW],price:import [per MWh]\n"
-          + "".join(f"2027-03-01T{h:02d}:00,{20 + h},5,{50 + 5 * h}\n" for h in range(6)))
+SERIES = ("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n"
+          + "".join(f"2027-03-01T{h:02d}:00,0,{20 + h},5,{50 + 5 * h}\n" for h in range(6)))
 
 
 @pytest.fixture(scope="module")

@@ -26,8 +26,8 @@ from test_crosschecks import small_sites
 from test_plan_small import TINY_TOML
 
 ROOT = Path(__file__).resolve().parents[1]
-SERIES = ("time,demand:LP [t/h],load [MW],price:import [per MWh]\n"
-          + "".join(f"2027-03-01T{h:02d}:00,{20 + h},5,{50 + 5 * h}\n" for h in range(12)))
+SERIES = ("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n"
+          + "".join(f"2027-03-01T{h:02d}:00,0,{20 + h},5,{50 + 5 * h}\n" for h in range(12)))
 
 
 def _files(tmp_path: Path) -> tuple[Path, Path]:

@@ -130,8 +130,8 @@ def test_baseline_follows_the_rules_and_never_beats_the_optimiser() -> None:
 
 def test_cli_verify_updates_a_plan_folder(tmp_path) -> None:  # noqa: ANN001
     (tmp_path / "site.toml").write_text(TINY_TOML)
-    (tmp_path / "s.csv").write_text("time,demand:LP [t/h],load [MW],price:import [per MWh]\n"
-                                    "2027-03-01T00:00,20,5,50\n2027-03-01T01:00,30,5,50\n")
+    (tmp_path / "s.csv").write_text("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n"
+                                    "2027-03-01T00:00,0,20,5,50\n2027-03-01T01:00,0,30,5,50\n")
     out = tmp_path / "out"
     assert main(["plan", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--out", str(out), "--quiet"]) == 0
     s = json.loads((out / "summary.json").read_text())

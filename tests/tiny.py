@@ -48,6 +48,8 @@ def series(cfg: SiteConfig, hours: int, **cols: Any) -> Series:
     names = {"load": "load [MW]", "price_import": "price:import [per MWh]",
              "price_export": "price:export [per MWh]", "price_co2": "price:co2 [per t]"}
     data: dict[str, list[str]] = {"time": [str(t) for t in pd.date_range("2027-03-01", periods=hours, freq="h")]}
+    for h in cfg.headers:  # the series needs every header's demand column
+        cols.setdefault(f"demand_{h.id}", 0.0)
     cols.setdefault("load", 5.0)
     cols.setdefault("price_import", 100.0)
     for k, v in cols.items():

@@ -7,7 +7,8 @@ File layout (CSV, or the first sheet of an Excel workbook), one row per hour::
 Every column but ``time`` names its unit in brackets; values are converted to the internal
 units on load. ``price:fuel:<id>``, ``price:co2``, ``price:export`` and ``duty:<drive>`` are
 optional: a missing fuel price or drive duty falls back to the site file, a missing CO2 or
-export price to zero. Demand may be negative (a process waste-heat boiler exporting steam).
+export price to zero. Every header needs a demand column (zeros where it has no process
+demand). Demand may be negative (a process waste-heat boiler exporting steam).
 """
 
 from __future__ import annotations
@@ -146,7 +147,10 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
             return pd.Series(np.full(n, default), index=idx)
         return pd.Series(s.to_numpy(), index=idx)
 
-    demand = pd.DataFrame({h.id: col_or("demand", h.id, 0.0, "") for h in site.headers}, index=idx)
+    # every header needs its column: a forgotten one would silently plan for no demand
+    demand = pd.DataFrame({h.id: col_or("demand", h.id, None, f"the process steam demand of header '{h.id}', "
+                                        f"e.g. 'demand:{h.id} [t/h]' (a column of zeros if it has none)")
+                           for h in site.headers}, index=idx)
     load = col_or("load", "", None, "the site electric load, e.g. 'load [MW]'")
     if (load < 0).any():
         row = int(np.argmax(load.to_numpy() < 0))
