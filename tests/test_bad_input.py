@@ -402,3 +402,28 @@ def test_out_path_that_is_a_file_is_refused(demo_site: Path, demo_series: Path, 
     assert "Traceback" not in cap.out + cap.err
     assert "results.txt" in cap.err and "not a folder" in cap.err
     assert out.read_text() == "keep me\n"
+
+
+def test_out_below_a_file_is_refused_before_solving(demo_site: Path, demo_series: Path, tmp_path: Path,
+                                                    capsys: pytest.CaptureFixture[str]) -> None:
+    (tmp_path / "a_file").write_text("keep me\n")
+    out = tmp_path / "a_file" / "results"
+    rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out)])
+    cap = capsys.readouterr()
+    assert rc == 2, cap.err
+    assert "Traceback" not in cap.out + cap.err
+    assert "results" in cap.err and "--out" in cap.err and "not a folder" in cap.err
+    assert "HiGHS" not in cap.out  # refused before the solve
+    assert (tmp_path / "a_file").read_text() == "keep me\n"
+
+
+@pytest.mark.skipif(not Path("/proc/self").is_dir(), reason="needs Linux's /proc, where no folder can be made")
+def test_out_that_cannot_be_written_is_refused_before_solving(demo_site: Path, demo_series: Path,
+                                                              capsys: pytest.CaptureFixture[str]) -> None:
+    # /proc refuses new entries even to root, so this holds whoever runs the tests
+    rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", "/proc/cogen_results"])
+    cap = capsys.readouterr()
+    assert rc == 2, cap.err
+    assert "Traceback" not in cap.out + cap.err
+    assert "cogen_results" in cap.err and "cannot be written" in cap.err
+    assert not list(Path("/proc").glob(".cogen_results*"))

@@ -76,6 +76,18 @@ def test_killed_runs_never_leave_a_partial_output(tmp_path) -> None:  # noqa: AN
         assert (out / "summary.json").read_text().strip().endswith("}")
 
 
+def test_output_folder_gets_the_usual_mode(tmp_path) -> None:  # noqa: ANN001
+    # the temporary folder is private while it is written; the results are for the team
+    from cogendispatch.outputs import atomic_dir
+
+    old = os.umask(0o022)
+    try:
+        out = atomic_dir(tmp_path / "shared", lambda d: (d / "summary.json").write_text("{}"))
+    finally:
+        os.umask(old)
+    assert out.stat().st_mode & 0o777 == 0o755
+
+
 def test_two_runs_at_once_do_not_interfere(tmp_path) -> None:  # noqa: ANN001
     site, ser = _files(tmp_path)
     env = dict(os.environ, PYTHONPATH=str(ROOT / "model") + os.pathsep + os.environ.get("PYTHONPATH", ""))

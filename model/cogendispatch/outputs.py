@@ -17,12 +17,24 @@ MARKER = "summary.json"  # a folder holding this was written by cogendispatch
 
 
 def check_out_dir(out: Path) -> None:
-    """Refuse to replace a folder that is not an earlier cogendispatch output."""
+    """Refuse, before any work, a folder that is not an earlier cogendispatch output or that
+    cannot be written: the results go into a temporary folder beside it, so one is made and
+    removed again in the nearest folder that exists."""
     if out.exists() and not out.is_dir():
         raise InputError(out, "--out", "exists and is not a folder")
     if out.is_dir() and any(out.iterdir()) and not (out / MARKER).exists():
         raise InputError(out, "--out", "is a non-empty folder that does not hold cogendispatch results; "
                          "choose a new or empty folder (nothing was written)")
+    base = out.parent
+    while not base.exists() and base != base.parent:
+        base = base.parent
+    if not base.is_dir():
+        raise InputError(out, "--out", f"cannot be made: '{base}' is not a folder (nothing was written)")
+    try:
+        os.rmdir(tempfile.mkdtemp(prefix=f".{out.name}.probe-", dir=base))
+    except OSError as exc:
+        raise InputError(out, "--out", f"cannot be written in '{base}': {exc.strerror or exc} "
+                         "(nothing was written)") from None
 
 
 def atomic_dir(out: str | Path, write: Callable[[Path], None]) -> Path:
@@ -33,8 +45,16 @@ def atomic_dir(out: str | Path, write: Callable[[Path], None]) -> Path:
     """
     out = Path(out).resolve()
     check_out_dir(out)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
+    try:
+        out.parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
+    except OSError as exc:
+        raise InputError(out, "--out", f"cannot be written: {exc.strerror or exc} (nothing was written)") from None
+    # mkdtemp makes the folder private (0700); results are for the whole team, so it gets
+    # the mode any new folder would get under the user's umask
+    mask = os.umask(0)
+    os.umask(mask)
+    tmp.chmod(0o777 & ~mask)
     try:
         write(tmp)
         old = None
