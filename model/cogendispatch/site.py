@@ -110,7 +110,7 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
     ctx.cost_terms["penalty"].append(lambda t: sum(
         pen.steam_shortfall * m.steam_short[h, t] + pen.steam_surplus * m.steam_surplus[h, t] for h in H)
         + pen.power_shortfall * m.power_short[t] + pen.power_surplus * m.power_surplus[t]
-        + pen.steam_shortfall * m.reserve_short[t])
+        + pen.reserve_shortfall * m.reserve_short[t])
     m.cost = pyo.Objective(expr=sum(term(t) for terms in ctx.cost_terms.values() for term in terms
                                     for t in hours), sense=pyo.minimize)
     return SiteModel(m, ctx, time.perf_counter() - t0, blocks)

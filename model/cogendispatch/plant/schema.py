@@ -222,6 +222,11 @@ class Penalties(_Table):
     steam_surplus: MassPrice = 1.0e6
     power_shortfall: PowerPrice = 1.0e6  # [currency/MWh]
     power_surplus: PowerPrice = 1.0e6
+    # [currency/t per hour of reserve missing] below the steam shortfall, so that a week whose
+    # demand cannot be met with the reserve held shows the demand met and the reserve short,
+    # not an arbitrary split between the two (with equal prices each t/h of boiler steam
+    # moved from reserve to demand is a wash)
+    reserve_shortfall: MassPrice = 5.0e5
 
 
 class SiteConfig(_Table):
