@@ -40,7 +40,6 @@ def test_constants_sanity():
     [
         ("42 bar(a)", 42.0),
         ("42 bara", 42.0),
-        ("42 bar", 42.0),
         ("40 bar(g)", 40.0 + ATM_BAR),  # gauge + standard atmosphere (ISO 2533)
         ("40 barg", 40.0 + ATM_BAR),  # gauge + standard atmosphere (ISO 2533)
         ("0 bar(g)", ATM_BAR),  # ISO 2533
@@ -216,7 +215,11 @@ def test_price_errors(text, kind, match):
         ("40 bar(g)", "temperature", "gauge pressure"),
         ("abc bar", "pressure", "not a number followed by a unit"),
         ("", "pressure", "not a number followed by a unit"),
-        ("1e400 bar", "pressure", "not a finite number"),
+        ("1e400 bar(a)", "pressure", "not a finite number"),
+        # trade use writes both gauge and absolute pressures as plain bar or psi
+        ("12 bar", "pressure", "does not say gauge or absolute"),
+        ("42 psi", "pressure", "does not say gauge or absolute"),
+        ("120 mbar", "pressure", "does not say gauge or absolute"),
     ],
 )
 def test_parse_quantity_errors(text, kind, match):

@@ -60,6 +60,8 @@ _PRICE_RE = re.compile(rf"^\s*({_NUMBER})\s*(?:per\b|/)\s*(.+?)\s*$")
 
 _GAUGE = {"bar(g)": "bar", "barg": "bar", "psig": "psi", "kpa(g)": "kPa", "kpag": "kPa"}
 _ABS = {"bar(a)": "bar", "bara": "bar", "psia": "psi", "kpa(a)": "kPa", "mpa(a)": "MPa"}
+# pressure units that trade use writes both as gauge and as absolute: refused without the marker
+_AMBIGUOUS = {"bar": "12 bar(a)' or '11 bar(g)", "psi": "150 psig' or '165 psia", "mbar": "120 mbar(a)"}
 _ALIASES = {"°c": "degC", "°f": "degF", "c": "degC", "f": "degF", "tph": "t/h", "klb/hr": "klb/h"}
 
 
@@ -100,6 +102,10 @@ def convert(value: float, unit: str, kind: str) -> float:
     pint_unit, gauge = _normalise_unit(unit)
     if gauge and kind != "pressure":
         raise UnitError(f"'{unit}' is a gauge pressure unit; expected {desc}")
+    key = unit.strip().lower().replace(" ", "")
+    if kind == "pressure" and key in _AMBIGUOUS:
+        # plant drawings use both; 1 bar of difference is about 25 degC of saturation at LP
+        raise UnitError(f"'{unit}' does not say gauge or absolute; write e.g. '{_AMBIGUOUS[key]}'")
     try:
         scale, offset = _factor(pint_unit, target)
     except pint.errors.DimensionalityError:
