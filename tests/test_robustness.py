@@ -88,6 +88,22 @@ def test_output_folder_gets_the_usual_mode(tmp_path) -> None:  # noqa: ANN001
     assert out.stat().st_mode & 0o777 == 0o755
 
 
+def test_json_outputs_are_strict(tmp_path) -> None:  # noqa: ANN001
+    # JSON (RFC 8259) has no NaN or Infinity; a price that flips nothing is null
+    import json
+
+    from cogendispatch.outputs import write_json
+
+    write_json({"flip": float("nan"), "gap": np.float64("inf"), "rows": [np.float64(1.5), None], "n": np.int64(3)},
+               tmp_path / "a.json")
+    text = (tmp_path / "a.json").read_text()
+
+    def refuse(name: str) -> None:
+        raise ValueError(name)
+
+    assert json.loads(text, parse_constant=refuse) == {"flip": None, "gap": None, "rows": [1.5, None], "n": 3}
+
+
 def test_two_runs_at_once_do_not_interfere(tmp_path) -> None:  # noqa: ANN001
     site, ser = _files(tmp_path)
     env = dict(os.environ, PYTHONPATH=str(ROOT / "model") + os.pathsep + os.environ.get("PYTHONPATH", ""))

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import math
 import os
 import shutil
 import tempfile
@@ -92,5 +93,20 @@ def write_csv(df: pd.DataFrame, path: Path, index: bool = True) -> None:
     quote_formulas(df).to_csv(path, index=index, float_format="%.12g")
 
 
+def _strict(obj: object) -> object:
+    """``obj`` with NaN and infinities as null: JSON has no such numbers, and strict parsers
+    refuse the NaN that Python's json writes by default."""
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: _strict(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_strict(v) for v in obj]
+    if hasattr(obj, "item") and not isinstance(obj, (str, bytes)):  # numpy scalars
+        return _strict(obj.item())
+    return obj
+
+
 def write_json(obj: object, path: Path) -> None:
-    path.write_text(json.dumps(obj, indent=2, default=str) + "\n", encoding="utf-8")
+    """Strict JSON (no NaN: missing numbers are null), indented."""
+    path.write_text(json.dumps(_strict(obj), indent=2, default=str, allow_nan=False) + "\n", encoding="utf-8")

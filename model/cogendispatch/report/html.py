@@ -59,6 +59,11 @@ def _chart(svg: str) -> str:
     return f"<div class='chart'>{svg}</div>"
 
 
+def _num(x: object) -> float:
+    """A number from summary.json, where a missing one (no bound, an infinite gap) is null."""
+    return float("nan") if x is None else float(x)  # type: ignore[arg-type]
+
+
 def plan_report(d: Path, units: Units = Units()) -> str:
     """The plan page, built from the files of a plan folder."""
     s = json.loads((d / "summary.json").read_text(encoding="utf-8"))
@@ -69,8 +74,8 @@ def plan_report(d: Path, units: Units = Units()) -> str:
     cur = escape(str(s.get("currency", "")))
     sec = s.get("seconds", {})
     meta = (f"{escape(s.get('site_name', ''))} &middot; {s['hours']} h from {escape(str(s.get('first_hour')))} &middot; "
-            f"status <b>{escape(str(s['status']))}</b>, gap {100 * float(s['gap']):.2f} %, cost "
-            f"{float(s['objective']):,.0f} {cur}, bound {float(s['bound']):,.0f} &middot; build {sec.get('build', 0):.1f} s, "
+            f"status <b>{escape(str(s['status']))}</b>, gap {100 * _num(s['gap']):.2f} %, cost "
+            f"{_num(s['objective']):,.0f} {cur}, bound {_num(s['bound']):,.0f} &middot; build {sec.get('build', 0):.1f} s, "
             f"load {sec.get('load', 0):.1f} s, solve {sec.get('solve', 0):.1f} s, total {sec.get('total', 0):.1f} s")
     body: list[str] = []
     if s.get("diagnosis"):
