@@ -187,3 +187,27 @@ def test_cengel_example_10_8_c_process_heat_and_utilisation_factor():
     q_in = 15.0 * (h1 - h4) / 1000
     assert w_turbine - w_pumps == pytest.approx(11.0, rel=5e-3)
     assert (w_turbine - w_pumps + q_process) / q_in == pytest.approx(0.865, rel=5e-3)
+
+
+@pytest.mark.parametrize("width", [80, 120])
+def test_inspect_fits_the_terminal_without_cutting_a_number(width: int, monkeypatch: pytest.MonkeyPatch,
+                                                            capsys: pytest.CaptureFixture[str]) -> None:
+    # a number cut to '3,5…' reads as another number: wide tables are split instead
+    from pathlib import Path
+
+    from rich.console import Console
+
+    from cogendispatch import cli
+
+    class Terminal(Console):
+        def __init__(self, *args: object, **kwargs: object) -> None:
+            super().__init__(*args, **{**kwargs, "width": width, "force_terminal": True, "color_system": None})
+
+    monkeypatch.setattr(cli, "Console", Terminal)
+    site_file = Path(__file__).resolve().parents[1] / "plant_configs" / "saltmarsh_refinery.toml"
+    assert cli.main(["inspect", str(site_file)]) == 0
+    text = capsys.readouterr().out
+    assert "…" not in text
+    assert max(len(line) for line in text.splitlines()) <= width
+    # the wet gas compressor's and the air blower's duty [kW], and B4's curve note, whole
+    assert "3,500" in text and "5,000" in text and "convex hull, up to 0.002 % below the curve" in text

@@ -14,6 +14,7 @@ import time
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+import numpy as np
 import pandas as pd
 from rich.console import Console
 from rich.markup import escape
@@ -333,15 +334,36 @@ def _fmt(x: object) -> str:
     return "" if x is None else str(x)
 
 
+def _is_number(x: object) -> bool:
+    return isinstance(x, (int, float, np.integer, np.floating)) and not isinstance(x, bool)
+
+
 def _table(console: Console, title: str, df: pd.DataFrame) -> None:
-    t = Table(title=Text(title), title_justify="left")
-    for c in df.columns:
-        first = c == df.columns[0]
-        t.add_column(Text(str(c)), justify="right" if pd.api.types.is_numeric_dtype(df[c]) else "left",
-                     no_wrap=first, min_width=max(len(str(v)) for v in [c, *df[c].tolist()]) if first else None)
-    for _, row in df.iterrows():
-        t.add_row(*[Text(_fmt(v)) for v in row.tolist()])
-    console.print(t)
+    """A table on the terminal, no cell ever cut or wrapped (a cut number reads as another
+    number): when the columns do not fit the width they go into several tables, each
+    repeating the first column."""
+    cells = [[_fmt(v) for v in df[c].tolist()] for c in df.columns]
+    widths = [max(len(v) for v in [str(c), *col]) for c, col in zip(df.columns, cells)]
+    numeric = [pd.api.types.is_numeric_dtype(df[c]) or all(_is_number(v) or v is None for v in df[c].tolist())
+               for c in df.columns]
+    groups: list[list[int]] = [[]]
+    used = widths[0] + 4 if widths else 0  # borders and padding: 3 a column, 1 at the end
+    for j in range(1, len(widths)):
+        if groups[-1] and used + widths[j] + 3 > console.width:
+            groups.append([])
+            used = widths[0] + 4
+        groups[-1].append(j)
+        used += widths[j] + 3
+    for k, group in enumerate(groups):
+        cols = [0, *group] if widths else []
+        name = title if k == 0 else f"{title} (continued)"
+        t = Table(title=Text(name), title_justify="left")
+        for j in cols:
+            t.add_column(Text(str(df.columns[j])), justify="right" if numeric[j] else "left", no_wrap=True,
+                         min_width=widths[j])
+        for i in range(len(df)):
+            t.add_row(*[Text(cells[j][i]) for j in cols])
+        console.print(t)
 
 
 def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
@@ -428,7 +450,10 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 def main(argv: list[str] | None = None) -> int:
     out = Console()
-    err = Console(stderr=True)
+    if not out.is_terminal:
+        # piped or redirected: a file has no width to fit, and cut numbers mislead
+        out = Console(width=max(out.width, 240))
+    err = Console(stderr=True, soft_wrap=True)  # one message a line, whole, for logs and grep
     try:
         args = build_parser().parse_args(argv)
         if args.command == "inspect":
