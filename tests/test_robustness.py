@@ -164,7 +164,9 @@ def test_random_valid_sites_solve_or_are_diagnosed(case, scale: float) -> None: 
     sums = res.balances.groupby(["time", "header"]).flow_t_h.sum()
     assert np.abs(sums.to_numpy()).max() < 1e-6  # closed, slacks included
     short = res.balances[res.balances.term.str.startswith("shortfall")].flow_t_h.abs().max()
-    assert (short > 1e-5) == any("short" in d for d in res.diagnosis)
+    assert (short > 1e-5) == any("header short" in d for d in res.diagnosis)
+    reserve_short = max(sm.model.reserve_short[t].value or 0.0 for t in sm.model.T)
+    assert (reserve_short > 1e-5) == any(d.startswith("steam reserve short") for d in res.diagnosis)
     assert rep.has_solution
 
 

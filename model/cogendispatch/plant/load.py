@@ -37,7 +37,8 @@ def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
                 if isinstance(seq, list) and nxt < len(seq):
                     item = seq[nxt]
             ident = item.get("id") if isinstance(item, dict) else None
-            label = f"[[{name}]] #{nxt + 1}"
+            # a table of tables reads [[boiler]] #2; a list of values, efficiency (value 4)
+            label = f"[[{name}]] #{nxt + 1}" if isinstance(item, dict) else f"{name} (value {nxt + 1})"
             if ident is not None:
                 label += f" (id '{ident}')"
             parts.append(label)
@@ -50,15 +51,31 @@ def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
     return " > ".join(parts) if parts else "(top level)"
 
 
+# the validation library's wording, in the words of the site file's reader
+_LIMIT_WORDS = {"less_than_equal": "at most", "less_than": "below", "greater_than_equal": "at least",
+                "greater_than": "above"}
+_TYPE_WORDS = {"float_parsing": "a number", "float_type": "a number", "int_parsing": "a whole number",
+               "int_type": "a whole number", "int_from_float": "a whole number", "bool_parsing": "true or false",
+               "bool_type": "true or false", "string_type": "text in quotes", "list_type": "a list [...]",
+               "dict_type": "a table", "model_type": "a table", "model_attributes_type": "a table"}
+
+
 def validation_problems(path: Path, raw: dict[str, Any], err: ValidationError) -> list[InputError]:
     out = []
     for e in err.errors():
         loc = tuple(x for x in e["loc"] if not (isinstance(x, str) and x.startswith("function-")))
         msg = e["msg"]
-        if e["type"] == "extra_forbidden":
+        kind, ctx, given = e["type"], e.get("ctx") or {}, e.get("input")
+        if kind == "extra_forbidden":
             msg = "unknown key (check the spelling; see plant_configs/ for a complete example)"
-        elif e["type"] == "missing":
+        elif kind == "missing":
             msg = "required key is missing"
+        elif kind in _LIMIT_WORDS:
+            limit = next(iter(ctx.values()), "")
+            msg = f"{given!r} must be {_LIMIT_WORDS[kind]} {limit:g}" if isinstance(limit, (int, float)) \
+                else f"{given!r} must be {_LIMIT_WORDS[kind]} {limit}"
+        elif kind in _TYPE_WORDS:
+            msg = f"{given!r} is not {_TYPE_WORDS[kind]}"
         msg = msg.removeprefix("Value error, ")
         out.append(InputError(path, _describe_loc(raw, loc), msg))
     return out
