@@ -9,6 +9,7 @@ is invalid input, so nothing is solved and the ``--out`` folder is never created
 from __future__ import annotations
 
 import re
+import tomllib
 from pathlib import Path
 from typing import Callable
 
@@ -358,10 +359,16 @@ def test_usage_error_exits_2(argv: list[str], expected: str, capsys: pytest.Capt
     assert "Traceback" not in err
 
 
+PROJECT_VERSION = tomllib.loads((Path(__file__).resolve().parents[1] / "pyproject.toml").read_text())["project"]["version"]
+
+
 @pytest.mark.parametrize(("argv", "expected"), [
     pytest.param(["--help"], ["usage: cogen", "inspect", "plan"], id="cogen"),
     pytest.param(["plan", "--help"], ["usage: cogen plan", "--series", "--out", "--gap"], id="plan"),
     pytest.param(["inspect", "--help"], ["usage: cogen inspect", "--csv"], id="inspect"),
+    pytest.param(["advise", "--help"], ["usage: cogen advise", "--force MACHINE=steam|motor", "what if this machine"],
+                 id="advise"),
+    pytest.param(["--version"], [f"cogen {PROJECT_VERSION}"], id="version"),
 ])
 def test_help_exits_0(argv: list[str], expected: list[str], capsys: pytest.CaptureFixture[str]) -> None:
     with pytest.raises(SystemExit) as exc:

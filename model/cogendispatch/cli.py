@@ -70,9 +70,19 @@ def _site_and_series(p: argparse.ArgumentParser, series_help: str) -> None:
     p.add_argument("--series", required=True, help=series_help)
 
 
+def _version() -> str:
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("cogendispatch")
+    except PackageNotFoundError:  # run from the source tree without installing
+        return "(not installed)"
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="cogen", description="Cogeneration dispatch optimiser for industrial steam and power "
                 "plants. " + SAFETY_NOTE)
+    p.add_argument("--version", action="version", version=f"cogen {_version()}")
     sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
     ins = sub.add_parser("inspect", help="validate a site file and print the linear coefficients it yields",
@@ -84,8 +94,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     pl = sub.add_parser("plan", help="lowest-cost hourly schedule for the hours of a series",
                         description="Plan every unit hour by hour for the hours in --series and write "
-                        "schedule.csv, balances.csv, power.csv, costs.csv and summary.json into --out "
-                        "(whole or not at all).")
+                        "schedule.csv, balances.csv, power.csv, costs.csv, verify.csv, verify_sections.csv, "
+                        "summary.json, report.html and plan.xlsx into --out (whole or not at all).")
     _site_and_series(pl, "hourly demands and prices (CSV or Excel)")
     pl.add_argument("--out", required=True, help="output folder (created, or replaced if it holds earlier results)")
     pl.add_argument("--gap", type=_positive, default=1e-3, help="relative MIP gap to stop at (default 0.001 = 0.1 %%)")
@@ -112,7 +122,7 @@ def build_parser() -> argparse.ArgumentParser:
     sd.add_argument("--time-limit", type=_positive, default=1.5,
                     help="solver time per window [s] (default 1.5); a window starts from the week before and "
                          "more time lets it improve further; a window with nothing to start from gets at "
-                         "least 15 s, one needing a newly built model at least 6 s")
+                         "least 20 s, one needing a newly built model at least 6 s")
     sd.add_argument("--workers", type=_count, default=None, help="local worker processes (default: one per core)")
     sd.add_argument("--cluster", metavar="ADDRESS", help="send the scenarios to this Dask scheduler instead")
     sd.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
@@ -140,14 +150,15 @@ def build_parser() -> argparse.ArgumentParser:
     _site_and_series(ad, "hourly demands and prices (CSV or Excel)")
     ad.add_argument("--at", required=True, help="the hour, as written in the series' time column")
     ad.add_argument("--plan", metavar="DIR", help="hold the on/off states of this plan's schedule.csv")
-    ad.add_argument("--force", action="append", default=[], metavar="MACHINE=steam|motor")
+    ad.add_argument("--force", action="append", default=[], metavar="MACHINE=steam|motor",
+                    help="what if this machine ran on its steam turbine or on its motor (repeatable)")
     ad.add_argument("--trip", action="append", default=[], metavar="UNIT", help="a boiler or turbo-generator out")
     ad.add_argument("--price", action="append", default=[], metavar="WHAT=VALUE",
                     help="import=, export= [per MWh] or fuel:ID= [per GJ]")
     ad.add_argument("--demand", action="append", default=[], metavar="HEADER=+-T_H",
                     help="change a header's process demand [t/h]")
     ad.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
-    ad.add_argument("--out", help="also write advice.json, prices.csv and drivers.csv here")
+    ad.add_argument("--out", help="also write advice.json, prices.csv, drivers.csv and summary.json here")
     ad.add_argument("--json", action="store_true", help="print advice.json to standard output")
     return p
 
@@ -223,13 +234,16 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                            for h, v in a.prices.items()]
                           + [{"header": "power", f"marginal price [{cur}/t]": a.power_price,
                               "set by": a.power_reason.split(": ", 1)[1] + f" [{cur}/MWh]"}])
-        _table(out, f"Marginal prices at {a.time} (hour cost {a.cost:,.0f} {cur})", pr)
+        # the prices and the driver table are the hour as given; the what-if is its own line
+        given = ", as given (before the what-if below)" if a.what_if else ""
+        _table(out, f"Marginal prices at {a.time} (hour cost {a.cost:,.0f} {cur}{given})", pr)
         if not a.drivers.empty:
             dt = a.drivers[["machine", "now_on_steam", "cost_on_steam", "cost_on_motor", "saving", "better",
                             "flip_import_price", "marginal_estimate"]].copy()
             dt.columns = ["machine", "now on steam", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
                           f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", "marginal estimate"]
-            _table(out, "Turbine or motor", dt.astype(object).where(dt.notna(), "none in range"))
+            _table(out, "Turbine or motor" + (" (hour as given)" if a.what_if else ""),
+                   dt.astype(object).where(dt.notna(), "none in range"))
         if a.what_if:
             wi = a.what_if
             out.print(Text(f"what-if: hour cost {wi['cost']:,.0f} {cur} ({wi['change']:+,.0f} against "
