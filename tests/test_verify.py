@@ -140,3 +140,22 @@ def test_cli_verify_updates_a_plan_folder(tmp_path) -> None:  # noqa: ANN001
     assert main(["verify", str(out)]) == 0
     assert (out / "verify.csv").is_file()
     assert main(["verify", str(tmp_path)]) == 2  # not a plan folder
+
+
+def test_willans_heat_in_a_back_pressure_exhaust_by_hand() -> None:
+    """A back-pressure set's whole Willans loss W0 / eta_gen heats its exhaust; the header
+    then makes W0 / eta_gen * 3600 / (h_LP - h_fw) t/h more steam by desuperheating
+    (first law on the header, SiteStates.arrival_ratio), which the verdict names."""
+    tg = {"id": "T", "inlet": "HP", "max_throttle": "60 t/h", "generator_rating": "8 MW", "no_load_loss": "0.3 MW",
+          "generator_efficiency": 0.96, "section": [{"to": "LP", "efficiency": 0.75}], "initial_on": True}
+    cfg = site(turbogenerator=[tg])
+    ser = series(cfg, 2, demand_LP=[40, 50], price_import=300.0)
+    sm = build_site_model(cfg, ser)
+    solve(sm, SolveOptions(gap=1e-6))
+    res = plan_results(sm)
+    assert (res.schedule["T.on"] > 0.5).all()
+    v = verify_schedule(cfg, ser, res.schedule)
+    st = SiteStates.of(cfg)
+    by_hand = 0.3 / 0.96 * 3600.0 / (st.headers["LP"].h - st.h_feedwater)
+    assert v.hourly["LP_exhaust_water_t_h"].to_numpy() == pytest.approx([by_hand, by_hand], rel=1e-6)
+    assert "Willans loss" in v.verdict and "LP" in v.verdict

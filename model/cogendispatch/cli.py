@@ -463,10 +463,10 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 
 def main(argv: list[str] | None = None) -> int:
-    out = Console()
+    out = Console(soft_wrap=True)  # messages whole, one a line; tables fit the width themselves
     if not out.is_terminal:
         # piped or redirected: a file has no width to fit, and cut numbers mislead
-        out = Console(width=max(out.width, 240))
+        out = Console(width=max(out.width, 240), soft_wrap=True)
     err = Console(stderr=True, soft_wrap=True)  # one message a line, whole, for logs and grep
     try:
         args = build_parser().parse_args(argv)
