@@ -30,6 +30,10 @@ def plan_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
 def test_report_and_workbook_are_written(plan_dir: Path) -> None:
     assert (plan_dir / "report.html").stat().st_size > 10_000
     assert (plan_dir / "plan.xlsx").is_file()
+    # hourly marginal prices: every hour, each header and the electric bus
+    pr = pd.read_csv(plan_dir / "prices.csv")
+    assert len(pr) == 6 * 3 and set(pr.balance) == {"HP", "LP", "power"} and pr.price.notna().all()
+    assert "Marginal steam price by header" in (plan_dir / "report.html").read_text()
 
 
 def test_names_are_escaped(plan_dir: Path) -> None:
@@ -43,7 +47,9 @@ def test_names_are_escaped(plan_dir: Path) -> None:
 
 def test_workbook_reads_back_like_the_csv_files(plan_dir: Path) -> None:
     xl = pd.read_excel(plan_dir / "plan.xlsx", sheet_name=None)
-    assert set(xl) == {"summary", "schedule", "header balances", "electric balance", "drivers"}
+    assert set(xl) == {"summary", "schedule", "header balances", "electric balance", "drivers", "costs", "prices",
+                       "verification"}
+    pd.testing.assert_frame_equal(xl["prices"], pd.read_csv(plan_dir / "prices.csv"), check_dtype=False)
     sched = pd.read_csv(plan_dir / "schedule.csv")
     got = xl["schedule"]
     assert list(got.columns) == list(sched.columns)

@@ -94,12 +94,14 @@ def build_parser() -> argparse.ArgumentParser:
 
     pl = sub.add_parser("plan", help="lowest-cost hourly schedule for the hours of a series",
                         description="Plan every unit hour by hour for the hours in --series and write "
-                        "schedule.csv, balances.csv, power.csv, costs.csv, verify.csv, verify_sections.csv, "
+                        "schedule.csv, balances.csv, power.csv, costs.csv, prices.csv, verify.csv, verify_sections.csv, "
                         "summary.json, report.html and plan.xlsx into --out (whole or not at all).")
     _site_and_series(pl, "hourly demands and prices (CSV or Excel)")
     pl.add_argument("--out", required=True, help="output folder (created, or replaced if it holds earlier results)")
     pl.add_argument("--gap", type=_positive, default=1e-3, help="relative MIP gap to stop at (default 0.001 = 0.1 %%)")
-    pl.add_argument("--time-limit", type=_positive, default=120.0, help="solver time limit [s] (default 120)")
+    pl.add_argument("--time-limit", type=_positive, default=120.0,
+                    help="time for the search [s] (default 120); reading, building, the re-check, the "
+                         "baseline and the report come on top")
     pl.add_argument("--threads", type=_count, default=1,
                     help="threads for the solve (default 1); with 2 or more, one builds and improves "
                          "schedules beside HiGHS, which gets the rest: better results in the same time")

@@ -7,15 +7,18 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
+import pandas as pd
+
 from .baseline import practice_baseline, savings
 from .outputs import atomic_dir, check_out_dir, write_csv, write_json
 from .plant.load import load_site
 from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
+from .prices import hourly_prices
 from .report import write_reports
 from .results import PlanResults, plan_results
 from .site import BuildOptions, SiteModel, build_site_model
-from .solve import SolveOptions, SolveReport, solve
+from .solve import SolveOptions, SolveReport, solve_loaded
 from .verify import MOISTURE_LIMIT, Verification, verify_schedule
 
 SAFETY_NOTE = ("Advice only: cogendispatch does not operate the plant. Equipment limits, protection "
@@ -32,6 +35,7 @@ class PlanRun:
     summary: dict[str, object]
     verification: Verification | None = None
     units: str = "si"  # report units: "si" or "us"
+    prices: pd.DataFrame | None = None  # hourly marginal prices (prices.hourly_prices)
 
 
 def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, series: Series,
@@ -87,10 +91,14 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     say(f"read the site and {series.hours} hours of series in {read_s:.2f} s; building the model")
     sm = build_site_model(cfg, series, build_options)
     say(f"model built in {sm.build_seconds:.2f} s")
-    rep = solve(sm, solve_options, progress=say)
+    lm, rep = solve_loaded(sm, solve_options, progress=say)
     rep.seconds["read"] = read_s
     say(f"{rep.status}: cost {rep.objective:,.0f}, gap {100 * rep.gap:.3f} %")
     res = plan_results(sm)
+    say("pricing steam and power hour by hour (the LP around the schedule)")
+    t1 = time.perf_counter()
+    prices = hourly_prices(lm, lm.schedule) if lm.schedule is not None else None
+    rep.seconds["prices"] = time.perf_counter() - t1
     say("re-checking the schedule with IAPWS-IF97 physics")
     ver = verify_schedule(cfg, series, res.schedule, moisture_limit)
     summary = summary_dict(rep, res, cfg, series, str(site_path), str(series_path))
@@ -100,7 +108,7 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     base = practice_baseline(cfg, series, build_options, time_limit=solve_options.time_limit)
     summary["baseline"] = {"cost": base.cost, "cost_total": base.total, "diagnosis": base.results.diagnosis,
                            "saving": savings(res.totals["cost"], base.cost)}
-    run = PlanRun(cfg, series, sm, rep, res, summary, ver, units)
+    run = PlanRun(cfg, series, sm, rep, res, summary, ver, units, prices)
     if out is not None:
         atomic_dir(out, lambda d: write_plan_files(run, d))
         say(f"wrote {Path(out)}")
@@ -155,5 +163,7 @@ def write_plan_files(run: PlanRun, d: Path) -> None:
     if run.verification is not None:
         write_csv(run.verification.hourly, d / "verify.csv")
         write_csv(run.verification.sections, d / "verify_sections.csv", index=False)
+    if run.prices is not None:
+        write_csv(run.prices, d / "prices.csv", index=False)
     write_json(run.summary, d / "summary.json")
     write_reports(d, run.units)

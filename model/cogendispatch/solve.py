@@ -655,9 +655,16 @@ def solve(sm: SiteModel, options: SolveOptions = SolveOptions(), progress: Progr
     ------
     SolveError when the solver stops with no schedule at all.
     """
+    return solve_loaded(sm, options, progress)[1]
+
+
+def solve_loaded(sm: SiteModel, options: SolveOptions = SolveOptions(),
+                 progress: Progress | None = None) -> tuple[LoadedModel, SolveReport]:
+    """:func:`solve`, also returning the loaded model (its ``schedule`` holds the column
+    values) for work on the same instance afterwards, such as the marginal prices."""
     lm = LoadedModel(sm, threads=options.highs_threads)
     rep = lm.solve_mip(options, progress)
     if not rep.has_solution:
         raise SolveError(f"HiGHS stopped ({rep.status}) without any schedule; "
                          "try a longer --time-limit or check the site for contradictory limits")
-    return rep
+    return lm, rep

@@ -44,6 +44,11 @@ def write_plan_xlsx(d: Path, path: Path) -> None:
         _sheet(w, "header balances", pd.read_csv(d / "balances.csv"), index=False)
         _sheet(w, "electric balance", pd.read_csv(d / "power.csv"), index=False)
         _sheet(w, "drivers", drivers, index=False)
+        # the other tables of the folder, where the run wrote them
+        for name, file, index in (("costs", "costs.csv", "time"), ("prices", "prices.csv", None),
+                                  ("verification", "verify.csv", "time")):
+            if (d / file).is_file():
+                _sheet(w, name, pd.read_csv(d / file, index_col=index), index=index is not None)
 
 
 def write_study_xlsx(d: Path, path: Path) -> None:

@@ -119,8 +119,17 @@ def plan_report(d: Path, units: Units = Units()) -> str:
     daily = cost.groupby(cost.index.date).sum()
     body.append(f"<h2>Cost by day [{cur}]</h2>" + _chart(plots.stacked_bars(daily, "Cost by category per day",
                                                                            f"cost [{s.get('currency', '')}/day]")))
-    body.append("<h2>Marginal steam prices</h2><p>Not computed for a plan: run <code>cogen advise</code> "
-                "for an hour to see the marginal cost of steam in each header.</p>")
+    if (d / "prices.csv").is_file():
+        pr = pd.read_csv(d / "prices.csv", parse_dates=["time"])
+        wide = pr.pivot(index="time", columns="balance", values="price")
+        steam = wide.drop(columns="power", errors="ignore") / units.kf  # per t -> per klb in US units
+        mass = "klb" if units.us else "t"
+        body.append("<h2>Marginal prices</h2><p>What one more unit of steam in a header, or of site "
+                    "load, would have cost in each hour with every unit's on/off and driver held "
+                    "(<code>prices.csv</code>); near zero where a header vents or lets down surplus.</p>")
+        body.append(_chart(plots.lines(steam, "Marginal steam price by header", f"[{cur}/{mass}]", step=True)))
+        if "power" in wide:
+            body.append(_chart(plots.lines(wide[["power"]], "Marginal power price", f"[{cur}/MWh]", step=True)))
     fuel = sum(sched[c] for c in sched.columns if c.endswith(".fuel_GJ_h")) * units.ke
     body.append(f"<p class='meta'>fuel {float(fuel.sum()):,.0f} {units.energy}, import {s['import_MWh']:,.0f} MWh, "
                 f"export {s['export_MWh']:,.0f} MWh, CO2 {s['co2_t']:,.0f} t</p>")

@@ -1,0 +1,63 @@
+"""Hourly marginal prices of a plan: what one more t/h of steam in each header, or one more
+MW of site load, would have cost in each hour of the chosen schedule.
+
+They are the duals of the header and electric balances in the LP that remains when every
+on/off and driver decision is held at the schedule (the continuous re-dispatch around it):
+the price a planner would put on a process change too small to move any unit's status.
+A header whose price is near zero is venting or letting down surplus; a price near the
+boilers' fuel per tonne means the marginal steam comes from a boiler. A header's price is
+for steam delivered to it; condensate the process sends back is credited at the deaerator,
+not in this price.
+
+References
+----------
+Bertsimas & Tsitsiklis, Introduction to Linear Optimization (1997), sec. 5.2 (dual prices as
+the sensitivity of the optimal cost to the right-hand side).
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import highspy
+import numpy as np
+import pandas as pd
+
+if TYPE_CHECKING:
+    from .solve import LoadedModel
+
+
+def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> pd.DataFrame | None:
+    """Marginal prices of the schedule ``x`` (column values of ``lm``), tidy: one row per hour
+    and balance, columns ``time``, ``balance`` (a header id or ``power``), ``price`` and
+    ``unit`` ([currency/t] for a header, [currency/MWh] for power). None when the LP does
+    not solve within ``time_limit`` [s]. ``lm`` is left as it was.
+
+    A balance row 'terms - demand == 0' is loaded with its bounds at the demand, so the dual
+    of the row is d(cost)/d(demand): the price of one more t/h (or MW) demanded.
+    """
+    sm = lm.sm
+    m, hours = sm.model, sm.ctx.hours
+    cmap = lm.opt._pyomo_con_to_solver_con_map
+    rows = {(h.id, t): cmap.get(m.header_balance[h.id, t]) for h in sm.ctx.cfg.headers for t in hours}
+    rows.update({("power", t): cmap.get(m.power_balance[t]) for t in hours})
+    ints = lm.int_cols.astype(np.int32)
+    vals = np.round(x[ints])
+    h: highspy.Highs = lm.h
+    try:
+        h.changeColsBounds(len(ints), ints, vals, vals)
+        lm._set_integrality(False)
+        lm._run(time_limit)
+        ok = h.getModelStatus() == highspy.HighsModelStatus.kOptimal
+        dual = np.array(h.getSolution().row_dual, dtype=float) if ok else None
+    finally:
+        lm._set_integrality(True)
+        h.changeColsBounds(len(ints), ints, lm.col_lower[ints], lm.col_upper[ints])
+    if dual is None:
+        return None
+    cur = sm.ctx.cfg.site.currency
+    time = sm.ctx.series.time
+    out = [{"time": time[t], "balance": b, "price": float(dual[r]) if r is not None else float("nan"),
+            "unit": f"{cur}/MWh" if b == "power" else f"{cur}/t"}
+           for (b, t), r in rows.items()]
+    return pd.DataFrame(out).sort_values(["time", "balance"], kind="stable").reset_index(drop=True)

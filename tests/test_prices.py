@@ -1,0 +1,57 @@
+"""Hourly marginal prices of a plan (duals of the LP around the schedule) against finite
+differences of the whole plan: one more t/h of demand, or MW of load, in one hour."""
+
+from __future__ import annotations
+
+import pytest
+
+from cogendispatch.prices import hourly_prices
+from cogendispatch.site import build_site_model
+from cogendispatch.solve import SolveOptions, solve, solve_loaded
+from tiny import series, site
+
+LP_DEMAND = [30.0, 45.0, 38.0]
+
+
+def _cfg():  # noqa: ANN202
+    # a boiler on a curved efficiency (working between its points) and a back-pressure set,
+    # so neither price is simply fuel per tonne
+    boilers = [{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "160 t/h", "min_steam": "16 t/h",
+                "efficiency_curve": {"load": [0.1, 0.4, 1.0], "efficiency": [0.80, 0.86, 0.84]}, "initial_on": True}]
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "30 t/h", "generator_rating": "8 MW", "initial_on": True,
+          "section": [{"to": "LP", "efficiency": 0.75}]}
+    # no condensate comes back from the process, so one more t/h demanded changes the header
+    # balance alone, as the dual prices it (a return would also credit the deaerator)
+    deaerator = {"pressure": "2 bar(a)", "heating_steam": "LP", "makeup_temperature": "20 degC",
+                 "makeup_cost": "0.5 per t", "process_condensate_return": 0.0, "condensate_temperature": "80 degC"}
+    return site(boiler=boilers, turbogenerator=[tg], deaerator=deaerator)
+
+
+def _cost(cfg, demand_lp: list[float], load: list[float]) -> float:  # noqa: ANN001
+    sm = build_site_model(cfg, series(cfg, 3, demand_LP=demand_lp, load=load, price_import=90.0))
+    return solve(sm, SolveOptions(gap=1e-9, time_limit=60)).objective
+
+
+def test_prices_equal_finite_differences() -> None:
+    cfg = _cfg()
+    load = [9.0, 9.0, 9.0]
+    sm = build_site_model(cfg, series(cfg, 3, demand_LP=LP_DEMAND, load=load, price_import=90.0))
+    lm, rep = solve_loaded(sm, SolveOptions(gap=1e-9, time_limit=60))
+    pr = hourly_prices(lm, lm.schedule)
+    assert pr is not None
+    assert list(pr.columns) == ["time", "balance", "price", "unit"]
+    assert len(pr) == 3 * (len(cfg.headers) + 1)
+    assert set(pr.unit) == {"EUR/t", "EUR/MWh"}
+    base = rep.objective
+    step = 0.2
+    for hour in (0, 1):
+        p = pr.set_index(["time", "balance"]).price
+        t = pr.time.unique()[hour]
+        more = list(LP_DEMAND)
+        more[hour] += step
+        assert p[(t, "LP")] == pytest.approx((_cost(cfg, more, load) - base) / step, rel=2e-3)
+        heavier = list(load)
+        heavier[hour] += step
+        assert p[(t, "power")] == pytest.approx((_cost(cfg, LP_DEMAND, heavier) - base) / step, rel=2e-3)
+    # the loaded model is left as it was: the MIP solves again to the same optimum
+    assert lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60)).objective == pytest.approx(base, rel=1e-9)
