@@ -482,8 +482,8 @@ def main(argv: list[str] | None = None) -> int:
             d = Path(args.dir)
             if not (d / "summary.json").is_file():
                 raise InputError(d, "", "not a plan or study folder (no summary.json)")
-            write_reports(d, args.units)
-            out.print(f"wrote {d / 'report.html'}")
+            for f in write_reports(d, args.units):
+                out.print(f"wrote {f}")
             return EXIT_OK
         if args.command == "study":
             return cmd_study(args, out, err)

@@ -9,8 +9,9 @@ from .excel import write_plan_xlsx, write_study_xlsx
 from .html import Units, plan_report, study_report
 
 
-def write_reports(d: Path, units: str = "si") -> None:
-    """Write report.html and plan.xlsx (or study.xlsx) into the output folder ``d``."""
+def write_reports(d: Path, units: str = "si") -> list[Path]:
+    """Write report.html and plan.xlsx (or study.xlsx) into the output folder ``d``; the
+    files written. ``units`` is for the page; the workbook keeps the folder's SI tables."""
     kind = json.loads((d / "summary.json").read_text(encoding="utf-8")).get("kind", "plan")
     if kind not in ("plan", "study"):
         from ..errors import InputError
@@ -27,6 +28,7 @@ def write_reports(d: Path, units: str = "si") -> None:
     tmpx = d / ".workbook.xlsx.tmp"
     writer(d, tmpx)
     tmpx.replace(xlsx)
+    return [d / "report.html", xlsx]
 
 
 __all__ = ["write_reports", "Units"]
