@@ -439,3 +439,14 @@ def test_out_that_cannot_be_written_is_refused_before_solving(demo_site: Path, d
     assert "Traceback" not in cap.out + cap.err
     assert "cogen_results" in cap.err and "cannot be written" in cap.err
     assert not list(Path("/proc").glob(".cogen_results*"))
+
+
+def test_missing_top_tables_are_named_as_tables() -> None:
+    from cogendispatch.errors import InputErrors
+    from tiny import site
+
+    with pytest.raises(InputErrors) as exc:
+        site(deaerator=None, header=None)
+    text = str(exc.value)
+    assert "required table [deaerator] is missing" in text
+    assert "no [[header]] table" in text

@@ -51,6 +51,11 @@ def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
     return " > ".join(parts) if parts else "(top level)"
 
 
+# a whole table missing at the top of the file: say so in TOML's own terms
+_TOP_TABLES = {"site": "required table [site] is missing", "deaerator": "required table [deaerator] is missing",
+               "grid": "required table [grid] is missing",
+               "header": "no [[header]] table: a site needs at least one header",
+               "headers": "no [[header]] table: a site needs at least one header"}
 # the validation library's wording, in the words of the site file's reader
 _LIMIT_WORDS = {"less_than_equal": "at most", "less_than": "below", "greater_than_equal": "at least",
                 "greater_than": "above"}
@@ -68,6 +73,8 @@ def validation_problems(path: Path, raw: dict[str, Any], err: ValidationError) -
         kind, ctx, given = e["type"], e.get("ctx") or {}, e.get("input")
         if kind == "extra_forbidden":
             msg = "unknown key (check the spelling; see plant_configs/ for a complete example)"
+        elif kind == "missing" and len(loc) == 1 and loc[0] in _TOP_TABLES:
+            msg = _TOP_TABLES[str(loc[0])]
         elif kind == "missing":
             msg = "required key is missing"
         elif kind in _LIMIT_WORDS:
