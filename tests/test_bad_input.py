@@ -82,7 +82,7 @@ SITE_CASES = [
     pytest.param(sub('max_steam = "60 t/h"\n', ""),
                  ["[[boiler]] #4 (id 'B4') > max_steam", "required key is missing"], id="missing-required-key"),
     pytest.param(lambda t: re.sub(r"(?ms)^\[grid\]$.*?(?=^\[reserve\]$)", "", t),
-                 ["grid", "required key is missing"], id="missing-required-table"),
+                 ["grid", "required table [grid] is missing"], id="missing-required-table"),
     # --- units
     pytest.param(sub('max_steam = "60 t/h"', 'max_steam = "60"'),
                  ["[[boiler]] #4 (id 'B4') > max_steam", "has no unit"], id="value-without-unit-text"),
