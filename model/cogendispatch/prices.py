@@ -19,7 +19,6 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-import highspy
 import numpy as np
 import pandas as pd
 
@@ -31,7 +30,8 @@ def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> p
     """Marginal prices of the schedule ``x`` (column values of ``lm``), tidy: one row per hour
     and balance, columns ``time``, ``balance`` (a header id or ``power``), ``price`` and
     ``unit`` ([currency/t] for a header, [currency/MWh] for power). None when the LP does
-    not solve within ``time_limit`` [s]. ``lm`` is left as it was.
+    not solve within ``time_limit`` [s]. ``lm``'s bounds and integrality are left as they were
+    (:meth:`LoadedModel._fixed_run`).
 
     A balance row 'terms - demand == 0' is loaded with its bounds at the demand, so the dual
     of the row is d(cost)/d(demand): the price of one more t/h (or MW) demanded.
@@ -41,18 +41,9 @@ def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> p
     cmap = lm.opt._pyomo_con_to_solver_con_map
     rows = {(h.id, t): cmap.get(m.header_balance[h.id, t]) for h in sm.ctx.cfg.headers for t in hours}
     rows.update({("power", t): cmap.get(m.power_balance[t]) for t in hours})
-    ints = lm.int_cols.astype(np.int32)
-    vals = np.round(x[ints])
-    h: highspy.Highs = lm.h
-    try:
-        h.changeColsBounds(len(ints), ints, vals, vals)
-        lm._set_integrality(False)
-        lm._run(time_limit)
-        ok = h.getModelStatus() == highspy.HighsModelStatus.kOptimal
-        dual = np.array(h.getSolution().row_dual, dtype=float) if ok else None
-    finally:
-        lm._set_integrality(True)
-        h.changeColsBounds(len(ints), ints, lm.col_lower[ints], lm.col_upper[ints])
+    ints = lm.int_cols.tolist()
+    lm._fixed_run(ints, np.round(x[lm.int_cols]).tolist(), time_limit, gap=None, keep_duals=True)
+    dual = lm.fixed_duals
     if dual is None:
         return None
     cur = sm.ctx.cfg.site.currency

@@ -167,6 +167,7 @@ class LoadedModel:
         self.schedule: np.ndarray | None = None  # column values of the last solve_mip's schedule
         self.start_objective: float | None = None
         self.lp_seconds: float | None = None  # [s] of the last rounding start's LP relaxation
+        self.fixed_duals: np.ndarray | None = None  # row duals of the last _fixed_run(keep_duals=True)
         self.load_seconds = time.perf_counter() - t0
 
     def spare(self) -> "LoadedModel":
@@ -321,8 +322,11 @@ class LoadedModel:
         sol.value_valid = True
         self.h.setSolution(sol)
 
-    def _fixed_run(self, cols: list[int], vals: list[float], time_limit: float, gap: float) -> np.ndarray | None:
-        """Solve with ``cols`` held at ``vals``; the bounds are restored afterwards."""
+    def _fixed_run(self, cols: list[int], vals: list[float], time_limit: float, gap: float | None,
+                   keep_duals: bool = False) -> np.ndarray | None:
+        """Solve with ``cols`` held at ``vals``; the bounds are restored afterwards. With
+        ``keep_duals``, the row duals of an optimal LP (every integer held) are kept in
+        ``fixed_duals`` (None otherwise): restoring the bounds clears them in HiGHS."""
         idx = np.array(cols, dtype=np.int32)
         v = np.array(vals)
         self.h.changeColsBounds(len(idx), idx, v, v)
@@ -337,6 +341,9 @@ class LoadedModel:
                 self.h.getInfo().primal_solution_status == 2)
             start = self.solution() if ok else None
             self.start_objective = float(self.h.getInfo().objective_function_value) if ok else None
+            if keep_duals:
+                optimal = lp and self.h.getModelStatus() == highspy.HighsModelStatus.kOptimal
+                self.fixed_duals = np.array(self.h.getSolution().row_dual, dtype=float) if optimal else None
         finally:
             if lp:
                 self._set_integrality(True)

@@ -61,7 +61,7 @@ _PRICE_RE = re.compile(rf"^\s*({_NUMBER})\s*(?:per\b|/)\s*(.+?)\s*$")
 _GAUGE = {"bar(g)": "bar", "barg": "bar", "psig": "psi", "kpa(g)": "kPa", "kpag": "kPa"}
 _ABS = {"bar(a)": "bar", "bara": "bar", "psia": "psi", "kpa(a)": "kPa", "mpa(a)": "MPa"}
 # pressure units that trade use writes both as gauge and as absolute: refused without the marker
-_AMBIGUOUS = {"bar": "12 bar(a)' or '11 bar(g)", "psi": "150 psig' or '165 psia", "mbar": "120 mbar(a)"}
+_AMBIGUOUS = {"bar": "12 bar(a)' or '11 bar(g)", "psi": "150 psig' or '165 psia", "mbar": "0.12 bar(a)"}
 _ALIASES = {"°c": "degC", "°f": "degF", "c": "degC", "f": "degF", "tph": "t/h", "klb/hr": "klb/h"}
 
 

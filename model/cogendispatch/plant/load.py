@@ -54,8 +54,7 @@ def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
 # a whole table missing at the top of the file: say so in TOML's own terms
 _TOP_TABLES = {"site": "required table [site] is missing", "deaerator": "required table [deaerator] is missing",
                "grid": "required table [grid] is missing",
-               "header": "no [[header]] table: a site needs at least one header",
-               "headers": "no [[header]] table: a site needs at least one header"}
+               "header": "no [[header]] table: a site needs at least one header"}
 # the validation library's wording, in the words of the site file's reader
 _LIMIT_WORDS = {"less_than_equal": "at most", "less_than": "below", "greater_than_equal": "at least",
                 "greater_than": "above"}
