@@ -4,14 +4,17 @@ from __future__ import annotations
 
 import pytest
 
+from cogendispatch.coefficients import coefficient_tables
 from cogendispatch.equipment import boiler as boiler_mod
 from cogendispatch.equipment import drive as drive_mod
 from cogendispatch.equipment import turbine as turbine_mod
 from cogendispatch.equipment.common import SiteStates
 from cogendispatch.equipment.deaerator import heating_steam_ratio
 from cogendispatch.equipment.letdown import outlet_ratio
+from cogendispatch.plant.load import load_site
 from cogendispatch.steam import state_pT, state_px
 from cogendispatch.units import parse_quantity
+from conftest import DEMO_DIR
 from tiny import site
 
 BTU_PER_LB = 2.326  # [kJ/kg] per Btu/lb (NIST SP 811, International Table Btu)
@@ -212,3 +215,23 @@ def test_inspect_fits_the_terminal_without_cutting_a_number(width: int, monkeypa
     assert max(len(line) for line in text.splitlines() if line[:1] in "┏┃┡│└") <= width
     # the wet gas compressor's and the air blower's duty [kW], and B4's curve note, whole
     assert "3,500" in text and "5,000" in text and "convex hull, up to 0.002 % below the curve" in text
+
+
+def test_deaerator_table_gives_the_steam_each_water_stream_needs():
+    # 1 t of water at h_w plus S t of steam at h_s leave as (1 + S) t of saturated feedwater:
+    # h_w + S h_s = (1 + S) h_fw (mass and energy balance of a direct-contact heater, as
+    # deaerator.add_deaerator writes it); one row per stream the model feeds in.
+    cfg = load_site(DEMO_DIR / "saltmarsh_refinery.toml")
+    dea = coefficient_tables(cfg)["deaerator"].set_index("stream")
+    assert list(dea.index) == ["make-up", "process condensate", "COND hotwell condensate"]
+    da = cfg.deaerator
+    h_fw = state_px(da.pressure, 0.0).h
+    h_s = SiteStates.of(cfg).headers[da.heating_steam].h
+    for stream, T in (("make-up", da.makeup_temperature), ("process condensate", da.condensate_temperature)):
+        h_w = state_pT(da.pressure, T).h
+        s = dea.loc[stream, "steam_t_per_t_water"]
+        assert h_w + s * h_s == pytest.approx((1 + s) * h_fw, rel=1e-12)
+    h_hw = state_px(cfg.condensers[0].pressure, 0.0).h  # saturated liquid in the condenser
+    s = dea.loc["COND hotwell condensate", "steam_t_per_t_water"]
+    assert h_hw + s * h_s == pytest.approx((1 + s) * h_fw, rel=1e-12)
+    assert "55%" in dea.loc["process condensate", "flow"]

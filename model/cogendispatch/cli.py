@@ -399,7 +399,7 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
             key = df.columns[0]
             label = df[key].astype(str) + (("/" + df["section"].astype(str)) if "section" in df else "")
             wide = df.drop(columns=[key]).T
-            wide.columns = label.tolist() if name != "deaerator" else ["deaerator"]
+            wide.columns = label.tolist()
             wide.insert(0, "quantity", wide.index)
             _table(out, name, wide.reset_index(drop=True).astype(object))
     if args.csv:

@@ -8,7 +8,6 @@ from .equipment import boiler as boiler_mod
 from .equipment import drive as drive_mod
 from .equipment import turbine as turbine_mod
 from .equipment.common import SiteStates
-from .equipment.deaerator import heating_steam_ratio
 from .equipment.letdown import outlet_ratio
 from .plant.schema import SiteConfig
 from .steam import state_pT, state_px
@@ -42,12 +41,18 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
     trows = []
     for tg in cfg.turbogenerators:
         co = turbine_mod.coefficients(tg, st)
+        # at the generator terminals, before the Willans no-load loss (counted once per set);
+        # a maker's envelope gives its own slopes, so none is derived here
+        terminal = 1000 * tg.generator_efficiency if tg.envelope is None else None
+        loss = tg.no_load_loss if tg.envelope is None else tg.envelope.no_load
         for k, sec in enumerate(co.sections):
             arrival = None if sec.to_condenser else st.arrival_ratio(sec.outlet.h, sec.to)
             trows.append({"turbine": tg.id, "kind": co.kind, "section": k + 1, "to": sec.to,
                           "p_out_bar_a": sec.p_out, "isentropic_drop_kJ_kg": sec.drop_s,
-                          "efficiency": sec.efficiency, "kW_per_t_h": 1000 * sec.mw_per_tph,
-                          "steam_rate_kg_kWh": sec.steam_rate, "exhaust_T_C": sec.outlet.T,
+                          "efficiency": sec.efficiency, "shaft_kW_per_t_h": 1000 * sec.mw_per_tph,
+                          "shaft_steam_rate_kg_kWh": sec.steam_rate,
+                          "terminal_kW_per_t_h": terminal * sec.mw_per_tph if terminal else None,
+                          "no_load_loss_MW": loss if k == 0 else None, "exhaust_T_C": sec.outlet.T,
                           "exhaust_quality": sec.outlet.x, "exhaust_h_kJ_kg": sec.outlet.h,
                           "header_t_per_t": arrival})
     turbines = pd.DataFrame(trows)
@@ -75,15 +80,25 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
                       "header_h_kJ_kg": out.h})
     letdowns = pd.DataFrame(lrows)
 
-    da = cfg.deaerator
-    h_mu = state_pT(da.pressure, da.makeup_temperature).h
-    h_ret = state_pT(da.pressure, da.condensate_temperature).h
-    frac = da.process_condensate_return
-    h_mix = frac * h_ret + (1 - frac) * h_mu
-    dea = pd.DataFrame([{
-        "pressure_bar_a": da.pressure, "saturation_C": state_px(da.pressure, 0.0).T,
-        "feedwater_h_kJ_kg": st.h_feedwater, "heating_steam": da.heating_steam,
-        "steam_t_per_t_feedwater": heating_steam_ratio(st.h_feedwater, h_mix, st.headers[da.heating_steam].h),
-        "water_in_h_kJ_kg": h_mix, "note": f"at {frac:.0%} condensate return, no hotwell condensate"}])
+    deaerator = _deaerator_table(cfg, st)
     return {"headers": hdr, "boilers": boilers, "turbines": turbines, "drives": drives,
-            "letdowns": letdowns, "deaerator": dea}
+            "letdowns": letdowns, "deaerator": deaerator}
+
+
+def _deaerator_table(cfg: SiteConfig, st: SiteStates) -> pd.DataFrame:
+    """One row per water stream entering the deaerator: its enthalpy and the heating steam
+    each tonne of it needs to leave as saturated feedwater [t/t], as the model's mass and
+    energy balance has it (each stream is linear on its own: S_i = W_i (h_fw - h_i) / (h_s - h_fw))."""
+    da = cfg.deaerator
+    h_fw = st.h_feedwater
+    h_s = st.headers[da.heating_steam].h
+    streams = [("make-up", state_pT(da.pressure, da.makeup_temperature), "the balance of the feedwater"),
+               ("process condensate", state_pT(da.pressure, da.condensate_temperature),
+                f"{da.process_condensate_return:.0%} of the hour's process steam demand")]
+    streams += [(f"{c.id} hotwell condensate", state_px(c.pressure, 0.0), f"the steam {c.id} condenses")
+                for c in cfg.condensers]
+    return pd.DataFrame([{
+        "stream": name, "temperature_C": w.T, "enthalpy_kJ_kg": w.h,
+        "steam_t_per_t_water": (h_fw - w.h) / (h_s - h_fw),
+        "flow": basis, "heating_steam": da.heating_steam,
+        "deaerator_bar_a": da.pressure, "feedwater_h_kJ_kg": h_fw} for name, w, basis in streams])

@@ -181,16 +181,13 @@ class HourModel:
         """Marginal cost of 1 t/h more demand in each header [currency/t] and of 1 MW more
         load [currency/MWh]: duals of the LP with every binary fixed at its optimum."""
         self.solve(w)
-        x = self.lm.solution()
-        ints = self.lm.int_cols.astype(np.int32)
-        vals = np.round(x[ints])
-        self.h.changeColsBounds(len(ints), ints, vals, vals)
-        self.lm._set_integrality(False)
-        self.lm._run(30.0)
-        sol = self.h.getSolution()
-        dual = np.array(sol.row_dual)
-        x = np.array(sol.col_value)
-        self.lm._set_integrality(True)
+        ints = self.lm.int_cols
+        held = self.lm._fixed_run(list(ints), list(np.round(self.lm.solution()[ints])), 30.0, None,
+                                  keep_duals=True)
+        dual = self.lm.fixed_duals
+        if held is None or dual is None:
+            raise RuntimeError("the hour's LP with every on/off and driver held has no optimal solution")
+        x = held
         # a row 'terms - demand == 0' is loaded with bounds = demand: d(cost)/d(bound) is the
         # price of one more t/h demanded
         prices = {hh: float(dual[r]) for hh, r in self.header_row.items()}

@@ -16,6 +16,10 @@ hour of a schedule is re-evaluated:
 Per hour it reports the power and fuel errors of the linear model [MW, GJ/h and %], each
 header's mass imbalance [t/h] and energy imbalance [MW], and flags wet exhausts below the
 moisture limit (0.88 quality by default, common practice against blade erosion).
+
+It uses the site file's header states and section efficiencies, as the model does: it
+checks the linearisation, not the data. A turbine's true part-load efficiency, or header
+pressures that drift with flow, are outside it.
 """
 
 from __future__ import annotations

@@ -57,6 +57,9 @@ class Header(_Unit):
 
 
 class Fuel(_Unit):
+    """A fuel. Its energy [GJ] is on the heating-value basis the boiler efficiencies use
+    (net or gross); the price and the CO2 factor must be on the same basis."""
+
     price: EnergyPrice  # default price when the series has no column for this fuel
     co2_factor: EmissionFactor = 0.0
     max_supply: HeatRate | None = None  # site-wide availability [GJ/h]
