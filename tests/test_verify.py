@@ -37,7 +37,7 @@ def test_without_no_load_loss_the_expansion_is_the_design_line() -> None:
     line = expand_sections(cfg.turbogenerators[0], st, [80.0, 30.0])
     from cogendispatch.equipment.turbine import coefficients
     co = coefficients(cfg.turbogenerators[0], st)
-    for (inl, outl, p), sec, f in zip(line, co.sections, [80.0, 30.0]):
+    for (_, outl, p), sec, f in zip(line, co.sections, [80.0, 30.0]):
         assert outl.h == pytest.approx(sec.outlet.h, rel=1e-9)
         assert p == pytest.approx(f * sec.mw_per_tph, rel=1e-9)
 

@@ -56,7 +56,7 @@ class Incumbent:
 def interruptible(h: highspy.Highs, stop: threading.Event) -> None:
     """Make every LP and MIP run of ``h`` stop soon after ``stop`` is set."""
 
-    def _cb(callback_type, message, data_out, data_in, user_data):  # noqa: ANN001
+    def _cb(callback_type, message, data_out, data_in, user_data) -> None:  # noqa: ANN001
         if stop.is_set():
             data_in.user_interrupt = True
 

@@ -611,7 +611,7 @@ class LoadedModel:
         last = [0.0]
         sent = [best.get()[2]]  # newest version HiGHS has; a start, if any, is already set
 
-        def _cb(callback_type, message, data_out, data_in, user_data):  # noqa: ANN001
+        def _cb(callback_type, message, data_out, data_in, user_data) -> None:  # noqa: ANN001
             if callback_type == kinds[1]:
                 x, _, version = best.get()
                 if version > sent[0] and x is not None:

@@ -136,13 +136,13 @@ def verify_schedule(cfg: SiteConfig, series: Series, schedule: pd.DataFrame,
                 continue
             co = turbine_mod.coefficients(tg, st)
             flows, f = [], float(r[f"{tg.id}.throttle_t_h"])
-            for k, sec in enumerate(co.sections[:-1]):
+            for sec in co.sections[:-1]:
                 flows.append(f)
                 f -= float(r[f"{tg.id}.extraction_{sec.to}_t_h"])
             flows.append(max(f, 0.0))
             line = expand_sections(tg, st, flows)
             p_phys += tg.generator_efficiency * sum(p for _, _, p in line)
-            for k, (sec, (inl, outl, _)) in enumerate(zip(co.sections, line)):
+            for k, (sec, (_, outl, _)) in enumerate(zip(co.sections, line)):
                 last = k == len(co.sections) - 1
                 leaving = flows[k] if last else float(r[f"{tg.id}.extraction_{sec.to}_t_h"])
                 sec_rows.append({"time": time, "turbine": tg.id, "section": k + 1, "to": sec.to,

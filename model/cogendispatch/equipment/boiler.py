@@ -8,7 +8,7 @@ import pyomo.environ as pyo
 
 from ..plant.schema import Boiler
 from ..steam import state_px
-from .common import ModelContext, SiteStates, Term, commitment
+from .common import ModelContext, RuleResult, SiteStates, Term, commitment
 
 
 def heat_to_steam(h_steam: float, h_feedwater: float, blowdown: float, h_blowdown: float) -> float:
@@ -171,7 +171,7 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
     if b.ramp_up is not None:
         su = max(b.ramp_up, b.min_steam)
 
-        def _up(k, t):
+        def _up(k: pyo.Block, t: int) -> RuleResult:
             if t == 0:
                 if s0 is None:
                     return pyo.Constraint.Skip
@@ -182,7 +182,7 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
     if b.ramp_down is not None:
         sd = max(b.ramp_down, b.min_steam)
 
-        def _down(k, t):
+        def _down(k: pyo.Block, t: int) -> RuleResult:
             if t == 0:
                 if s0 is None:
                     return pyo.Constraint.Skip

@@ -21,6 +21,7 @@ from ..steam import SteamState, header_state, state_px
 from .data import WindowData
 
 Expr = Callable[[int], object]  # hour index -> Pyomo expression or number
+RuleResult = object  # what a constraint rule returns: a Pyomo relation, or Constraint.Skip
 
 
 @dataclass(frozen=True)
@@ -137,7 +138,7 @@ def commitment(blk: pyo.Block, min_up: float, min_down: float, initial_on: bool,
     blk.u0 = pyo.Param(mutable=True, initialize=1.0 if initial_on else 0.0)
     UT, DT = max(1, int(round(min_up))), max(1, int(round(min_down)))
 
-    def _trans(b, t):
+    def _trans(b: pyo.Block, t: int) -> RuleResult:
         prev = b.on[t - 1] if t > 0 else b.u0
         return b.on[t] - prev == b.start[t] - b.stop[t]
 

@@ -13,7 +13,7 @@ import pyomo.environ as pyo
 
 from ..plant.schema import Drive
 from ..steam import isentropic_drop
-from .common import ModelContext, SiteStates, Term, apply_fixings
+from .common import ModelContext, RuleResult, SiteStates, Term, apply_fixings
 
 
 @dataclass(frozen=True)
@@ -96,7 +96,7 @@ def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:
             # driver of each position before the first hour (mutable for the next window)
             blk.prev_on_steam = pyo.Param(K, mutable=True, initialize=lambda b, k: 1.0 if (init or 0) > k else 0.0)
 
-            def _change(b, k, t):
+            def _change(b: pyo.Block, k: int, t: int) -> RuleResult:
                 if t == 0 and init is None:  # status before the horizon unknown: no change counted
                     b.to_steam[k, t].fix(0)
                     b.to_motor[k, t].fix(0)

@@ -72,7 +72,7 @@ def coefficients(tg: TurboGenerator, states: SiteStates) -> TurbineCoefficients:
     """Expand along the sections from the inlet header state with IAPWS-IF97."""
     inlet = states.headers[tg.inlet]
     out = []
-    for k, sec in enumerate(tg.sections):
+    for sec in tg.sections:
         to_cond = sec.to in states.condensers
         p_out = states.condensers[sec.to].p if to_cond else states.headers[sec.to].p
         drop = isentropic_drop(inlet, p_out)
