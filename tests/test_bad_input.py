@@ -130,6 +130,16 @@ SITE_CASES = [
                  ["[deaerator] > makeup_temperature", "above 0 degC"], id="deaerator-makeup-frozen"),
     pytest.param(sub('condensate_temperature = "85 degC"', 'condensate_temperature = "150 degC"'),
                  ["[deaerator] > condensate_temperature", "saturation temperature"], id="deaerator-condensate-too-hot"),
+    # --- a maker's envelope must be one a turbine could have (first law)
+    pytest.param(sub('fixed_throttle = "40 t/h"', 'fixed_throttle = "40 t/h"\nenvelope = { no_load = "0.4 MW", throttle = "100 kWh/t" }'),
+                 ["[[turbogenerator]] 'TG2' > section #1 > efficiency", "not used with an 'envelope'"],
+                 id="envelope-and-section-efficiency"),
+    # 200 kWh/t at the terminals = 3600 x 0.2 / 0.97 = 742 kJ/kg out of the steam; an
+    # isentropic expansion from HP (42 bar(a), 400 degC) to LP (4.5 bar(a)) gives 514 kJ/kg
+    pytest.param(chain(sub('fixed_throttle = "40 t/h"', 'fixed_throttle = "40 t/h"\nenvelope = { no_load = "0.4 MW", throttle = "200 kWh/t" }'),
+                       sub('  to = "LP"\n  efficiency = 0.72', '  to = "LP"')),
+                 ["[[turbogenerator]] 'TG2' > envelope > throttle", "742.3 kJ/kg", "514.3 kJ/kg of an isentropic expansion"],
+                 id="envelope-beyond-isentropic"),
     # --- limits
     pytest.param(sub('min_steam = "12 t/h"', 'min_steam = "70 t/h"'),
                  ["[[boiler]] 'B4' > min_steam", "exceeds max_steam"], id="min-steam-above-max"),
@@ -191,6 +201,21 @@ def test_bad_site_is_refused_by_plan_before_writing(demo_site: Path, demo_series
     out = tmp_path / "out"
     rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out)])
     _assert_refused(rc, capsys, demo_site.name, ["[[boiler]] #1 (id 'B1') > max_steam"], out)
+
+
+def test_excel_cells_are_named_as_typed(demo_site: Path, demo_series: Path, tmp_path: Path,
+                                        capsys: pytest.CaptureFixture[str]) -> None:
+    df = pd.read_csv(demo_series, dtype=str, keep_default_na=False)
+    df.loc[17, LOAD] = "n/a"
+    book = tmp_path / "series.xlsx"
+    df.to_excel(book, index=False)
+    out = tmp_path / "out"
+    rc = main(["plan", str(demo_site), "--series", str(book), "--out", str(out)])
+    _assert_refused(rc, capsys, book.name, [f"row 19, column '{LOAD}'", "'n/a' is not a finite number"], out)
+    df.loc[17, LOAD] = ""
+    df.to_excel(book, index=False)
+    rc = main(["plan", str(demo_site), "--series", str(book), "--out", str(out)])
+    _assert_refused(rc, capsys, book.name, [f"row 19, column '{LOAD}'", "an empty cell"], out)
 
 
 @pytest.mark.parametrize(("name", "make", "expected"), [
@@ -265,11 +290,18 @@ SERIES_CASES = [
     pytest.param(cell(6, "time", "2027-13-45T00:00"), ["row 8, column 'time'", "is not a date and time"],
                  id="unparseable-timestamp"),
     pytest.param(cell(6, "time", ""), ["row 8, column 'time'", "empty time"], id="empty-timestamp"),
+    pytest.param(cell(5, "time", "2027-01-04T05:30"),
+                 ["row 7, column 'time'", "2027-01-04T05:30 is 90 min after the previous row", "exactly one hour apart"],
+                 id="off-the-hour"),
+    # a day-first date read month first: 01/04/2027 (1 April) is 4 January
+    pytest.param(lambda df: df.assign(time=pd.to_datetime(df["time"]).dt.strftime("%d/%m/%Y %H:%M")),
+                 ["row 26, column 'time'", "missing hour(s) before 05/01/2027 00:00", "read month first"],
+                 id="day-first-dates"),
     pytest.param(lambda df: df.drop(columns="time"), ["header row", "missing column 'time'"], id="no-time-column"),
     # --- cells
     pytest.param(cell(7, LP, "abc"), [f"row 9, column '{LP}'", "'abc' is not a finite number"], id="non-numeric-cell"),
     pytest.param(cell(3, LOAD, ""), [f"row 5, column '{LOAD}'", "empty cell"], id="empty-cell"),
-    pytest.param(cell(2, IMPORT, "nan"), [f"row 4, column '{IMPORT}'"], id="nan-text"),
+    pytest.param(cell(2, IMPORT, "nan"), [f"row 4, column '{IMPORT}'", "'nan' is not a finite number"], id="nan-text"),
     pytest.param(cell(2, IMPORT, "inf"), [f"row 4, column '{IMPORT}'", "not a finite number"], id="inf-text"),
     pytest.param(cell(10, LOAD, "-5"), ["row 12, column 'load'", "must not be negative"], id="negative-load"),
     pytest.param(add_column("duty:FANS [kW]", "300", row=3, row_value="-10"),

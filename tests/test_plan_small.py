@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from cogendispatch.equipment.common import SiteStates
 from cogendispatch.results import plan_results
 from cogendispatch.site import build_site_model
 from cogendispatch.solve import SolveOptions, solve
@@ -118,10 +119,10 @@ def test_min_down_time_holds_a_stopped_boiler_off():
     cfg = site(boiler=boilers)
     _, rep, res = run(cfg, series(cfg, 4, demand_LP=30.0))
     assert res.schedule["B1.on"].tolist() == [0, 0, 1, 1]
-    # ... and the diagnosis says a header is short, when: with no boiler the slack lands on
-    # HP, whose steam the letdown would carry to LP
+    # ... and the diagnosis says which header is short (LP, where the demand is), when, and why
     assert len(res.diagnosis) == 1
-    assert res.diagnosis[0].startswith("HP header short") and "hours 0-1" in res.diagnosis[0]
+    d = res.diagnosis[0]
+    assert d.startswith("LP header short") and "hours 0-1" in d and "B1 held off (outage or minimum down time)" in d
 
 
 def test_impossible_demand_is_diagnosed_by_header_and_hour():
@@ -169,6 +170,16 @@ def test_maker_envelope_replaces_the_section_physics():
     s = res.schedule
     assert (s["TG.on"] == 1).all()
     assert s["TG.power_MW"].to_numpy() == pytest.approx(0.08 * s["TG.throttle_t_h"].to_numpy() - 0.5, abs=1e-6)
+    # First law on the casing: the generator takes 0.08 MW per t/h at 0.97 efficiency, i.e.
+    # 3600 x 0.08 / 0.97 = 296.9 kJ/kg out of the steam; the exhaust leaves at h_HP - 296.9,
+    # above the LP header's enthalpy, and is desuperheated with feedwater:
+    # water = throttle x (h_exh - h_LP) / (h_LP - h_fw).
+    st = SiteStates.of(cfg)
+    h_exh = st.headers["HP"].h - 3600 * 0.08 / 0.97
+    water = s["TG.throttle_t_h"].to_numpy() * (h_exh - st.headers["LP"].h) / (st.headers["LP"].h - st.h_feedwater)
+    bal = res.balances
+    got = bal[(bal.header == "LP") & (bal.term == "TG exhaust desuperheater water")].flow_t_h.to_numpy()
+    assert water.min() > 1.0 and got == pytest.approx(water, rel=1e-9)
 
 
 def test_excel_series_is_read_like_csv(tmp_path):  # noqa: ANN001
@@ -230,8 +241,10 @@ def test_cli_plan_exits_3_with_a_diagnosis_and_still_writes_the_schedule(tmp_pat
     rc = main(["plan", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--out", str(out), "--quiet"])
     err = capsys.readouterr().err
     assert rc == 3
-    # the boiler is the limit: the slack lands on HP, upstream of the letdown feeding LP
-    assert "HP header short" in err and "hour 1" in err
+    # the boiler is the limit; the lack lands where the demand is, LP (a t/h missing from
+    # HP is priced half as much again, site.shortfall_prices), naming the boiler
+    assert "LP header short" in err and "hour 1" in err and "HP header short" not in err
+    assert "B1 at its 50 t/h rating" in err
     assert (out / "schedule.csv").is_file() and (out / "summary.json").is_file()
 
 
@@ -268,3 +281,26 @@ def test_demand_comes_before_the_reserve_in_an_impossible_hour() -> None:
     assert m.reserve_short[1].value == pytest.approx(steam - 60.0, abs=1e-4)
     msgs = diagnose(sm)
     assert len(msgs) == 1 and msgs[0].startswith("steam reserve short") and "hour 1" in msgs[0]
+
+
+def test_load_comes_before_the_reserve() -> None:
+    """The import is capped at 3 MW against a 10 MW load, so the back-pressure set must make
+    about 7 MW: about 74 t/h through it (0.75 x 514 kJ/kg x 0.97 generator, less 0.2 MW no
+    load: 0.1 MW per t/h), on top of what the LP header needs. Two running 60 t/h boilers
+    with a full reserve (cover 1) may make 60 t/h only, so the reserve is short. The plan
+    must meet the load and report the reserve short, not cut the load to keep reserve
+    (each MW cut would spare about 10 t/h of reserve)."""
+    from cogendispatch.results import diagnose
+
+    boilers = [{"id": b, "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}, "initial_on": True}
+               for b in ("B1", "B2")]
+    cfg = site(boiler=boilers, reserve={"enabled": True, "cover": 1.0}, grid={"max_import": "3 MW"},
+               turbogenerator=[TG])
+    sm = build_site_model(cfg, series(cfg, 2, demand_LP=20.0, load=10.0))
+    solve(sm, SolveOptions(gap=1e-6, time_limit=60))
+    m = sm.model
+    assert max(m.power_short[t].value for t in m.T) < 1e-6
+    assert min(m.reserve_short[t].value for t in m.T) > 1.0
+    msgs = diagnose(sm)
+    assert msgs and all(d.startswith("steam reserve short") for d in msgs)

@@ -33,7 +33,9 @@ def test_report_and_workbook_are_written(plan_dir: Path) -> None:
     # hourly marginal prices: every hour, each header and the electric bus
     pr = pd.read_csv(plan_dir / "prices.csv")
     assert len(pr) == 6 * 3 and set(pr.balance) == {"HP", "LP", "power"} and pr.price.notna().all()
-    assert "Marginal steam price by header" in (plan_dir / "report.html").read_text()
+    html = (plan_dir / "report.html").read_text()
+    assert "Marginal steam price by header" in html
+    assert "Plan over 6 h" in html and "Weekly plan" not in html  # six hours are not a week
 
 
 def test_names_are_escaped(plan_dir: Path) -> None:
@@ -49,7 +51,11 @@ def test_workbook_reads_back_like_the_csv_files(plan_dir: Path) -> None:
     xl = pd.read_excel(plan_dir / "plan.xlsx", sheet_name=None)
     assert set(xl) == {"summary", "schedule", "header balances", "electric balance", "drivers", "costs", "prices",
                        "verification"}
-    pd.testing.assert_frame_equal(xl["prices"], pd.read_csv(plan_dir / "prices.csv"), check_dtype=False)
+    pd.testing.assert_frame_equal(xl["prices"], pd.read_csv(plan_dir / "prices.csv", parse_dates=["time"]),
+                                  check_dtype=False)
+    # times are date-time cells a spreadsheet can sort and filter, not text
+    assert pd.api.types.is_datetime64_any_dtype(xl["schedule"]["time"])
+    assert list(xl["schedule"]["time"]) == list(pd.date_range("2027-03-01", periods=6, freq="h"))
     sched = pd.read_csv(plan_dir / "schedule.csv")
     got = xl["schedule"]
     assert list(got.columns) == list(sched.columns)

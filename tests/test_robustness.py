@@ -133,6 +133,27 @@ def test_no_schedule_at_all_is_a_clear_error(tmp_path, monkeypatch, capsys) -> N
         solve(build_site_model(*_tiny_model_inputs(tmp_path)), SolveOptions())
 
 
+def test_a_baseline_without_solution_leaves_the_plan_whole(tmp_path, monkeypatch, capsys) -> None:  # noqa: ANN001
+    """The practice rules can break a site's own limits; the plan is then written without
+    its comparison, and says why."""
+    import json
+
+    site, ser = _files(tmp_path)
+
+    def broken(*args, **kwargs):  # noqa: ANN002, ANN003, ANN202
+        raise RuntimeError("the practice-rule schedule has no solution")
+
+    monkeypatch.setattr(plan_mod, "practice_baseline", broken)
+    out = tmp_path / "out"
+    assert main(["plan", str(site), "--series", str(ser), "--out", str(out)]) == 0
+    captured = capsys.readouterr()
+    summary = json.loads((out / "summary.json").read_text())
+    assert "baseline" not in summary
+    assert summary["baseline_note"] == "no practice baseline: the practice-rule schedule has no solution"
+    assert "no practice baseline" in captured.out and "Traceback" not in captured.err
+    assert "no practice baseline" in (out / "report.html").read_text()
+
+
 def _tiny_model_inputs(tmp_path: Path):  # noqa: ANN202
     from cogendispatch.plant.load import load_site
     from cogendispatch.plant.series import load_series

@@ -175,6 +175,9 @@ def test_cli_study_writes_the_outputs(tmp_path) -> None:  # noqa: ANN001
     table = pd.read_csv(out / "scenarios.csv")
     assert table.scenario.tolist() == ["base", "'=cheap power"]  # quoted: never a spreadsheet formula
     assert table.cost_import.iloc[1] < table.cost_import.iloc[0]
+    # driver hours only for machines with a choice (the demo's WGC is steam-only, FANS motor-only)
+    on_steam = {c.removeprefix("machine_hours_on_steam_") for c in table.columns if c.startswith("machine_hours_on_steam_")}
+    assert on_steam == {"BFWP", "CWP", "CCP", "AIRB", "HCFP", "IAC"}
     monthly = pd.read_csv(out / "monthly.csv")
     assert set(monthly.month) == {"2027-01"}
     s = pd.read_parquet(out / "schedules" / "01_base.parquet")

@@ -53,6 +53,9 @@ def test_constants_sanity():
         ("500 kPa(g)", 5.0 + ATM_BAR),  # ISO 2533
         ("4.2 MPa", 42.0),  # SI: 1 MPa = 10 bar
         ("4.2 MPa(a)", 42.0),
+        ("4 MPa(g)", 40.0 + ATM_BAR),  # ISO 2533
+        ("150 psi(g)", 150.0 * PSI_BAR + ATM_BAR),  # NIST SP 811 psi; ISO 2533 atmosphere
+        ("150 psi(a)", 150.0 * PSI_BAR),
         ("1e2 bar(a)", 100.0),
         (" 7.5bar(a) ", 7.5),
     ],
@@ -116,6 +119,7 @@ def test_mass_flow(text, expected):
         ("12 MW", 12.0),
         ("850 kW", 0.85),
         ("1000 hp", 1000.0 * HP_W / 1e6),  # mechanical hp, 745.69987 W (NIST SP 811)
+        ("1000 bhp", 1000.0 * HP_W / 1e6),  # brake horsepower: shaft power in mechanical hp
     ],
 )
 def test_power(text, expected):

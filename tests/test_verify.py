@@ -104,6 +104,40 @@ def test_verify_reports_header_imbalance_and_deaerator_steam() -> None:
     assert (h["deaerator_steam_physics_t_h"] >= h["deaerator_steam_model_t_h"] - 1e-9).all()
 
 
+def test_deaerator_overflow_is_scheduled_and_rechecked() -> None:
+    """A process that exports 40 t/h into HP leaves the boiler little to make, while the LP
+    users return all of their 50 t/h as condensate: more hot water reaches the deaerator
+    than the boiler draws, and the excess drains. The schedule shows it; the re-check of
+    the deaerator's energy balance takes it as scheduled, so with no turbine (nothing the
+    linear model simplifies) it agrees with the model to rounding."""
+    cfg = site(deaerator={"pressure": "2 bar(a)", "heating_steam": "LP", "makeup_temperature": "20 degC",
+                          "process_condensate_return": 1.0, "condensate_temperature": "95 degC"})
+    ser = series(cfg, 2, demand_HP=-40.0, demand_LP=50.0)
+    sm = build_site_model(cfg, ser)
+    solve(sm, SolveOptions(gap=1e-6))
+    res = plan_results(sm)
+    s = res.schedule
+    # mass: 50 t/h returned against a boiler feed of about 10 t/h (its steam and blowdown)
+    assert (s["deaerator.overflow_t_h"] > 30.0).all()
+    h = verify_schedule(cfg, ser, s).hourly
+    assert h["deaerator_steam_physics_t_h"].to_numpy() == pytest.approx(h["deaerator_steam_model_t_h"].to_numpy(), abs=1e-6)
+    assert np.abs(h["LP_mass_imbalance_t_h"].to_numpy()).max() < 1e-6
+
+
+def test_baseline_keeps_a_boiler_on_while_its_ramp_brings_it_down() -> None:
+    """The practice rule would stop the poorer boiler at once, but it starts at 60 t/h and
+    may shed only 10 t/h an hour; it may trip from max(10, its 10 t/h minimum) = 10 t/h, so
+    it runs ceil((60 - 10) / 10) = 5 hours before it stops (was: no baseline at all)."""
+    boilers = [{"id": "GOOD", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.86, 0.9]}},
+               {"id": "POOR", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.76, 0.8]}, "initial_on": True,
+                "initial_steam": "60 t/h", "ramp_down": "10 t/h"}]
+    cfg = site(boiler=boilers)
+    base = practice_baseline(cfg, series(cfg, 8, demand_LP=30.0))
+    assert base.results.schedule["POOR.on"].tolist() == [1, 1, 1, 1, 1, 0, 0, 0]
+
+
 def test_baseline_follows_the_rules_and_never_beats_the_optimiser() -> None:
     boilers = [{"id": "GOOD", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "12 t/h",
                 "efficiency_curve": {"load": [0.2, 1.0], "efficiency": [0.86, 0.9]}},

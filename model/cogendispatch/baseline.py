@@ -4,8 +4,9 @@ Practice rules (common practice, no published source):
 
 * boilers are committed in merit order of full-load efficiency: in each hour the first k
   boilers run, k the smallest number that supplies every header and keeps the steam
-  reserve; the first hour keeps the initial states, and the runs are stretched to honour
-  minimum up and down times;
+  reserve; the first hour keeps the initial states, a boiler running at the start stays on
+  until its ramp-down limit lets it reach its shut-down load, and the runs are stretched to
+  honour minimum up and down times;
 * each turbo-generator with a ``fixed_throttle`` in the site file runs at that throttle
   (its extractions follow the headers); one without keeps its initial state;
 * each machine with both drivers runs on its ``normal`` driver (steam when not given);
@@ -18,12 +19,13 @@ Practice rules (common practice, no published source):
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
 
 from .equipment.common import held_value, repair_commitment
-from .plant.schema import SiteConfig
+from .plant.schema import Boiler, SiteConfig
 from .plant.series import Series
 from .results import PlanResults, plan_results
 from .site import BuildOptions, build_site_model
@@ -88,8 +90,9 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
             blk = blocks[b.id]
             on = [blk.on[t] for t in hours]
             fixed = {t: h for t, h in enumerate(held_value(v) for v in on) if h is not None}
-            # hour 0 keeps the initial state: a boiler at load cannot be dropped at once
-            wanted = [1 if (rank < k[t] or b.must_run or (t == 0 and b.initial_on)) else 0 for t in hours]
+            # the first hours keep the initial state: a boiler at load cannot be dropped at once
+            keep = _hours_to_shut_down(b)
+            wanted = [1 if (rank < k[t] or b.must_run or t < keep) else 0 for t in hours]
             seq = repair_commitment(wanted, fixed, blk.commit_info)
             for v, s in zip(on, seq):
                 c = lm.col(v)
@@ -119,6 +122,19 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
     cost = res.totals["cost"]
     return Baseline(cost=cost, total=float(sum(cost.values())), results=res, rounds=rounds,
                     merit_loaded=merit_loaded)
+
+
+def _hours_to_shut_down(b: Boiler) -> int:
+    """Hours a boiler running at the start must stay on before it may stop [h]: at least
+    the first, and as many as its ramp-down limit needs to bring the initial steam down to
+    the load it may trip from (the larger of the ramp and the minimum stable load, as the
+    block's ramp rows have it)."""
+    if not b.initial_on:
+        return 0
+    if b.ramp_down is None or b.initial_steam is None:
+        return 1
+    last = max(b.ramp_down, b.min_steam)
+    return max(1, math.ceil((b.initial_steam - last) / b.ramp_down - 1e-9))
 
 
 def _merit_loading(lm: LoadedModel, cfg: SiteConfig, merit: list, hours: list[int], idx: np.ndarray,

@@ -449,6 +449,8 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
             if s["baseline"]["diagnosis"]:
                 out.print(Text("the practice baseline itself leaves demand unmet: "
                                + "; ".join(s["baseline"]["diagnosis"][:3])))
+        elif "baseline_note" in s:
+            out.print(Text(s["baseline_note"]))
         if "verify" in s:
             out.print(Text(f"verification: {s['verify']['verdict']}"))
         out.print(f"outputs in {Path(args.out).resolve()}")

@@ -42,8 +42,8 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
     for tg in cfg.turbogenerators:
         co = turbine_mod.coefficients(tg, st)
         # at the generator terminals, before the Willans no-load loss (counted once per set);
-        # a maker's envelope gives its own slopes, so none is derived here
-        terminal = 1000 * tg.generator_efficiency if tg.envelope is None else None
+        # for a maker's envelope these are its own slopes, section by section
+        terminal = 1000 * tg.generator_efficiency
         loss = tg.no_load_loss if tg.envelope is None else tg.envelope.no_load
         for k, sec in enumerate(co.sections):
             arrival = None if sec.to_condenser else st.arrival_ratio(sec.outlet.h, sec.to)
@@ -51,7 +51,7 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
                           "p_out_bar_a": sec.p_out, "isentropic_drop_kJ_kg": sec.drop_s,
                           "efficiency": sec.efficiency, "shaft_kW_per_t_h": 1000 * sec.mw_per_tph,
                           "shaft_steam_rate_kg_kWh": sec.steam_rate,
-                          "terminal_kW_per_t_h": terminal * sec.mw_per_tph if terminal else None,
+                          "terminal_kW_per_t_h": terminal * sec.mw_per_tph,
                           "no_load_loss_MW": loss if k == 0 else None, "exhaust_T_C": sec.outlet.T,
                           "exhaust_quality": sec.outlet.x, "exhaust_h_kJ_kg": sec.outlet.h,
                           "header_t_per_t": arrival})

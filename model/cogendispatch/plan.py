@@ -105,9 +105,14 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     summary["verify"] = ver.summary()
     say(f"verification: {ver.verdict}")
     say("pricing the practice baseline (merit-order boilers, fixed turbine throttles, normal drivers)")
-    base = practice_baseline(cfg, series, build_options, time_limit=solve_options.time_limit)
-    summary["baseline"] = {"cost": base.cost, "cost_total": base.total, "diagnosis": base.results.diagnosis,
-                           "saving": savings(res.totals["cost"], base.cost)}
+    try:
+        base = practice_baseline(cfg, series, build_options, time_limit=solve_options.time_limit)
+    except RuntimeError as e:  # the plan stands without its comparison
+        summary["baseline_note"] = f"no practice baseline: {e}"
+        say(summary["baseline_note"])
+    else:
+        summary["baseline"] = {"cost": base.cost, "cost_total": base.total, "diagnosis": base.results.diagnosis,
+                               "saving": savings(res.totals["cost"], base.cost)}
     run = PlanRun(cfg, series, sm, rep, res, summary, ver, units, prices)
     if out is not None:
         atomic_dir(out, lambda d: write_plan_files(run, d))

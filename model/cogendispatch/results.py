@@ -89,6 +89,9 @@ def schedule_frame(sm: SiteModel) -> pd.DataFrame:
     cols["deaerator.steam_t_h"] = _series(lambda t: da.steam[t], hours)
     cols["deaerator.makeup_t_h"] = _series(lambda t: da.makeup[t], hours)
     cols["deaerator.feedwater_t_h"] = _series(da.feedwater, hours)
+    # hot water beyond what the boilers and sprays draw (condensate return above the
+    # feedwater, e.g. under a steam-exporting process): drained at feedwater enthalpy
+    cols["deaerator.overflow_t_h"] = _series(lambda t: da.overflow[t], hours)
     cols["grid.import_MW"] = _series(lambda t: m.grid.imp[t], hours)
     cols["grid.export_MW"] = _series(lambda t: m.grid.exp[t], hours)
     df = pd.DataFrame(cols, index=pd.Index(ctx.series.time, name="time"))
@@ -139,6 +142,14 @@ def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
     return out
 
 
+def _off(available: bool, on: pyo.Var) -> str:
+    """Why a unit is off: out of service in the site file, held off before the solve (an
+    outage, or a minimum down time still running from before the horizon), or chosen."""
+    if not available:
+        return "unavailable"
+    return "held off (outage or minimum down time)" if held_value(on) == 0 else "off"
+
+
 def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
     """Equipment at an upper limit (or held off) in hour ``t``: what stops more supply."""
     cfg, b = sm.ctx.cfg, sm.blocks
@@ -146,8 +157,7 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
     for bo in cfg.boilers:
         blk = b[bo.id]
         if _val(blk.on[t]) < 0.5:
-            why = "unavailable" if (not bo.available or held_value(blk.on[t]) == 0) else "off"
-            out.append(f"{bo.id} {why}")
+            out.append(f"{bo.id} {_off(bo.available, blk.on[t])}")
         elif _val(blk.steam[t]) >= bo.max_steam - 1e-4:
             out.append(f"{bo.id} at its {bo.max_steam:g} t/h rating")
     for tg in cfg.turbogenerators:
@@ -158,7 +168,7 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
             if _val(blk.power[t]) >= tg.generator_rating - 1e-4:
                 out.append(f"{tg.id} at its {tg.generator_rating:g} MW rating")
         elif power:
-            out.append(f"{tg.id} {'unavailable' if held_value(blk.on[t]) == 0 else 'off'}")
+            out.append(f"{tg.id} {_off(tg.available, blk.on[t])}")
     if not power:
         for ld in cfg.letdowns:
             if _val(b[ld.id].flow[t]) >= ld.max_flow - 1e-4:
@@ -181,9 +191,11 @@ def diagnose(sm: SiteModel, upto: int | None = None) -> list[str]:
         for a, b in _runs(values > TOL):
             peak = values[a:b + 1].max()
             worst = a + int(np.argmax(values[a:b + 1]))
-            span = f"hour {a}" if a == b else f"hours {a}-{b}"
-            msg = (f"{what} {peak:.2f} {unit} at most in {span} "
-                   f"({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M}); {hint}")
+            if a == b:
+                span = f"hour {a} ({time[a]:%Y-%m-%d %H:%M})"
+            else:
+                span = f"hours {a}-{b} ({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M})"
+            msg = f"{what} {peak:.2f} {unit} at most in {span}; {hint}"
             if limits:
                 bind = binding_limits(sm, worst, power)
                 if bind:

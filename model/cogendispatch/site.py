@@ -44,6 +44,19 @@ class SiteModel:
     blocks: dict[str, pyo.Block] = field(default_factory=dict)
 
 
+def shortfall_prices(cfg: SiteConfig) -> dict[str, float]:
+    """Price of a t/h of steam missing from each header [currency/t]: the site's
+    ``steam_shortfall`` at the lowest-pressure header, half as much again for each header
+    above it. Imaginary steam in a high-pressure header would also pass a turbine and make
+    power on its way down, so at one price an impossible week shows its shortfall upstream
+    (a turbine's inlet) rather than where the process goes short; graded, the lack lands in
+    the lowest header it can, and a header's own demand is cut only when it cannot be
+    passed down. A half step is far above what a tonne makes on its way down (about 0.1
+    MWh, 10^5 even at the power shortfall price)."""
+    order = sorted(cfg.headers, key=lambda h: h.pressure)
+    return {h.id: cfg.penalties.steam_shortfall * (1.0 + 0.5 * k) for k, h in enumerate(order)}
+
+
 def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = BuildOptions()) -> SiteModel:
     """Build the dispatch MILP for ``series.hours`` hours.
 
@@ -107,8 +120,9 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
     # steam reserve: the spare capacity of the other running boilers covers any one of them
     add_reserve(m, ctx, cfg.reserve.enabled if options.reserve is None else options.reserve)
 
+    short_price = shortfall_prices(cfg)
     ctx.cost_terms["penalty"].append(lambda t: sum(
-        pen.steam_shortfall * m.steam_short[h, t] + pen.steam_surplus * m.steam_surplus[h, t] for h in H)
+        short_price[h] * m.steam_short[h, t] + pen.steam_surplus * m.steam_surplus[h, t] for h in H)
         + pen.power_shortfall * m.power_short[t] + pen.power_surplus * m.power_surplus[t]
         + pen.reserve_shortfall * m.reserve_short[t])
     m.cost = pyo.Objective(expr=sum(term(t) for terms in ctx.cost_terms.values() for term in terms

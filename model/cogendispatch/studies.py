@@ -376,7 +376,8 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
     for u in (*cfg.boilers, *cfg.turbogenerators):
         frame[f"hours_on_{u.id}"] = s[f"{u.id}.on"]
     for d in cfg.drives:
-        frame[f"machine_hours_on_steam_{d.id}"] = s[f"{d.id}.on_steam"]
+        if d.steam_turbine is not None and d.motor is not None:  # a choice to report
+            frame[f"machine_hours_on_steam_{d.id}"] = s[f"{d.id}.on_steam"]
     frame["shortfall_hours"] = short_hours(cfg, c).astype(int)
     idx = pd.DatetimeIndex(s.index)
     if by_month:

@@ -6,8 +6,10 @@ numbers of the site's currency per internal unit (per GJ, per MWh, per t).
 
 A value is written as a number followed by its unit, e.g. ``"42 bar(a)"``, ``"150 psig"``,
 ``"400 degC"``, ``"120 t/h"``, ``"850 kW"``; a price as ``"7.5 per GJ"`` or ``"7.5 /MMBtu"``.
-Gauge pressures (``bar(g)``, ``barg``, ``psig``, ``kPa(g)``) are referred to the standard
-atmosphere, 1.01325 bar (ISO 2533 / ICAO standard atmosphere).
+Gauge pressures (``bar(g)``, ``barg``, ``psig``, ``kPa(g)``, ``MPa(g)``) are referred to the
+standard atmosphere, 1.01325 bar (ISO 2533 / ICAO standard atmosphere); plain ``kPa`` and
+``MPa`` are absolute, as in SI and the steam tables, while plain ``bar`` and ``psi``, which
+plant documents use both ways, are refused.
 """
 
 from __future__ import annotations
@@ -58,11 +60,15 @@ _NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
 _VALUE_RE = re.compile(rf"^\s*({_NUMBER})\s*(.*?)\s*$")
 _PRICE_RE = re.compile(rf"^\s*({_NUMBER})\s*(?:per\b|/)\s*(.+?)\s*$")
 
-_GAUGE = {"bar(g)": "bar", "barg": "bar", "psig": "psi", "kpa(g)": "kPa", "kpag": "kPa"}
-_ABS = {"bar(a)": "bar", "bara": "bar", "psia": "psi", "kpa(a)": "kPa", "mpa(a)": "MPa"}
+_GAUGE = {"bar(g)": "bar", "barg": "bar", "psig": "psi", "psi(g)": "psi", "kpa(g)": "kPa", "kpag": "kPa",
+          "mpa(g)": "MPa", "mpag": "MPa"}
+_ABS = {"bar(a)": "bar", "bara": "bar", "psia": "psi", "psi(a)": "psi", "kpa(a)": "kPa", "kpaa": "kPa",
+        "mpa(a)": "MPa", "mpaa": "MPa"}
+# plain kPa and MPa are taken as absolute, the SI convention (steam tables give MPa absolute)
 # pressure units that trade use writes both as gauge and as absolute: refused without the marker
 _AMBIGUOUS = {"bar": "12 bar(a)' or '11 bar(g)", "psi": "150 psig' or '165 psia", "mbar": "0.12 bar(a)"}
-_ALIASES = {"°c": "degC", "°f": "degF", "c": "degC", "f": "degF", "tph": "t/h", "klb/hr": "klb/h"}
+_ALIASES = {"°c": "degC", "°f": "degF", "c": "degC", "f": "degF", "tph": "t/h", "klb/hr": "klb/h",
+            "bhp": "hp"}  # brake horsepower on pump data sheets: the mechanical horsepower
 
 
 def _normalise_unit(unit: str) -> tuple[str, bool]:

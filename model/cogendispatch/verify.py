@@ -164,7 +164,8 @@ def verify_schedule(cfg: SiteConfig, series: Series, schedule: pd.DataFrame,
             water = flow * (st.headers[ld.source].h - st.headers[ld.to].h) / (st.headers[ld.to].h - h_fw)
             mass_imb[ld.to] += water - float(r[f"{ld.id}.water_t_h"])
         # deaerator: steam from its energy balance with the physical spray water
-        fw = float(r["deaerator.feedwater_t_h"]) + extra_water
+        # the overflow drains at feedwater enthalpy, as scheduled (older plans lack the column)
+        fw = float(r["deaerator.feedwater_t_h"]) + extra_water + float(r.get("deaerator.overflow_t_h", 0.0))
         cond = 0.0
         cond_h = 0.0
         for c in cfg.condensers:

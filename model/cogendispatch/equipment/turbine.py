@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import pyomo.environ as pyo
 
 from ..plant.schema import TurboGenerator
-from ..steam import SteamState, expansion_end, isentropic_drop
+from ..steam import SteamState, expansion_end, isentropic_drop, state_ph
 from .common import ModelContext, SiteStates, Term, commitment
 
 
@@ -68,23 +68,47 @@ def section_power(flow: float, drop_s: float, efficiency: float) -> float:
     return flow * drop_s * efficiency / 3600.0
 
 
+def envelope_work(tg: TurboGenerator) -> list[float]:
+    """Shaft work a tonne of steam does before it leaves at each section's end [kJ/kg]:
+    for an extraction, (a + b_k) / eta_gen; for the exhaust, a / eta_gen, with a the
+    envelope's MW per t/h of throttle and b_k its MW per t/h extracted at section k
+    (1 MW per t/h = 3600 kJ/kg). The no-load loss is taken off the terminals as in the
+    section model, so it does not come out of the steam.
+
+    With these, the first law on the casing closes exactly: throttle x h_in less each
+    leaving flow x (h_in - its work) is a x throttle + sum(b_k x extraction_k) over eta_gen.
+    """
+    env = tg.envelope
+    if env is None:
+        raise ValueError(f"turbo-generator {tg.id} has no envelope")
+    a = env.throttle
+    work = [3600.0 * (a + env.extraction.get(sec.to, 0.0)) / tg.generator_efficiency for sec in tg.sections[:-1]]
+    return [*work, 3600.0 * a / tg.generator_efficiency]
+
+
 def coefficients(tg: TurboGenerator, states: SiteStates) -> TurbineCoefficients:
-    """Expand along the sections from the inlet header state with IAPWS-IF97."""
+    """Expand along the sections from the inlet header state with IAPWS-IF97.
+
+    A maker's envelope sets the power; the steam then leaves each section at the enthalpy
+    the envelope's work implies (:func:`envelope_work`), so that the exhausts carry what
+    the generator did not take, and the efficiency shown is the one that implies."""
     inlet = states.headers[tg.inlet]
+    h_in = inlet.h
+    work = envelope_work(tg) if tg.envelope is not None else None
     out = []
-    for sec in tg.sections:
+    for k, sec in enumerate(tg.sections):
         to_cond = sec.to in states.condensers
         p_out = states.condensers[sec.to].p if to_cond else states.headers[sec.to].p
         drop = isentropic_drop(inlet, p_out)
-        if sec.efficiency is not None:
-            outlet = expansion_end(inlet, p_out, sec.efficiency)
-            mw = section_power(1.0, drop, sec.efficiency)
+        if work is None:
+            eff = sec.efficiency
+            outlet = expansion_end(inlet, p_out, eff)
+            mw = section_power(1.0, drop, eff)
         else:
-            # envelope turbine without section efficiency (never to a condenser, see
-            # plant.load): the extraction is taken to leave at its header's state
-            outlet = states.headers[sec.to]
+            outlet = state_ph(p_out, h_in - work[k])
             mw = (inlet.h - outlet.h) / 3600.0
-        out.append(SectionCoefficients(sec.to, p_out, inlet, outlet, drop, sec.efficiency, mw, to_cond))
+            eff = (inlet.h - outlet.h) / drop if drop > 0 else float("nan")
+        out.append(SectionCoefficients(sec.to, p_out, inlet, outlet, drop, eff, mw, to_cond))
         inlet = outlet
     condensing = out[-1].to_condenser
     kind = ("extraction-" if len(out) > 1 else "") + ("condensing" if condensing else "back-pressure")

@@ -4,13 +4,13 @@ from __future__ import annotations
 
 import tomllib
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from pydantic import ValidationError
 
 from ..errors import InputError, InputErrors
 from ..steam import P_CRIT_BAR, SteamPropertyError, header_state, saturation_temperature, theoretical_steam_rate
-from .schema import SiteConfig
+from .schema import Header, SiteConfig, TurboGenerator
 
 _TABLE_NAMES = {
     "headers": "header", "fuels": "fuel", "boilers": "boiler", "turbogenerators": "turbogenerator",
@@ -243,6 +243,11 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                 if key not in extr:
                     bad(where("turbogenerator", t.id, f"envelope > extraction > {key}"),
                         f"'{key}' is not an extraction of this turbine (extractions: {', '.join(sorted(extr)) or 'none'})")
+            for k, sec in enumerate(t.sections):
+                if sec.efficiency is not None:
+                    bad(where("turbogenerator", t.id, f"section #{k + 1} > efficiency"),
+                        "not used with an 'envelope', which sets the power and so the exhaust states: give one or the other")
+            _check_envelope_work(t, headers, bad, where)
         if t.fixed_throttle is not None and not (t.min_throttle <= t.fixed_throttle <= t.max_throttle):
             bad(where("turbogenerator", t.id, "fixed_throttle"), "must lie between min_throttle and max_throttle")
 
@@ -328,3 +333,39 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
     if g.min_import > g.max_import:
         bad("[grid] > min_import", "exceeds max_import")
     return problems
+
+
+def _check_envelope_work(t: TurboGenerator, headers: dict[str, Header], bad: Callable[[str, str], None],
+                         where: Callable[[str, str, str], str]) -> None:
+    """An envelope's work per tonne leaving at each section [kJ/kg] must be positive, grow
+    along the casing, and stay within an isentropic expansion from the inlet to that
+    section's pressure (a larger work would take an efficiency above 1)."""
+    from ..equipment.turbine import envelope_work
+    from ..steam import isentropic_drop
+
+    if t.inlet not in headers or any(sec.to not in headers for sec in t.sections):
+        return  # references are reported elsewhere; an envelope never exhausts to a condenser
+    try:
+        h = headers[t.inlet]
+        inlet = header_state(h.pressure, h.temperature)
+        work = envelope_work(t)
+        prev = 0.0
+        for k, (sec, w) in enumerate(zip(t.sections, work)):
+            last = k == len(t.sections) - 1
+            key = "envelope > throttle" if last else f"envelope > extraction > {sec.to}"
+            leaving = "exhaust" if last else f"extraction to '{sec.to}'"
+            ideal = isentropic_drop(inlet, headers[sec.to].pressure)
+            if w <= 0:
+                bad(where("turbogenerator", t.id, key),
+                    f"steam leaving at the {leaving} would do {w:.1f} kJ/kg of work: it must do some")
+            elif w > ideal:
+                bad(where("turbogenerator", t.id, key),
+                    f"steam leaving at the {leaving} would do {w:.1f} kJ/kg of work (generator efficiency included), "
+                    f"more than the {ideal:.1f} kJ/kg of an isentropic expansion from '{t.inlet}' to '{sec.to}'")
+            elif w < prev - 1e-9:
+                bad(where("turbogenerator", t.id, key),
+                    f"steam leaving at the {leaving} would do less work ({w:.1f} kJ/kg) than steam leaving "
+                    f"earlier in the casing ({prev:.1f} kJ/kg)")
+            prev = w
+    except SteamPropertyError:
+        pass  # the header itself is reported elsewhere

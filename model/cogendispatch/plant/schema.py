@@ -225,11 +225,14 @@ class Penalties(_Table):
     steam_surplus: MassPrice = 1.0e6
     power_shortfall: PowerPrice = 1.0e6  # [currency/MWh]
     power_surplus: PowerPrice = 1.0e6
-    # [currency/t per hour of reserve missing] below the steam shortfall, so that a week whose
-    # demand cannot be met with the reserve held shows the demand met and the reserve short,
-    # not an arbitrary split between the two (with equal prices each t/h of boiler steam
-    # moved from reserve to demand is a wash)
-    reserve_shortfall: MassPrice = 5.0e5
+    # [currency/t per hour of reserve missing] a hundredth of the shortfalls, so that a week
+    # whose demand cannot be met with the reserve held shows the demand met and the reserve
+    # short, never load or process steam cut to keep reserve: a t/h of boiler steam moved
+    # from reserve to demand trades 1:1 against a steam shortfall, and a MW of power made
+    # from steam (a machine put on its steam turbine, a turbo-generator run harder) takes
+    # up to about 40 t/h of it (a small pump turbine's steam rate); still above any
+    # start-up cost for a t/h missing over a few hours
+    reserve_shortfall: MassPrice = 1.0e4
 
 
 class SiteConfig(_Table):

@@ -67,7 +67,8 @@ _KIND = {
 def _read_table(path: Path) -> pd.DataFrame:
     try:
         if path.suffix.lower() in (".xlsx", ".xlsm", ".xls"):
-            return pd.read_excel(path, dtype=str, sheet_name=0)
+            # cells as typed: pandas would turn 'n/a', 'NA' and blanks alike into NaN
+            return pd.read_excel(path, dtype=str, sheet_name=0, na_filter=False)
         return pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
     except FileNotFoundError:
         raise InputError(path, "", "file not found") from None
@@ -176,7 +177,7 @@ def _numeric(col: pd.Series, path: Path, name: str) -> pd.Series:
     if bad.any():
         i = int(np.argmax(bad.to_numpy()))
         cell = text.iloc[i]
-        what = "an empty cell" if cell in ("", "nan", "None") else f"'{cell}' is not a finite number"
+        what = "an empty cell" if cell == "" else f"'{cell}' is not a finite number"
         raise InputError(path, f"row {i + 2}, column '{name}'", what)
     return num.astype(float).reset_index(drop=True)
 
@@ -209,8 +210,13 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
                 raise InputError(path, f"row {row}, column 'time'", f"duplicated hour {text.iloc[i + 1]}")
             if d < 0:
                 raise InputError(path, f"row {row}, column 'time'", f"{text.iloc[i + 1]} is before the previous row: rows must be in time order")
-            if d > 1:
+            slash = " Dates with '/' are read month first (01/03/2027 is 3 January): write 2027-03-01." \
+                if text.str.contains("/").any() else ""
+            if d > 1 and d == round(d):
                 raise InputError(path, f"row {row}, column 'time'",
-                                 f"{d - 1:g} missing hour(s) before {text.iloc[i + 1]} (a daylight-saving gap? give UTC offsets)")
-            raise InputError(path, f"row {row}, column 'time'", "rows must be exactly one hour apart")
+                                 f"{d - 1:g} missing hour(s) before {text.iloc[i + 1]} (a daylight-saving gap? give UTC offsets)"
+                                 + slash)
+            raise InputError(path, f"row {row}, column 'time'",
+                             f"{text.iloc[i + 1]} is {d * 60:g} min after the previous row: rows must be exactly one hour apart"
+                             + slash)
     return idx

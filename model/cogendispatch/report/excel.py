@@ -4,6 +4,7 @@ frozen panes and number formats. Text that a spreadsheet would read as a formula
 from __future__ import annotations
 
 import json
+from datetime import datetime
 from pathlib import Path
 
 import pandas as pd
@@ -24,6 +25,18 @@ def _sheet(writer: pd.ExcelWriter, name: str, df: pd.DataFrame, index: bool) -> 
             for cell in row:
                 if isinstance(cell.value, float):
                     cell.number_format = "#,##0.000"
+                elif isinstance(cell.value, datetime):
+                    cell.number_format = "yyyy-mm-dd hh:mm"
+
+
+def _read(path: Path, index: str | None = None) -> pd.DataFrame:
+    """A plan table with its ``time`` column as date-times Excel can sort and filter (times
+    with a UTC offset become UTC: a workbook cell holds no offset)."""
+    df = pd.read_csv(path)
+    if "time" in df:
+        t = pd.to_datetime(df["time"], utc=df["time"].astype(str).str.contains(r"[+-]\d\d:\d\d$|Z$").any())
+        df["time"] = t.dt.tz_localize(None) if t.dt.tz is not None else t
+    return df.set_index(index) if index else df
 
 
 def write_plan_xlsx(d: Path, path: Path) -> None:
@@ -40,15 +53,15 @@ def write_plan_xlsx(d: Path, path: Path) -> None:
                             for k, v in s.get("drive_hours", {}).items()])
     with pd.ExcelWriter(path, engine="openpyxl") as w:
         _sheet(w, "summary", summary, index=False)
-        _sheet(w, "schedule", pd.read_csv(d / "schedule.csv", index_col="time"), index=True)
-        _sheet(w, "header balances", pd.read_csv(d / "balances.csv"), index=False)
-        _sheet(w, "electric balance", pd.read_csv(d / "power.csv"), index=False)
+        _sheet(w, "schedule", _read(d / "schedule.csv", "time"), index=True)
+        _sheet(w, "header balances", _read(d / "balances.csv"), index=False)
+        _sheet(w, "electric balance", _read(d / "power.csv"), index=False)
         _sheet(w, "drivers", drivers, index=False)
         # the other tables of the folder, where the run wrote them
         for name, file, index in (("costs", "costs.csv", "time"), ("prices", "prices.csv", None),
                                   ("verification", "verify.csv", "time")):
             if (d / file).is_file():
-                _sheet(w, name, pd.read_csv(d / file, index_col=index), index=index is not None)
+                _sheet(w, name, _read(d / file, index), index=index is not None)
 
 
 def write_study_xlsx(d: Path, path: Path) -> None:

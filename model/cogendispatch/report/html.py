@@ -89,6 +89,8 @@ def plan_report(d: Path, units: Units = Units()) -> str:
             [{"category": k, f"practice [{s.get('currency', '')}]": v["baseline"],
               f"optimised [{s.get('currency', '')}]": v["optimised"], f"saving [{s.get('currency', '')}]": v["saving"],
               "saving [%]": v["saving_pct"]} for k, v in sv.items()])))
+    elif "baseline_note" in s:
+        body.append(f"<h2>Against the practice baseline</h2><p>{escape(s['baseline_note'])}</p>")
     if "verify" in s:
         v = s["verify"]
         ok = v["verdict"].startswith("linear model within")
@@ -99,6 +101,10 @@ def plan_report(d: Path, units: Units = Units()) -> str:
     for h, g in bal.groupby("header", sort=False):
         piv = g.pivot_table(index="time", columns="term", values="flow_t_h", aggfunc="sum", sort=False) * units.kf
         demand = -piv.pop("process demand") if "process demand" in piv else None
+        if demand is not None and (demand < 0).any():
+            # a process that exports steam into the header is a source, stacked with the rest
+            piv["process export"] = (-demand).clip(lower=0.0)
+            demand = demand.clip(lower=0.0)
         body.append(_chart(plots.stacked_balance(piv, demand, f"{h} header: sources (+) and uses (-)",
                                                  f"steam flow [{units.flow}]")))
     piv = pw.pivot_table(index="time", columns="term", values="power_MW", aggfunc="sum", sort=False)
@@ -133,7 +139,8 @@ def plan_report(d: Path, units: Units = Units()) -> str:
     fuel = sum(sched[c] for c in sched.columns if c.endswith(".fuel_GJ_h")) * units.ke
     body.append(f"<p class='meta'>fuel {float(fuel.sum()):,.0f} {units.energy}, import {s['import_MWh']:,.0f} MWh, "
                 f"export {s['export_MWh']:,.0f} MWh, CO2 {s['co2_t']:,.0f} t</p>")
-    return _page("Weekly plan", meta, body, s.get("note", ""))
+    hours = int(s.get("hours", 168))
+    return _page("Weekly plan" if hours == 168 else f"Plan over {hours} h", meta, body, s.get("note", ""))
 
 
 def study_report(d: Path, units: Units = Units()) -> str:
