@@ -138,6 +138,20 @@ def test_baseline_keeps_a_boiler_on_while_its_ramp_brings_it_down() -> None:
     assert base.results.schedule["POOR.on"].tolist() == [1, 1, 1, 1, 1, 0, 0, 0]
 
 
+def test_baseline_ranks_boilers_by_steam_cost_not_efficiency() -> None:
+    """A less efficient boiler on a fuel at a third of the price makes cheaper steam
+    (4/0.75 = 5.3 against 12/0.9 = 13.3 per GJ of steam): the practice rule commits it
+    first, and the better-but-dearer one only when it is needed."""
+    fuels = [{"id": "NG", "price": "12 per GJ"}, {"id": "HOG", "price": "4 per GJ"}]
+    boilers = [{"id": "GAS", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "12 t/h",
+                "efficiency_curve": {"load": [0.2, 1.0], "efficiency": [0.86, 0.9]}, "initial_on": False},
+               {"id": "BIO", "header": "HP", "fuels": ["HOG"], "max_steam": "60 t/h", "min_steam": "12 t/h",
+                "efficiency_curve": {"load": [0.2, 1.0], "efficiency": [0.7, 0.75]}, "initial_on": False}]
+    cfg = site(fuel=fuels, boiler=boilers)
+    s = practice_baseline(cfg, series(cfg, 4, demand_LP=[20, 20, 20, 20])).results.schedule
+    assert s["BIO.on"].tolist() == [1, 1, 1, 1] and s["GAS.on"].tolist() == [0, 0, 0, 0]
+
+
 def test_baseline_follows_the_rules_and_never_beats_the_optimiser() -> None:
     boilers = [{"id": "GOOD", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "12 t/h",
                 "efficiency_curve": {"load": [0.2, 1.0], "efficiency": [0.86, 0.9]}},

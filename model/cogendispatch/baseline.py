@@ -2,7 +2,9 @@
 
 Practice rules (common practice, no published source):
 
-* boilers are committed in merit order of full-load efficiency: in each hour the first k
+* boilers are committed in merit order of full-load steam cost (the cheapest of their
+  fuels at its mean price over the horizon, CO2 included, over full-load efficiency; with
+  one fuel, the order of efficiency): in each hour the first k
   boilers run, k the smallest number that supplies every header and keeps the steam
   reserve; the first hour keeps the initial states, a boiler running at the start stays on
   until its ramp-down limit lets it reach its shut-down load, and the runs are stretched to
@@ -24,7 +26,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .equipment.common import held_value, repair_commitment
+from .equipment import boiler as boiler_mod
+from .equipment.common import SiteStates, held_value, repair_commitment
 from .plant.schema import Boiler, SiteConfig
 from .plant.series import Series
 from .results import PlanResults, plan_results
@@ -78,8 +81,7 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
     base_cols = np.array(fixed_cols, dtype=np.int32)
     base_vals = np.array(fixed_vals)
 
-    merit = sorted([b for b in cfg.boilers if b.available],
-                   key=lambda b: -b.efficiency_curve.efficiency[-1])
+    merit = sorted([b for b in cfg.boilers if b.available], key=lambda b: _full_load_steam_cost(b, cfg, series))
     k = np.ones(len(hours), dtype=int)
     rounds = 0
     x = None
@@ -122,6 +124,16 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
     cost = res.totals["cost"]
     return Baseline(cost=cost, total=float(sum(cost.values())), results=res, rounds=rounds,
                     merit_loaded=merit_loaded)
+
+
+def _full_load_steam_cost(b: Boiler, cfg: SiteConfig, series: Series) -> float:
+    """Fuel and CO2 cost of a tonne of steam at full load [currency/t], on the boiler's
+    cheapest fuel at its mean price over the horizon: the order an operator ranks boilers."""
+    heat = boiler_mod.coefficients(b, SiteStates.of(cfg)).heat_per_t  # [GJ/t]
+    co2 = float(series.co2_price.mean()) if len(series.co2_price) else 0.0
+    factor = {f.id: f.co2_factor for f in cfg.fuels}
+    price = min(float(series.fuel_price[f].mean()) + factor[f] * co2 for f in b.fuels)
+    return price * heat / b.efficiency_curve.efficiency[-1]
 
 
 def _hours_to_shut_down(b: Boiler) -> int:
