@@ -175,6 +175,8 @@ def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  #
     (["--at", "2027-01-05T10:00", "--price", "gas=3"], "--price"),
     (["--at", "2027-01-05T10:00", "--demand", "XX=+3"], "--demand"),
     (["--at", "2027-01-05T10:00", "--demand", "LP=lots"], "--demand"),
+    (["--at", "2027-01-05T10:00", "--demand", "LP=+5 MW"], "--demand"),  # a unit of the wrong kind
+    (["--at", "2027-01-05T10:00", "--price", "import=90 per t"], "--price"),
 ])
 def test_cli_advise_bad_options_exit_2(args: list[str], where: str, capsys) -> None:  # noqa: ANN001
     from pathlib import Path
@@ -182,6 +184,19 @@ def test_cli_advise_bad_options_exit_2(args: list[str], where: str, capsys) -> N
     rc = main(["advise", str(root / "saltmarsh_refinery.toml"), "--series", str(root / "saltmarsh_week.csv"), *args])
     err = capsys.readouterr().err
     assert rc == 2 and where in err and "Traceback" not in err
+
+
+def test_what_if_values_may_carry_units() -> None:
+    import argparse
+
+    from cogendispatch.cli import what_if_from_args
+    args = argparse.Namespace(force=[], trip=[], price=["fuel:NG=4 per MMBtu", "import=0.09 per kWh", "export=40"],
+                              demand=["LP=+20 klb/h", "MP=-3"])
+    w = what_if_from_args(args)
+    assert w.fuel_price["NG"] == pytest.approx(4 / 1.055056, rel=1e-6)  # 1 MMBtu = 1.055056 GJ (NIST SP 811)
+    assert w.price_import == pytest.approx(90.0) and w.price_export == pytest.approx(40.0)
+    assert w.demand["LP"] == pytest.approx(20 * 0.45359237, rel=1e-9)  # 1 lb = 0.45359237 kg (NIST SP 811)
+    assert w.demand["MP"] == pytest.approx(-3.0)
 
 
 def test_hour_index_names_a_missing_hour() -> None:

@@ -156,9 +156,9 @@ def build_parser() -> argparse.ArgumentParser:
                     help="what if this machine ran on its steam turbine or on its motor (repeatable)")
     ad.add_argument("--trip", action="append", default=[], metavar="UNIT", help="a boiler or turbo-generator out")
     ad.add_argument("--price", action="append", default=[], metavar="WHAT=VALUE",
-                    help="import=, export= [per MWh] or fuel:ID= [per GJ]")
+                    help="import=, export= [per MWh] or fuel:ID= [per GJ]; or with a unit, e.g. 'fuel:NG=4 per MMBtu'")
     ad.add_argument("--demand", action="append", default=[], metavar="HEADER=+-T_H",
-                    help="change a header's process demand [t/h]")
+                    help="change a header's process demand [t/h], or with a unit, e.g. 'LP=+20 klb/h'")
     ad.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
     ad.add_argument("--out", help="also write advice.json, prices.csv, drivers.csv and summary.json here")
     ad.add_argument("--json", action="store_true", help="print advice.json to standard output")
@@ -185,22 +185,37 @@ def _number(v: str, flag: str) -> float:
     return x
 
 
+def _amount(v: str, flag: str, kind: str) -> float:
+    """A plain number in the internal unit of ``kind``, or a number with its own unit
+    ('4 per MMBtu', '+20 klb/h'), converted."""
+    from .units import UnitError, parse_quantity
+
+    try:
+        return _number(v, flag)
+    except InputError:
+        if not any(c.isalpha() for c in v):
+            raise
+    try:
+        return parse_quantity(v, kind)
+    except UnitError as e:
+        raise InputError(None, flag, str(e)) from None
+
+
 def what_if_from_args(args: argparse.Namespace) -> "WhatIf":
     from .decisions import WhatIf
 
     w = WhatIf(force=dict(_pairs(args.force, "--force")), trip=list(args.trip))
     for k, v in _pairs(args.price, "--price"):
-        x = _number(v, "--price")
         if k == "import":
-            w.price_import = x
+            w.price_import = _amount(v, "--price", "price_power")
         elif k == "export":
-            w.price_export = x
+            w.price_export = _amount(v, "--price", "price_power")
         elif k.startswith("fuel:"):
-            w.fuel_price[k[5:]] = x
+            w.fuel_price[k[5:]] = _amount(v, "--price", "price_energy")
         else:
             raise InputError(None, "--price", f"'{k}' is not import, export or fuel:<id>")
     for k, v in _pairs(args.demand, "--demand"):
-        w.demand[k] = _number(v, "--demand")
+        w.demand[k] = _amount(v, "--demand", "mass_flow")
     return w
 
 
