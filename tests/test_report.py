@@ -107,3 +107,14 @@ def test_page_renders_in_headless_chromium(plan_dir: Path, tmp_path: Path) -> No
     assert [u for u in requests if not u.startswith("file://")] == []
     assert n_svg >= 5 and drawn == n_svg  # two headers, power, boilers, cost per day
     assert shot.stat().st_size > 20_000
+
+
+def test_plan_prints_its_fuel_total_in_the_units_asked(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    (tmp_path / "site.toml").write_text(TINY_TOML)
+    (tmp_path / "s.csv").write_text(SERIES)
+    assert main(["plan", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--out",
+                 str(tmp_path / "out"), "--quiet", "--units", "us"]) == 0
+    out = capsys.readouterr().out
+    gj = json.loads((tmp_path / "out" / "summary.json").read_text())["fuel_total_GJ"]
+    # 1 MMBtu = 1.055056 GJ (NIST SP 811, International Table Btu)
+    assert f"fuel {gj / 1.055056:,.0f} MMBtu" in out

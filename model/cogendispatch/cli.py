@@ -62,7 +62,9 @@ def _count(text: str) -> int:
 
 
 def _units_option(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--units", choices=["si", "us"], default="si", help="report units: t/h and GJ, or klb/h and MMBtu")
+    p.add_argument("--units", choices=["si", "us"], default="si",
+                   help="units of report.html and of the fuel total printed here: t/h and GJ, or klb/h and "
+                        "MMBtu (the CSV, JSON and workbook files and the messages stay in t/h and GJ)")
 
 
 def _site_and_series(p: argparse.ArgumentParser, series_help: str) -> None:
@@ -451,9 +453,11 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                            for k, v in s["drive_hours"].items()])
         _table(out, "Drives", dh)
         sec = s["seconds"]
+        from .report.html import Units
+        u = Units(args.units)
         out.print(f"status {s['status']}, gap {100 * s['gap']:.3f} %, cost {s['objective']:,.0f} {cur}, "
-                  f"bound {s['bound']:,.0f}; fuel {s['fuel_total_GJ']:,.0f} GJ, import {s['import_MWh']:,.0f} MWh, "
-                  f"export {s['export_MWh']:,.0f} MWh, CO2 {s['co2_t']:,.0f} t")
+                  f"bound {s['bound']:,.0f}; fuel {s['fuel_total_GJ'] * u.ke:,.0f} {u.energy}, "
+                  f"import {s['import_MWh']:,.0f} MWh, export {s['export_MWh']:,.0f} MWh, CO2 {s['co2_t']:,.0f} t")
         out.print(f"time: build {sec['build']:.2f} s, load {sec['load']:.2f} s, start {sec['start']:.2f} s, "
                   f"solve {sec['solve']:.2f} s, total {sec['total']:.2f} s; schedule found by {s['found_by']}")
         if "baseline" in s:
