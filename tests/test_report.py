@@ -118,3 +118,16 @@ def test_plan_prints_its_fuel_total_in_the_units_asked(tmp_path: Path, capsys: p
     gj = json.loads((tmp_path / "out" / "summary.json").read_text())["fuel_total_GJ"]
     # 1 MMBtu = 1.055056 GJ (NIST SP 811, International Table Btu)
     assert f"fuel {gj / 1.055056:,.0f} MMBtu" in out
+
+
+def test_penalties_stay_out_of_the_cost_and_price_charts(tmp_path: Path) -> None:
+    """An impossible hour costs 10^6 per t missing: the daily cost chart and the price
+    charts leave it out (it would flatten every real figure), and the page says so."""
+    (tmp_path / "site.toml").write_text(TINY_TOML)
+    (tmp_path / "s.csv").write_text("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n"
+                                    "2027-03-01T00:00,0,20,5,50\n2027-03-01T01:00,0,90,5,50\n"
+                                    "2027-03-01T02:00,0,20,5,50\n")
+    assert main(["plan", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--out",
+                 str(tmp_path / "out"), "--quiet"]) == 3
+    html = (tmp_path / "out" / "report.html").read_text()
+    assert "are left out of this chart and of the prices below" in html and "in 1 h" in html

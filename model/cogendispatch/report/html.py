@@ -123,11 +123,20 @@ def plan_report(d: Path, units: Units = Units()) -> str:
         body.append("<h2>Drivers</h2>" + _chart(plots.stacked_bars(frame, "Machine-hours on steam and on motor",
                                                                     "machine-hours [h]", horizontal=True)))
     daily = cost.groupby(cost.index.date).sum()
+    # penalties for unmet demand are of another order (10^6 per t): charted, they flatten
+    # every real cost, so they are named in words instead
+    short = cost["penalty"] > 1e-6 if "penalty" in cost else pd.Series(False, index=cost.index)
+    daily = daily.drop(columns="penalty", errors="ignore")
     body.append(f"<h2>Cost by day [{cur}]</h2>" + _chart(plots.stacked_bars(daily, "Cost by category per day",
                                                                            f"cost [{s.get('currency', '')}/day]")))
+    if short.any():
+        body.append(f"<p class='bad'>Penalties for unmet demand or reserve, {float(cost['penalty'].sum()):,.0f} "
+                    f"{cur} in {int(short.sum())} h, are left out of this chart and of the prices below; "
+                    "see the diagnosis.</p>")
     if (d / "prices.csv").is_file():
         pr = pd.read_csv(d / "prices.csv", parse_dates=["time"])
         wide = pr.pivot(index="time", columns="balance", values="price")
+        wide.loc[short.reindex(wide.index, fill_value=False).to_numpy(), :] = float("nan")  # priced by a penalty
         steam = wide.drop(columns="power", errors="ignore") / units.kf  # per t -> per klb in US units
         mass = "klb" if units.us else "t"
         body.append("<h2>Marginal prices</h2><p>What one more unit of steam in a header, or of site "
