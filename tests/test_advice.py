@@ -155,6 +155,35 @@ def test_boiler_trip_with_and_without_reserve(reserve: bool) -> None:
         assert any("header SHORT" in c for c in a.what_if["changes"])
 
 
+def test_what_if_keeps_the_commitment_unless_starts_are_allowed() -> None:
+    """Without the reserve, 40 t/h of LP runs on one of three 60 t/h boilers. 40 t/h more
+    is beyond one boiler's rating: held, the header is short by what the one cannot give;
+    with starts allowed, a second boiler starts, its start-up cost charged to the hour."""
+    boilers = [dict(b, startup_cost=2000) for b in _three_boilers()]
+    cfg = site(boiler=boilers, reserve={"enabled": False})
+    ser = series(cfg, 1, demand_LP=40.0)
+    at = str(ser.time[0])
+    base = advise(cfg, ser, at, "<tiny>")
+    assert sum(on for b, on in base.held.items() if b.startswith("B")) == 1
+    held = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(demand={"LP": 40.0}))
+    assert held.what_if["short"] is True and not any("started" in c for c in held.what_if["changes"])
+    free = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(demand={"LP": 40.0}), allow_starts=True)
+    assert free.what_if["short"] is False and any("started" in c for c in free.what_if["changes"])
+    assert free.what_if["asked"]["demand"] == {"LP": 40.0} and free.what_if["asked"]["allow_starts"] is True
+
+
+def test_trip_says_the_reserve_is_dropped_and_names_a_unit_already_off() -> None:
+    cfg = site(boiler=_three_boilers(), reserve={"enabled": False})
+    ser = series(cfg, 1, demand_LP=75.0)
+    at = str(ser.time[0])
+    off = [b for b, on in advise(cfg, ser, at, "<tiny>").held.items() if b.startswith("B") and not on]
+    a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(trip=off))
+    assert a.what_if["changes"][0] == f"{off[0]} was already off" and a.what_if["change"] == pytest.approx(0.0, abs=1e-6)
+    cfg = site(boiler=_three_boilers(), reserve={"enabled": True})
+    a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(trip=["B1"]))
+    assert any(c.startswith("steam reserve no longer kept") for c in a.what_if["changes"])
+
+
 def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  # noqa: ANN001
     from pathlib import Path
     root = Path(__file__).resolve().parents[1] / "plant_configs"
@@ -166,6 +195,37 @@ def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  #
     assert "Marginal prices" in text and "Turbine or motor" in text and "what-if" in text
     for f in ("advice.json", "prices.csv", "drivers.csv"):
         assert (out / f).is_file()
+    import json
+
+    import pandas as pd
+    pr = pd.read_csv(out / "prices.csv").set_index("balance")
+    adv = json.loads((out / "advice.json").read_text())
+    assert set(pr.index) == {"HP", "MP", "LP", "power"} and pr.loc["power", "unit"] == "EUR/MWh"
+    assert pr.loc["power", "price"] == pytest.approx(adv["marginal_price"]["power_per_MWh"])
+
+    # --json is strict JSON, as the file is (no NaN: a price that never flips is null)
+    def no_nan(name: str) -> None:
+        raise AssertionError(f"{name} in --json output")
+
+    rc = main(["advise", str(root / "saltmarsh_refinery.toml"), "--series", str(root / "saltmarsh_week.csv"),
+               "--at", "2027-01-05T10:00", "--json"])
+    printed = json.loads(capsys.readouterr().out, parse_constant=no_nan)
+    mp = adv["marginal_price"]
+    assert rc == 0 and printed["marginal_price"]["steam_per_t"] == pytest.approx(mp["steam_per_t"])
+    assert printed["marginal_price"]["power_per_MWh"] == pytest.approx(mp["power_per_MWh"])
+
+
+def test_advice_never_replaces_a_plan_folder(tmp_path, capsys) -> None:  # noqa: ANN001
+    from test_robustness import _digest, _files
+
+    site, ser = _files(tmp_path)
+    plan = tmp_path / "plan"
+    assert main(["plan", str(site), "--series", str(ser), "--out", str(plan), "--quiet"]) == 0
+    before = _digest(plan)
+    rc = main(["advise", str(site), "--series", str(ser), "--at", "2027-03-01T05:00", "--out", str(plan)])
+    err = capsys.readouterr().err
+    assert rc == 2 and "holds cogendispatch plan results, which advice results would replace" in err
+    assert _digest(plan) == before
 
 
 @pytest.mark.parametrize("args, where", [
@@ -177,6 +237,8 @@ def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  #
     (["--at", "2027-01-05T10:00", "--demand", "LP=lots"], "--demand"),
     (["--at", "2027-01-05T10:00", "--demand", "LP=+5 MW"], "--demand"),  # a unit of the wrong kind
     (["--at", "2027-01-05T10:00", "--price", "import=90 per t"], "--price"),
+    (["--at", "2027-01-05T10:00", "--demand", "LP=+20", "--demand", "LP=+5"], "given twice"),
+    (["--at", "2027-01-05T10:00", "--force", "CWP=steam", "--force", "CWP=motor"], "given twice"),
 ])
 def test_cli_advise_bad_options_exit_2(args: list[str], where: str, capsys) -> None:  # noqa: ANN001
     from pathlib import Path

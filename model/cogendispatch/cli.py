@@ -8,7 +8,6 @@ schedule; 130 interrupted.
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 import time
 from pathlib import Path
@@ -22,6 +21,7 @@ from rich.text import Text
 from rich.table import Table
 
 from .errors import InputError, SolveError
+from .outputs import json_text
 from .plan import SAFETY_NOTE, run_plan
 from .site import BuildOptions
 from .solve import SolveOptions
@@ -156,11 +156,17 @@ def build_parser() -> argparse.ArgumentParser:
     ad.add_argument("--plan", metavar="DIR", help="hold the on/off states of this plan's schedule.csv")
     ad.add_argument("--force", action="append", default=[], metavar="MACHINE=steam|motor",
                     help="what if this machine ran on its steam turbine or on its motor (repeatable)")
-    ad.add_argument("--trip", action="append", default=[], metavar="UNIT", help="a boiler or turbo-generator out")
+    ad.add_argument("--trip", action="append", default=[], metavar="UNIT",
+                    help="a boiler or turbo-generator out (repeatable)")
     ad.add_argument("--price", action="append", default=[], metavar="WHAT=VALUE",
-                    help="import=, export= [per MWh] or fuel:ID= [per GJ]; or with a unit, e.g. 'fuel:NG=4 per MMBtu'")
+                    help="import=, export= [per MWh] or fuel:ID= [per GJ]; or with a unit, e.g. 'fuel:NG=4 per MMBtu' "
+                         "(repeatable, once per price)")
     ad.add_argument("--demand", action="append", default=[], metavar="HEADER=+-T_H",
-                    help="change a header's process demand [t/h], or with a unit, e.g. 'LP=+20 klb/h'")
+                    help="change a header's process demand [t/h], or with a unit, e.g. 'LP=+20 klb/h' "
+                         "(repeatable, once per header)")
+    ad.add_argument("--allow-starts", action="store_true",
+                    help="let a what-if start a stopped boiler or turbo-generator, its whole start-up cost "
+                         "charged to the hour (by default every unit keeps its on/off state)")
     ad.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
     ad.add_argument("--out", help="also write advice.json, prices.csv, drivers.csv and summary.json here")
     ad.add_argument("--json", action="store_true", help="print advice.json to standard output")
@@ -168,11 +174,14 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _pairs(items: list[str], flag: str) -> list[tuple[str, str]]:
-    out = []
+    """KEY=VALUE options; a key given twice is refused rather than one value silently kept."""
+    out: list[tuple[str, str]] = []
     for it in items:
         k, sep, v = it.partition("=")
         if not sep or not k or not v:
             raise InputError(None, flag, f"'{it}' is not KEY=VALUE")
+        if any(k.strip() == seen for seen, _ in out):
+            raise InputError(None, flag, f"'{k.strip()}' is given twice; give each once")
         out.append((k.strip(), v.strip()))
     return out
 
@@ -238,16 +247,16 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     from .plant.series import load_series
 
     if args.out:
-        check_out_dir(Path(args.out).resolve())
+        check_out_dir(Path(args.out).resolve(), "advice")
     cfg = load_site(args.site)
     series = load_series(args.series, cfg)
     w = what_if_from_args(args)
     a = advise(cfg, series, args.at, args.series, args.plan, w,
-               BuildOptions(reserve=False if args.no_reserve else None))
+               BuildOptions(reserve=False if args.no_reserve else None), allow_starts=args.allow_starts)
     d = advice_dict(a, cfg.site.currency)
     cur = cfg.site.currency
     if args.json:
-        print(json.dumps(d, indent=2, default=str))
+        print(json_text(d))
     else:
         pr = pd.DataFrame([{"header": h, f"marginal price [{cur}/t]": v, "set by": a.reasons[h].split(": ", 1)[1]}
                            for h, v in a.prices.items()]
@@ -260,7 +269,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
             dt = a.drivers[["machine", "now_on_steam", "cost_on_steam", "cost_on_motor", "saving", "better",
                             "flip_import_price", "marginal_estimate"]].copy()
             dt.columns = ["machine", "now on steam", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
-                          f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", "marginal estimate"]
+                          f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", f"marginal estimate [{cur}/MWh]"]
             _table(out, "Turbine or motor" + (" (hour as given)" if a.what_if else ""),
                    dt.astype(object).where(dt.notna(), "none in range"))
         if a.what_if:
@@ -272,12 +281,15 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     if args.out:
         def write(dd: Path) -> None:
             write_json(d, dd / "advice.json")
-            write_csv(pd.DataFrame([{"header": h, "price_per_t": v, "set_by": a.reasons[h]}
-                                    for h, v in a.prices.items()]), dd / "prices.csv", index=False)
+            # the same long form as a plan's prices.csv: steam per header [per t], power [per MWh]
+            write_csv(pd.DataFrame([{"balance": h, "price": v, "unit": f"{cfg.site.currency}/t", "set_by": a.reasons[h]}
+                                    for h, v in a.prices.items()]
+                                   + [{"balance": "power", "price": a.power_price, "unit": f"{cfg.site.currency}/MWh",
+                                       "set_by": a.power_reason}]), dd / "prices.csv", index=False)
             write_csv(a.drivers, dd / "drivers.csv", index=False)
             # marker so a later run may replace this folder
             write_json({"kind": "advice", "time": a.time}, dd / "summary.json")
-        atomic_dir(args.out, write)
+        atomic_dir(args.out, write, "advice")
     short = [h for h, r in a.reasons.items() if "short" in r]
     if short:
         for h in short:
@@ -298,7 +310,7 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
 
     if args.window < 1 or args.lookahead < 0:
         raise InputError(None, "--window", "the window must be at least 1 h and the look-ahead not negative")
-    check_out_dir(Path(args.out).resolve())
+    check_out_dir(Path(args.out).resolve(), "study")
     cfg = load_site(args.site)
     base = load_series(args.series, cfg)
     scen = load_scenarios(args.scenarios, cfg, base)
@@ -332,10 +344,10 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
 
         write_reports(d, args.units)
 
-    atomic_dir(args.out, write)
+    atomic_dir(args.out, write, "study")
     if args.json:
-        print(json.dumps({"scenarios": table.to_dict(orient="records"),
-                          "diagnosis": {r.name: r.diagnosis for r in results}}, indent=2, default=float))
+        print(json_text({"scenarios": table.to_dict(orient="records"),
+                         "diagnosis": {r.name: r.diagnosis for r in results}}))
         return EXIT_SHORT if any(r.shortfall_hours for r in results) else EXIT_OK
     cur = cfg.site.currency
     cols = [c for c in table.columns if c.startswith("cost_")] + ["fuel_GJ", "import_MWh", "export_MWh", "co2_t",
@@ -440,7 +452,7 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                    args.units)
     s = run.summary
     if args.json:
-        print(json.dumps(s, indent=2, default=str))
+        print(json_text(s))
     else:
         cur = s["currency"]
         cost = pd.DataFrame([{"category": k, f"cost [{cur}]": v} for k, v in s["cost"].items()]

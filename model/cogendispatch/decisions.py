@@ -14,7 +14,7 @@ the model is built and loaded once per hour of advice.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
 import highspy
@@ -458,8 +458,13 @@ class Advice:
 
 
 def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir: str | None = None,
-           what_if: WhatIf | None = None, build: BuildOptions = BuildOptions()) -> Advice:
-    """Advice for the hour ``at``: marginal prices, driver table and an optional what-if."""
+           what_if: WhatIf | None = None, build: BuildOptions = BuildOptions(), allow_starts: bool = False) -> Advice:
+    """Advice for the hour ``at``: marginal prices, driver table and an optional what-if.
+
+    The what-if holds every boiler's and turbo-generator's on/off state: within the hour a
+    cold unit cannot take load, and a running one is not stopped on a whim. With
+    ``allow_starts`` a stopped unit may start (its whole start-up cost charged to the hour),
+    to ask whether a change would be worth a start."""
     import time as _time
 
     t0 = _time.perf_counter()
@@ -474,14 +479,18 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     drivers = driver_table(hm, now, prices)
     wi = None
     if what_if is not None and not what_if.empty():
-        # a trip is immediate: boilers that are off cannot take load within the hour, so
-        # the commitment is held; other what-ifs may start a unit, paying its start-up cost
-        hold = "all" if what_if.trip else "on"
+        # a trip is immediate and the rest cannot be started within the hour: the commitment
+        # is held unless starts are asked for (never after a trip)
+        hold = "on" if allow_starts and not what_if.trip else "all"
         base_free = hm.solve(hold=hold)
         new = hm.solve(what_if, hold=hold)
+        notes = [f"{u} was already off" for u in what_if.trip if held.get(u) == 0]
+        if what_if.trip and len(hm.reserve_rows):
+            notes.append("steam reserve no longer kept: the site is in the contingency it was kept for")
         wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
-              "changes": what_if_changes(base_free, new),
-              "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4}
+              "changes": notes + what_if_changes(base_free, new),
+              "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4,
+              "asked": {**asdict(what_if), "allow_starts": allow_starts and not what_if.trip}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
                   _time.perf_counter() - t0)
 

@@ -17,15 +17,31 @@ from .errors import InputError
 MARKER = "summary.json"  # a folder holding this was written by cogendispatch
 
 
-def check_out_dir(out: Path) -> None:
-    """Refuse, before any work, a folder that is not an earlier cogendispatch output or that
-    cannot be written: the results go into a temporary folder beside it, so one is made and
-    removed again in the nearest folder that exists."""
+def output_kind(d: Path) -> str | None:
+    """What a cogendispatch output folder holds ("plan", "study", "advice"), from its
+    marker; None when it has no readable marker."""
+    try:
+        summary = json.loads((d / MARKER).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    return str(summary.get("kind", "plan")) if isinstance(summary, dict) else None
+
+
+def check_out_dir(out: Path, kind: str = "plan") -> None:
+    """Refuse, before any work, a folder that is not an earlier cogendispatch output of the
+    same ``kind`` (a plan is never replaced by one hour's advice) or that cannot be written:
+    the results go into a temporary folder beside it, so one is made and removed again in
+    the nearest folder that exists."""
     if out.exists() and not out.is_dir():
         raise InputError(out, "--out", "exists and is not a folder")
-    if out.is_dir() and any(out.iterdir()) and not (out / MARKER).exists():
-        raise InputError(out, "--out", "is a non-empty folder that does not hold cogendispatch results; "
-                         "choose a new or empty folder (nothing was written)")
+    if out.is_dir() and any(out.iterdir()):
+        held = output_kind(out)
+        if held is None:
+            raise InputError(out, "--out", "is a non-empty folder that does not hold cogendispatch results; "
+                             "choose a new or empty folder (nothing was written)")
+        if held != kind:
+            raise InputError(out, "--out", f"holds cogendispatch {held} results, which {kind} results would "
+                             "replace; choose another folder (nothing was written)")
     base = out.parent
     while not base.exists() and base != base.parent:
         base = base.parent
@@ -38,14 +54,15 @@ def check_out_dir(out: Path) -> None:
                          "(nothing was written)") from None
 
 
-def atomic_dir(out: str | Path, write: Callable[[Path], None]) -> Path:
-    """Call ``write(tmp)`` to fill a temporary folder, then put it in place of ``out``.
+def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan") -> Path:
+    """Call ``write(tmp)`` to fill a temporary folder, then put it in place of ``out`` (an
+    earlier output of the same ``kind``, see :func:`check_out_dir`).
 
     An interruption before the swap leaves ``out`` exactly as it was; the swap itself is two
     renames on the same file system.
     """
     out = Path(out).resolve()
-    check_out_dir(out)
+    check_out_dir(out, kind)
     try:
         out.parent.mkdir(parents=True, exist_ok=True)
         tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
@@ -107,6 +124,11 @@ def _strict(obj: object) -> object:
     return obj
 
 
+def json_text(obj: object) -> str:
+    """Strict JSON (no NaN: missing numbers are null), indented: for files and for --json."""
+    return json.dumps(_strict(obj), indent=2, default=str, allow_nan=False)
+
+
 def write_json(obj: object, path: Path) -> None:
-    """Strict JSON (no NaN: missing numbers are null), indented."""
-    path.write_text(json.dumps(_strict(obj), indent=2, default=str, allow_nan=False) + "\n", encoding="utf-8")
+    """:func:`json_text` into ``path``."""
+    path.write_text(json_text(obj) + "\n", encoding="utf-8")
