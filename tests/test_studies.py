@@ -160,7 +160,25 @@ def test_dask_local_cluster_results_equal_serial() -> None:
         pd.testing.assert_frame_equal(summarise(cfg, a), summarise(cfg, b))
 
 
-def test_cli_study_writes_the_outputs(tmp_path) -> None:  # noqa: ANN001
+def test_demo_scenario_file_loads_and_changes_what_it_says() -> None:
+    from pathlib import Path
+
+    from cogendispatch.plant.load import load_site
+    from cogendispatch.plant.series import load_series
+    root = Path(__file__).resolve().parents[1] / "plant_configs"
+    cfg = load_site(root / "saltmarsh_refinery.toml")
+    base = load_series(root / "saltmarsh_week.csv", cfg)
+    sc = {s.name: s for s in load_scenarios(root / "saltmarsh_scenarios.toml", cfg, base)}
+    assert list(sc) == ["base", "gas +30 %", "import -20 % in January, carbon +20", "LP demand +10 %, B3 overhaul"]
+    assert sc["gas +30 %"].series.fuel_price["NG"].to_numpy() == pytest.approx(1.3 * base.fuel_price["NG"].to_numpy())
+    assert sc["import -20 % in January, carbon +20"].series.co2_price.to_numpy() == pytest.approx(
+        base.co2_price.to_numpy() + 20.0)
+    lp = sc["LP demand +10 %, B3 overhaul"]
+    assert lp.series.demand["LP"].to_numpy() == pytest.approx(1.1 * base.demand["LP"].to_numpy())
+    assert lp.outages == (("B3", 48, 119),)  # 6 to 8 January of a week from 4 January, inclusive
+
+
+def test_cli_study_writes_the_outputs(tmp_path, capsys) -> None:  # noqa: ANN001
     from pathlib import Path
     root = Path(__file__).resolve().parents[1] / "plant_configs"
     sc = _scenario_file(tmp_path, '[[scenario]]\nname = "base"\n[[scenario]]\nname = "=cheap power"\n'
@@ -175,6 +193,7 @@ def test_cli_study_writes_the_outputs(tmp_path) -> None:  # noqa: ANN001
     table = pd.read_csv(out / "scenarios.csv")
     assert table.scenario.tolist() == ["base", "'=cheap power"]  # quoted: never a spreadsheet formula
     assert table.cost_import.iloc[1] < table.cost_import.iloc[0]
+    assert (table.largest_window_gap >= 0).all() and (table.largest_window_gap < 0.05).all()
     # driver hours only for machines with a choice (the demo's WGC is steam-only, FANS motor-only)
     on_steam = {c.removeprefix("machine_hours_on_steam_") for c in table.columns if c.startswith("machine_hours_on_steam_")}
     assert on_steam == {"BFWP", "CWP", "CCP", "AIRB", "HCFP", "IAC"}
@@ -183,11 +202,15 @@ def test_cli_study_writes_the_outputs(tmp_path) -> None:  # noqa: ANN001
     s = pd.read_parquet(out / "schedules" / "01_base.parquet")
     assert len(s) == 12
     html = (out / "report.html").read_text()
-    assert "Budget study" in html and html.count("<svg") >= 2
+    assert "Budget study" in html and html.count("<svg") >= 2 and "cost [EUR/month]" in html
     xl = pd.read_excel(out / "study.xlsx", sheet_name=None)
     pd.testing.assert_frame_equal(xl["scenarios"], pd.read_csv(out / "scenarios.csv"), check_dtype=False)
     from openpyxl import load_workbook
     assert load_workbook(out / "study.xlsx")["scenarios"]["A3"].value == "'=cheap power"  # text, not a formula
+    assert load_workbook(out / "study.xlsx")["monthly"].freeze_panes == "C2"  # month and scenario stay in view
+    capsys.readouterr()
+    assert main(["verify", str(out)]) == 2  # a study folder is not a plan
+    assert "holds study results; verify re-checks a plan folder's schedule" in capsys.readouterr().err
 
 
 def test_study_reports_shortfalls_like_a_plan(capsys) -> None:  # noqa: ANN001

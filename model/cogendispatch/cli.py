@@ -116,7 +116,8 @@ def build_parser() -> argparse.ArgumentParser:
     sd = sub.add_parser("study", help="a long horizon under price scenarios, rolling weekly windows",
                         description="Plan a long series (a year, or any length) under each scenario of a scenario "
                         "file, in weekly windows with a look-ahead, scenarios in parallel; write scenarios.csv, "
-                        "monthly.csv and each scenario's hourly schedule as Parquet (whole or not at all).")
+                        "monthly.csv, each scenario's hourly schedule as Parquet, report.html and study.xlsx "
+                        "(whole or not at all). Example scenarios: plant_configs/saltmarsh_scenarios.toml.")
     _site_and_series(sd, "base hourly demands and prices (CSV or Excel)")
     sd.add_argument("--scenarios", required=True, help="scenario file (TOML)")
     sd.add_argument("--out", required=True, help="output folder")
@@ -336,7 +337,8 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
         (d / "schedules").mkdir()
         for k, r in enumerate(results):
             r.schedule.to_parquet(d / "schedules" / f"{slug(k, r.name)}.parquet")
-        write_json({"kind": "study", "site": str(Path(args.site).resolve()), "series": str(Path(args.series).resolve()),
+        write_json({"kind": "study", "currency": cfg.site.currency,
+                    "site": str(Path(args.site).resolve()), "series": str(Path(args.series).resolve()),
                     "scenarios": str(Path(args.scenarios).resolve()), "seconds": secs,
                     "windows": {r.name: [w.__dict__ for w in r.windows] for r in results},
                     "note": SAFETY_NOTE}, d / "summary.json")
@@ -358,6 +360,10 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
         comp[f"{c} - {first}"] = comp[c] - comp[first]
     comp.insert(0, "quantity", [q.replace("cost_", f"cost [{cur}] ") for q in comp.index])
     _table(out, f"Scenarios over {base.hours} h ({secs:.0f} s)", comp.reset_index(drop=True).astype(object))
+    gaps = ", ".join(f"{n} {100 * g:.2f} %" if g == g else f"{n} none proven"
+                     for n, g in zip(table.scenario, table.largest_window_gap))
+    out.print(Text(f"largest gap of a window's search: {gaps}; cost differences smaller than "
+                   "these are within the search's tolerance (give --time-limit more to narrow them)"))
     out.print(f"outputs in {Path(args.out).resolve()}")
     out.print(f"[italic]{SAFETY_NOTE}[/italic]")
     short = [r.name for r in results if r.shortfall_hours]

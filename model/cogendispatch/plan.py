@@ -136,6 +136,9 @@ def verify_plan_dir(out: str | Path, moisture_limit: float = MOISTURE_LIMIT) -> 
         raise InputError(d, "", "not a plan folder (no summary.json)") from None
     except (ValueError, KeyError, TypeError):
         raise InputError(d / "summary.json", "site/series", "unreadable, or without the site and series paths") from None
+    kind = summary.get("kind", "plan")
+    if kind != "plan":
+        raise InputError(d, "", f"holds {kind} results; verify re-checks a plan folder's schedule")
     cfg = load_site(site)
     series = load_series(series_path, cfg)
     try:

@@ -387,6 +387,10 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
         return out.reset_index()
     out = frame.sum().to_frame().T
     out.insert(0, "scenario", r.name)
+    # how far each window's search stayed from its proven bound: differences between
+    # scenarios smaller than this are within the search's tolerance
+    gaps = [w.gap for w in r.windows if w.gap is not None and math.isfinite(w.gap)]
+    out["largest_window_gap"] = max(gaps) if gaps else float("nan")
     return out
 
 

@@ -16,7 +16,7 @@ def write_reports(d: Path, units: str = "si") -> list[Path]:
     if kind not in ("plan", "study"):
         from ..errors import InputError
 
-        raise InputError(d, "", f"a {kind} folder has no report; reports are for plan and study folders")
+        raise InputError(d, "", f"holds {kind} results, which have no report; reports are for plan and study folders")
     u = Units(units)
     if kind == "study":
         html, xlsx, writer = study_report(d, u), d / "study.xlsx", write_study_xlsx

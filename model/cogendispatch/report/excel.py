@@ -13,11 +13,12 @@ from openpyxl.utils import get_column_letter
 from ..outputs import quote_formulas
 
 
-def _sheet(writer: pd.ExcelWriter, name: str, df: pd.DataFrame, index: bool) -> None:
+def _sheet(writer: pd.ExcelWriter, name: str, df: pd.DataFrame, index: bool, keys: int = 1) -> None:
+    """One sheet; the first ``keys`` columns (and the header row) stay in view."""
     out = quote_formulas(df)
     out.to_excel(writer, sheet_name=name, index=index)
     ws = writer.sheets[name]
-    ws.freeze_panes = "B2"
+    ws.freeze_panes = f"{get_column_letter(keys + 1)}2"
     width = out.shape[1] + (1 if index else 0)
     for j in range(1, width + 1):
         ws.column_dimensions[get_column_letter(j)].width = 16 if j > 1 else 20
@@ -68,4 +69,4 @@ def write_study_xlsx(d: Path, path: Path) -> None:
     """study.xlsx from a study folder's files."""
     with pd.ExcelWriter(path, engine="openpyxl") as w:
         _sheet(w, "scenarios", pd.read_csv(d / "scenarios.csv"), index=False)
-        _sheet(w, "monthly", pd.read_csv(d / "monthly.csv"), index=False)
+        _sheet(w, "monthly", pd.read_csv(d / "monthly.csv"), index=False, keys=2)  # month and scenario

@@ -159,14 +159,15 @@ def study_report(d: Path, units: Units = Units()) -> str:
     monthly = pd.read_csv(d / "monthly.csv")
     costs = table.set_index("scenario")[[c for c in table.columns if c.startswith("cost_") and c != "cost_total"]]
     costs.columns = [c[5:] for c in costs.columns]
-    body = ["<h2>Scenarios</h2>" + _chart(plots.stacked_bars(costs, "Cost by category per scenario", "cost [currency]"))]
+    cur = escape(str(s.get("currency", "currency")))
+    body = ["<h2>Scenarios</h2>" + _chart(plots.stacked_bars(costs, "Cost by category per scenario", f"cost [{cur}]"))]
     piv = monthly.pivot_table(index="month", columns="scenario", values="cost_total", sort=False)
-    piv.index = pd.to_datetime(piv.index)
-    body.append("<h2>Monthly cost</h2>" + _chart(plots.lines(piv, "Total cost per month", "cost [currency/month]")))
+    body.append("<h2>Monthly cost</h2>" + _chart(plots.grouped_bars(piv, "Total cost per month and scenario",
+                                                                    f"cost [{cur}/month]")))
     drv = table.set_index("scenario")[[c for c in table.columns if c.startswith("machine_hours_on_steam_")]]
     drv.columns = [c.replace("machine_hours_on_steam_", "") for c in drv.columns]
     if not drv.empty:
-        body.append("<h2>Drivers</h2>" + _chart(plots.stacked_bars(drv.T, "Machine-hours on steam per scenario",
+        body.append("<h2>Drivers</h2>" + _chart(plots.grouped_bars(drv.T, "Machine-hours on steam, by scenario",
                                                                     "machine-hours [h]", horizontal=True)))
     cols = ["scenario", "cost_total", "fuel_GJ", "import_MWh", "export_MWh", "co2_t", "boiler_starts", "shortfall_hours"]
     tab = table[[c for c in cols if c in table]].copy()

@@ -104,6 +104,32 @@ def stacked_bars(frame: pd.DataFrame, title: str, ylabel: str, horizontal: bool 
     return _svg(fig)
 
 
+def grouped_bars(frame: pd.DataFrame, title: str, ylabel: str, horizontal: bool = False) -> str:
+    """rows = groups (months, machines), columns = bars side by side (scenarios): for
+    quantities that add up within a bar but not across scenarios."""
+    n, k = frame.shape
+    fig, ax = plt.subplots(figsize=(9.5, max(2.6, 0.3 * n * max(1, k) / 2 + 1.0) if horizontal else 3.0))
+    idx = np.arange(n)
+    width = 0.8 / max(1, k)
+    for i, c in enumerate(frame.columns):
+        pos = idx - 0.4 + width * (i + 0.5)
+        v = frame[c].to_numpy(dtype=float)
+        if horizontal:
+            ax.barh(pos, v, height=width, color=PALETTE[i % len(PALETTE)], label=str(c))
+        else:
+            ax.bar(pos, v, width=width, color=PALETTE[i % len(PALETTE)], label=str(c))
+    labels = [str(i) for i in frame.index]
+    if horizontal:
+        ax.set_yticks(idx, labels)
+        ax.set_xlabel(ylabel)
+    else:
+        ax.set_xticks(idx, labels)
+        ax.set_ylabel(ylabel)
+    ax.set_title(title, loc="left")
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), fontsize=7)
+    return _svg(fig)
+
+
 def _time_axis(ax: plt.Axes, index: pd.Index) -> None:
     n = len(index)
     ticks = list(range(0, n, 24)) if n > 48 else list(range(0, n, max(1, n // 8)))
