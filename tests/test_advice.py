@@ -230,6 +230,7 @@ def test_advice_never_replaces_a_plan_folder(tmp_path, capsys) -> None:  # noqa:
 
 @pytest.mark.parametrize("args, where", [
     (["--at", "2030-01-01T00:00"], "--at"),
+    (["--at", "2027-01-05"], "gives no hour"),
     (["--at", "2027-01-05T10:00", "--force", "WGC=steam"], "--force"),
     (["--at", "2027-01-05T10:00", "--trip", "NOPE"], "--trip"),
     (["--at", "2027-01-05T10:00", "--price", "gas=3"], "--price"),

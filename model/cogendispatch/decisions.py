@@ -217,6 +217,8 @@ def hour_index(series: Series, at: str, path: str) -> int:
         ts = pd.Timestamp(at)
     except (ValueError, TypeError):
         raise InputError(None, "--at", f"'{at}' is not a date and time") from None
+    if ":" not in at:  # a date alone would silently mean midnight
+        raise InputError(None, "--at", f"'{at}' gives no hour; write e.g. '{ts:%Y-%m-%d}T10:00'")
     if ts.tzinfo is not None:
         ts = ts.tz_convert("UTC")
     if (ts.tzinfo is None) != (series.time.tz is None):
