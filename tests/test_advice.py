@@ -201,6 +201,9 @@ def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  #
     pr = pd.read_csv(out / "prices.csv").set_index("balance")
     adv = json.loads((out / "advice.json").read_text())
     assert set(pr.index) == {"HP", "MP", "LP", "power"} and pr.loc["power", "unit"] == "EUR/MWh"
+    capsys.readouterr()
+    assert main(["verify", str(out)]) == 2  # an advice folder is not a plan
+    assert "holds advice results; verify re-checks a plan folder's schedule" in capsys.readouterr().err
     assert pr.loc["power", "price"] == pytest.approx(adv["marginal_price"]["power_per_MWh"])
 
     # --json is strict JSON, as the file is (no NaN: a price that never flips is null)
@@ -231,6 +234,7 @@ def test_advice_never_replaces_a_plan_folder(tmp_path, capsys) -> None:  # noqa:
 @pytest.mark.parametrize("args, where", [
     (["--at", "2030-01-01T00:00"], "--at"),
     (["--at", "2027-01-05"], "gives no hour"),
+    (["--at", "2027-01-05T10:00", "--trip", "B1", "--allow-starts"], "does not go with --trip"),
     (["--at", "2027-01-05T10:00", "--force", "WGC=steam"], "--force"),
     (["--at", "2027-01-05T10:00", "--trip", "NOPE"], "--trip"),
     (["--at", "2027-01-05T10:00", "--price", "gas=3"], "--price"),
@@ -266,6 +270,7 @@ def test_hour_index_names_a_missing_hour() -> None:
     cfg = site()
     ser = series(cfg, 3, demand_LP=10.0)
     assert hour_index(ser, str(ser.time[2]), "<s>") == 2
+    assert hour_index(ser, "2027-03-01T02", "<s>") == 2  # an hour without minutes is an hour
     from cogendispatch.errors import InputError
     with pytest.raises(InputError, match="not an hour"):
         hour_index(ser, "2030-01-01 00:00", "<s>")

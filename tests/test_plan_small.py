@@ -182,6 +182,45 @@ def test_maker_envelope_replaces_the_section_physics():
     assert water.min() > 1.0 and got == pytest.approx(water, rel=1e-9)
 
 
+THREE_HEADERS = [{"id": "HP", "pressure": "40 bar(a)", "temperature": "400 degC"},
+                 {"id": "MP", "pressure": "15 bar(a)", "temperature": "300 degC"},
+                 {"id": "LP", "pressure": "5 bar(a)", "temperature": "180 degC"}]
+
+
+def test_envelope_sections_are_checked_one_by_one() -> None:
+    """Steam extracted at MP does (120 - 118) x 3600 / 0.97 = 7.4 kJ/kg of work, so what
+    passes on to LP must do 445.4 - 7.4 = 438 kJ/kg in the MP-LP section: more than an
+    isentropic expansion from the state at MP allows (about 285 kJ/kg), though less than
+    one from the inlet to LP (514 kJ/kg). The loader refuses it, naming the throttle slope."""
+    from cogendispatch.errors import InputError
+    env = {"no_load": "0.3 MW", "throttle": "120 kWh/t", "extraction": {"MP": "-118 kWh/t"}}
+    tg = {"id": "T", "inlet": "HP", "max_throttle": "80 t/h", "generator_rating": "20 MW",
+          "section": [{"to": "MP"}, {"to": "LP"}], "envelope": env}
+    with pytest.raises(InputError, match=r"envelope > throttle.*isentropic expansion from the state at 'MP' to 'LP'"):
+        site(header=THREE_HEADERS, turbogenerator=[tg])
+
+
+def test_condensing_envelope_turbine_closes_its_energy() -> None:
+    """A maker's envelope may exhaust to a condenser: the exhaust enthalpy, and so the
+    cooling duty, follow from its work (first law), as for any envelope section."""
+    from cogendispatch.equipment.turbine import coefficients
+    env = {"no_load": "0.5 MW", "throttle": "200 kWh/t", "extraction": {"LP": "-120 kWh/t"}}
+    tg = {"id": "T", "inlet": "HP", "max_throttle": "80 t/h", "generator_rating": "20 MW",
+          "section": [{"to": "LP", "max_extraction": "60 t/h"}, {"to": "C"}], "envelope": env}
+    cfg = site(condenser=[{"id": "C", "pressure": "0.1 bar(a)", "cooling_capacity": "100 MW"}], turbogenerator=[tg])
+    co = coefficients(cfg.turbogenerators[0], SiteStates.of(cfg))
+    h_in = SiteStates.of(cfg).headers["HP"].h
+    assert co.sections[-1].outlet.h == pytest.approx(h_in - 3600 * 0.2 / 0.97, rel=1e-12)
+    assert 0 < co.sections[1].efficiency < 1 and 0 < co.sections[0].efficiency < 1
+    _, rep, res = run(cfg, series(cfg, 2, demand_LP=30.0, price_import=300.0))
+    s = res.schedule
+    # condenser duty = exhaust flow x (h_exhaust - h_condensate) / 3600
+    flow = s["C.flow_t_h"].to_numpy()
+    from cogendispatch.steam import state_px
+    duty = flow * (co.sections[-1].outlet.h - state_px(0.1, 0.0).h) / 3600
+    assert flow.max() > 1.0 and s["C.duty_MW"].to_numpy() == pytest.approx(duty, rel=1e-9)
+
+
 def test_excel_series_is_read_like_csv(tmp_path):  # noqa: ANN001
     import pandas as pd
 
@@ -281,6 +320,13 @@ def test_demand_comes_before_the_reserve_in_an_impossible_hour() -> None:
     assert m.reserve_short[1].value == pytest.approx(steam - 60.0, abs=1e-4)
     msgs = diagnose(sm)
     assert len(msgs) == 1 and msgs[0].startswith("steam reserve short") and "hour 1" in msgs[0]
+
+
+def test_shortfall_prices_rise_by_pressure_level() -> None:
+    from cogendispatch.site import shortfall_prices
+    cfg = site(header=[*THREE_HEADERS, {"id": "LP2", "pressure": "5 bar(a)"}])
+    # half a step per pressure level above the lowest; headers at one pressure share a price
+    assert shortfall_prices(cfg) == {"HP": 2.0e6, "MP": 1.5e6, "LP": 1.0e6, "LP2": 1.0e6}
 
 
 def test_load_comes_before_the_reserve() -> None:

@@ -230,3 +230,21 @@ def test_round_off_is_no_shortfall_hour() -> None:
                           "power_shortfall": "1e6 per MWh", "power_surplus": "1e6 per MWh"})
     hourly = pd.DataFrame({"fuel": [100.0, 100.0, 100.0], "penalty": [0.0, 1e-3, 5e4]})
     assert short_hours(cfg, hourly).tolist() == [False, False, True]
+    # a reserve short by 5e-4 t/h (priced 1e4 per t: 5 per hour) is as real as the diagnosis says
+    cfg = site(penalties={"reserve_shortfall": "1e4 per t"})
+    hourly = pd.DataFrame({"fuel": [100.0, 100.0], "penalty": [1e-3, 5.0]})
+    assert short_hours(cfg, hourly).tolist() == [False, True]
+
+
+def test_a_window_without_a_bound_leaves_the_gap_unproven() -> None:
+    from cogendispatch.studies import ScenarioResult, WindowReport
+    cfg = _site()
+    ser = series(cfg, 2, demand_LP=50.0)
+    s = pd.DataFrame(0.0, index=ser.time, columns=[f"{b.id}.{q}" for b in cfg.boilers for q in ("on", "start")]
+                     + [f"{b.id}.fuel_NG_GJ_h" for b in cfg.boilers] + ["grid.import_MW", "grid.export_MW"]
+                     + [f"{t.id}.on" for t in cfg.turbogenerators] + ["P1.on_steam"])
+    c = pd.DataFrame({"fuel": [1.0, 1.0]}, index=ser.time)
+    win = [WindowReport("a", "b", 0.1, 1.0, "time limit", 0.004, 1), WindowReport("c", "d", 0.1, 1.0, "time limit", None, 1)]
+    assert np.isnan(summarise(cfg, ScenarioResult("x", s, c, 0, win)).largest_window_gap.iloc[0])
+    win[1] = WindowReport("c", "d", 0.1, 1.0, "optimal", 0.001, 1)
+    assert summarise(cfg, ScenarioResult("x", s, c, 0, win)).largest_window_gap.iloc[0] == pytest.approx(0.004)

@@ -14,10 +14,12 @@ the model is built and loaded once per hour of advice.
 
 from __future__ import annotations
 
+import re
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
 import highspy
+
 import numpy as np
 import pandas as pd
 
@@ -217,7 +219,7 @@ def hour_index(series: Series, at: str, path: str) -> int:
         ts = pd.Timestamp(at)
     except (ValueError, TypeError):
         raise InputError(None, "--at", f"'{at}' is not a date and time") from None
-    if ":" not in at:  # a date alone would silently mean midnight
+    if not re.search(r"\d[T ]\d", at.strip()):  # a date alone would silently mean midnight
         raise InputError(None, "--at", f"'{at}' gives no hour; write e.g. '{ts:%Y-%m-%d}T10:00'")
     if ts.tzinfo is not None:
         ts = ts.tz_convert("UTC")
@@ -473,6 +475,9 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     i = hour_index(series, at, series_path)
     held, plan_drivers = held_states(cfg, series, i, plan_dir, build)
     _check_what_if(cfg, what_if)
+    if allow_starts and what_if is not None and what_if.trip:
+        raise InputError(None, "--allow-starts", "does not go with --trip: after a trip no other unit can "
+                         "start within the hour")
     hm = HourModel(cfg, series, i, held, build)
     base = hm.solve()
     prices, power_price, x = hm.marginal_prices()
@@ -483,16 +488,16 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     if what_if is not None and not what_if.empty():
         # a trip is immediate and the rest cannot be started within the hour: the commitment
         # is held unless starts are asked for (never after a trip)
-        hold = "on" if allow_starts and not what_if.trip else "all"
-        base_free = hm.solve(hold=hold)
-        new = hm.solve(what_if, hold=hold)
+        # the change is measured against the hour as held
+        base_free = hm.solve(hold="all")
+        new = hm.solve(what_if, hold="on" if allow_starts else "all")
         notes = [f"{u} was already off" for u in what_if.trip if held.get(u) == 0]
         if what_if.trip and len(hm.reserve_rows):
             notes.append("steam reserve no longer kept: the site is in the contingency it was kept for")
         wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
               "changes": notes + what_if_changes(base_free, new),
               "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4,
-              "asked": {**asdict(what_if), "allow_starts": allow_starts and not what_if.trip}}
+              "asked": {**asdict(what_if), "allow_starts": allow_starts}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
                   _time.perf_counter() - t0)
 

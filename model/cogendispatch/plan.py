@@ -131,14 +131,17 @@ def verify_plan_dir(out: str | Path, moisture_limit: float = MOISTURE_LIMIT) -> 
     d = Path(out)
     try:
         summary = json.loads((d / "summary.json").read_text(encoding="utf-8"))
-        site, series_path = summary["site"], summary["series"]
+        kind = summary.get("kind", "plan")
     except FileNotFoundError:
         raise InputError(d, "", "not a plan folder (no summary.json)") from None
-    except (ValueError, KeyError, TypeError):
-        raise InputError(d / "summary.json", "site/series", "unreadable, or without the site and series paths") from None
-    kind = summary.get("kind", "plan")
+    except (ValueError, AttributeError):
+        raise InputError(d / "summary.json", "", "unreadable") from None
     if kind != "plan":
         raise InputError(d, "", f"holds {kind} results; verify re-checks a plan folder's schedule")
+    try:
+        site, series_path = summary["site"], summary["series"]
+    except (KeyError, TypeError):
+        raise InputError(d / "summary.json", "site/series", "without the site and series paths") from None
     cfg = load_site(site)
     series = load_series(series_path, cfg)
     try:

@@ -53,8 +53,8 @@ def shortfall_prices(cfg: SiteConfig) -> dict[str, float]:
     the lowest header it can, and a header's own demand is cut only when it cannot be
     passed down. A half step is far above what a tonne makes on its way down (about 0.1
     MWh, 10^5 even at the power shortfall price)."""
-    order = sorted(cfg.headers, key=lambda h: h.pressure)
-    return {h.id: cfg.penalties.steam_shortfall * (1.0 + 0.5 * k) for k, h in enumerate(order)}
+    levels = sorted({h.pressure for h in cfg.headers})  # headers at one pressure share a price
+    return {h.id: cfg.penalties.steam_shortfall * (1.0 + 0.5 * levels.index(h.pressure)) for h in cfg.headers}
 
 
 def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = BuildOptions()) -> SiteModel:

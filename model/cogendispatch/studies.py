@@ -352,7 +352,7 @@ def short_hours(cfg: SiteConfig, hourly: pd.DataFrame) -> pd.Series:
     if "penalty" not in hourly:
         return pd.Series(False, index=hourly.index)
     p = cfg.penalties
-    cheapest = min(p.steam_shortfall, p.steam_surplus, p.power_shortfall, p.power_surplus)
+    cheapest = min(p.steam_shortfall, p.steam_surplus, p.power_shortfall, p.power_surplus, p.reserve_shortfall)
     return hourly["penalty"] > TOL * cheapest
 
 
@@ -389,8 +389,10 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
     out.insert(0, "scenario", r.name)
     # how far each window's search stayed from its proven bound: differences between
     # scenarios smaller than this are within the search's tolerance
-    gaps = [w.gap for w in r.windows if w.gap is not None and math.isfinite(w.gap)]
-    out["largest_window_gap"] = max(gaps) if gaps else float("nan")
+    # (NaN, "none proven", when any window ended without a finite bound)
+    gaps = [w.gap for w in r.windows]
+    proven = bool(gaps) and all(g is not None and math.isfinite(g) for g in gaps)
+    out["largest_window_gap"] = max(g for g in gaps if g is not None) if proven else float("nan")
     return out
 
 

@@ -72,8 +72,9 @@ def envelope_work(tg: TurboGenerator) -> list[float]:
     """Shaft work a tonne of steam does before it leaves at each section's end [kJ/kg]:
     for an extraction, (a + b_k) / eta_gen; for the exhaust, a / eta_gen, with a the
     envelope's MW per t/h of throttle and b_k its MW per t/h extracted at section k
-    (1 MW per t/h = 3600 kJ/kg). The no-load loss is taken off the terminals as in the
-    section model, so it does not come out of the steam.
+    (1 MW per t/h = 3600 kJ/kg). The no-load loss is taken off the terminals, as in the
+    section model: like there, the linear model lets it leave the cycle rather than warm
+    the exhaust (on the safe side; see :mod:`cogendispatch.verify`).
 
     With these, the first law on the casing closes exactly: throttle x h_in less each
     leaving flow x (h_in - its work) is a x throttle + sum(b_k x extraction_k) over eta_gen.

@@ -219,10 +219,9 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                 bad(where("turbogenerator", t.id, key),
                     f"'{sec.to}' at {p_to:.2f} bar(a) is not below the previous point at {p_prev:.2f} bar(a): steam cannot expand upwards")
             p_prev = p_to
-            if sec.efficiency is None and (t.envelope is None or sec.to in condensers):
+            if sec.efficiency is None and t.envelope is None:
                 bad(where("turbogenerator", t.id, f"section #{k + 1} > efficiency"),
-                    "required unless the turbine gives an 'envelope' (and always for a section exhausting to a condenser,"
-                    " whose exhaust enthalpy sets the cooling duty)")
+                    "required unless the turbine gives an 'envelope'")
             if last and sec.max_extraction is not None:
                 bad(where("turbogenerator", t.id, f"section #{k + 1} > max_extraction"), "the last section exhausts; use max_flow")
             if sec.max_extraction is not None and sec.min_extraction > sec.max_extraction:
@@ -247,7 +246,8 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                 if sec.efficiency is not None:
                     bad(where("turbogenerator", t.id, f"section #{k + 1} > efficiency"),
                         "not used with an 'envelope', which sets the power and so the exhaust states: give one or the other")
-            _check_envelope_work(t, headers, bad, where)
+            _check_envelope_work(t, {**{c: v.pressure for c, v in condensers.items()},
+                                     **{hid: v.pressure for hid, v in headers.items()}}, headers, bad, where)
         if t.fixed_throttle is not None and not (t.min_throttle <= t.fixed_throttle <= t.max_throttle):
             bad(where("turbogenerator", t.id, "fixed_throttle"), "must lie between min_throttle and max_throttle")
 
@@ -335,37 +335,43 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
     return problems
 
 
-def _check_envelope_work(t: TurboGenerator, headers: dict[str, Header], bad: Callable[[str, str], None],
-                         where: Callable[[str, str, str], str]) -> None:
-    """An envelope's work per tonne leaving at each section [kJ/kg] must be positive, grow
-    along the casing, and stay within an isentropic expansion from the inlet to that
-    section's pressure (a larger work would take an efficiency above 1)."""
+def _check_envelope_work(t: TurboGenerator, pressures: dict[str, float], states: dict[str, Header],
+                         bad: Callable[[str, str], None], where: Callable[[str, str, str], str]) -> None:
+    """Walk an envelope's sections as :func:`equipment.turbine.coefficients` does: the steam
+    leaving section k has done the envelope's work w_k [kJ/kg]. Each section's share,
+    w_k - w_(k-1), must be positive and no more than an isentropic expansion from where the
+    section starts to its pressure (more would take an efficiency above 1, entropy falling)."""
     from ..equipment.turbine import envelope_work
-    from ..steam import isentropic_drop
+    from ..steam import isentropic_drop, state_ph
 
-    if t.inlet not in headers or any(sec.to not in headers for sec in t.sections):
-        return  # references are reported elsewhere; an envelope never exhausts to a condenser
+    if t.inlet not in states or any(sec.to not in pressures for sec in t.sections):
+        return  # references are reported elsewhere
     try:
-        h = headers[t.inlet]
-        inlet = header_state(h.pressure, h.temperature)
+        h = states[t.inlet]
+        state = header_state(h.pressure, h.temperature)
+        h_in = state.h
         work = envelope_work(t)
-        prev = 0.0
+        coeffs = t.envelope.extraction if t.envelope is not None else {}
+        prev, prev_at = 0.0, t.inlet
         for k, (sec, w) in enumerate(zip(t.sections, work)):
             last = k == len(t.sections) - 1
+            given = last or sec.to in coeffs
             key = "envelope > throttle" if last else f"envelope > extraction > {sec.to}"
             leaving = "exhaust" if last else f"extraction to '{sec.to}'"
-            ideal = isentropic_drop(inlet, headers[sec.to].pressure)
-            if w <= 0:
+            hint = "" if given else " (no coefficient given for it, so 0)"
+            ideal = isentropic_drop(state, pressures[sec.to])
+            if w - prev <= 1e-9:
                 bad(where("turbogenerator", t.id, key),
-                    f"steam leaving at the {leaving} would do {w:.1f} kJ/kg of work: it must do some")
-            elif w > ideal:
+                    f"steam leaving at the {leaving}{hint} would do {w:.1f} kJ/kg of work, no more than steam "
+                    f"leaving at '{prev_at}' ({prev:.1f} kJ/kg): each section must do some")
+            elif w - prev > ideal + 1e-9:
+                src = f"'{t.inlet}'" if k == 0 else f"the state at '{prev_at}'"
                 bad(where("turbogenerator", t.id, key),
-                    f"steam leaving at the {leaving} would do {w:.1f} kJ/kg of work (generator efficiency included), "
-                    f"more than the {ideal:.1f} kJ/kg of an isentropic expansion from '{t.inlet}' to '{sec.to}'")
-            elif w < prev - 1e-9:
-                bad(where("turbogenerator", t.id, key),
-                    f"steam leaving at the {leaving} would do less work ({w:.1f} kJ/kg) than steam leaving "
-                    f"earlier in the casing ({prev:.1f} kJ/kg)")
-            prev = w
+                    f"steam leaving at the {leaving}{hint} would do {w:.1f} kJ/kg of work (generator efficiency "
+                    f"included), more than the {prev + ideal:.1f} kJ/kg of an isentropic expansion from {src} "
+                    f"to '{sec.to}'")
+                return  # later sections would start from an impossible state
+            state = state_ph(pressures[sec.to], h_in - w)
+            prev, prev_at = w, sec.to
     except SteamPropertyError:
         pass  # the header itself is reported elsewhere
