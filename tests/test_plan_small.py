@@ -325,7 +325,8 @@ def test_demand_comes_before_the_reserve_in_an_impossible_hour() -> None:
 def test_shortfall_prices_rise_by_pressure_level() -> None:
     from cogendispatch.site import shortfall_prices
     cfg = site(header=[*THREE_HEADERS, {"id": "LP2", "pressure": "5 bar(a)"}])
-    # half a step per pressure level above the lowest; headers at one pressure share a price
+    # the project's rule (site.shortfall_prices; no published source): half a step per
+    # pressure level above the lowest; headers at one pressure share a price
     assert shortfall_prices(cfg) == {"HP": 2.0e6, "MP": 1.5e6, "LP": 1.0e6, "LP2": 1.0e6}
 
 

@@ -81,7 +81,8 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
     base_cols = np.array(fixed_cols, dtype=np.int32)
     base_vals = np.array(fixed_vals)
 
-    merit = sorted([b for b in cfg.boilers if b.available], key=lambda b: _full_load_steam_cost(b, cfg, series))
+    states = SiteStates.of(cfg)
+    merit = sorted([b for b in cfg.boilers if b.available], key=lambda b: _full_load_steam_cost(b, cfg, states, series))
     k = np.ones(len(hours), dtype=int)
     rounds = 0
     x = None
@@ -126,10 +127,10 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
                     merit_loaded=merit_loaded)
 
 
-def _full_load_steam_cost(b: Boiler, cfg: SiteConfig, series: Series) -> float:
+def _full_load_steam_cost(b: Boiler, cfg: SiteConfig, states: SiteStates, series: Series) -> float:
     """Fuel and CO2 cost of a tonne of steam at full load [currency/t], on the boiler's
     cheapest fuel at its mean price over the horizon: the order an operator ranks boilers."""
-    heat = boiler_mod.coefficients(b, SiteStates.of(cfg)).heat_per_t  # [GJ/t]
+    heat = boiler_mod.coefficients(b, states).heat_per_t  # [GJ/t]
     co2 = float(series.co2_price.mean()) if len(series.co2_price) else 0.0
     factor = {f.id: f.co2_factor for f in cfg.fuels}
     price = min(float(series.fuel_price[f].mean()) + factor[f] * co2 for f in b.fuels)

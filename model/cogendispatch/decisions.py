@@ -19,7 +19,6 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
 import highspy
-
 import numpy as np
 import pandas as pd
 
@@ -184,12 +183,10 @@ class HourModel:
         load [currency/MWh]: duals of the LP with every binary fixed at its optimum."""
         self.solve(w)
         ints = self.lm.int_cols
-        held = self.lm._fixed_run(list(ints), list(np.round(self.lm.solution()[ints])), 30.0, None,
-                                  keep_duals=True)
+        x = self.lm._fixed_run(list(ints), list(np.round(self.lm.solution()[ints])), 30.0, None, keep_duals=True)
         dual = self.lm.fixed_duals
-        if held is None or dual is None:
+        if x is None or dual is None:
             raise RuntimeError("the hour's LP with every on/off and driver held has no optimal solution")
-        x = held
         # a row 'terms - demand == 0' is loaded with bounds = demand: d(cost)/d(bound) is the
         # price of one more t/h demanded
         prices = {hh: float(dual[r]) for hh, r in self.header_row.items()}
@@ -486,9 +483,8 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     drivers = driver_table(hm, now, prices)
     wi = None
     if what_if is not None and not what_if.empty():
-        # a trip is immediate and the rest cannot be started within the hour: the commitment
-        # is held unless starts are asked for (never after a trip)
-        # the change is measured against the hour as held
+        # the change is measured against the hour as held; the what-if holds it too unless
+        # starts are asked for (never with a trip: advise refuses that above)
         base_free = hm.solve(hold="all")
         new = hm.solve(what_if, hold="on" if allow_starts else "all")
         notes = [f"{u} was already off" for u in what_if.trip if held.get(u) == 0]

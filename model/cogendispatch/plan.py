@@ -10,7 +10,7 @@ from typing import Callable
 import pandas as pd
 
 from .baseline import practice_baseline, savings
-from .outputs import atomic_dir, check_out_dir, write_csv, write_json
+from .outputs import atomic_dir, check_out_dir, output_kind, write_csv, write_json
 from .plant.load import load_site
 from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
@@ -129,18 +129,16 @@ def verify_plan_dir(out: str | Path, moisture_limit: float = MOISTURE_LIMIT) -> 
     from .errors import InputError
 
     d = Path(out)
-    try:
-        summary = json.loads((d / "summary.json").read_text(encoding="utf-8"))
-        kind = summary.get("kind", "plan")
-    except FileNotFoundError:
-        raise InputError(d, "", "not a plan folder (no summary.json)") from None
-    except (ValueError, AttributeError):
-        raise InputError(d / "summary.json", "", "unreadable") from None
+    kind = output_kind(d)
+    if kind is None:
+        what = "unreadable" if (d / "summary.json").exists() else "not a plan folder (no summary.json)"
+        raise InputError(d, "", what)
     if kind != "plan":
         raise InputError(d, "", f"holds {kind} results; verify re-checks a plan folder's schedule")
+    summary = json.loads((d / "summary.json").read_text(encoding="utf-8"))
     try:
         site, series_path = summary["site"], summary["series"]
-    except (KeyError, TypeError):
+    except KeyError:
         raise InputError(d / "summary.json", "site/series", "without the site and series paths") from None
     cfg = load_site(site)
     series = load_series(series_path, cfg)

@@ -128,7 +128,6 @@ def verify_schedule(cfg: SiteConfig, series: Series, schedule: pd.DataFrame,
         mass_imb = {h.id: 0.0 for h in cfg.headers}
         energy_imb = {h.id: 0.0 for h in cfg.headers}
         exhaust_imb = {h.id: 0.0 for h in cfg.headers}  # the part from turbine exhausts [t/h]
-        extra_water = 0.0
         for tg in cfg.turbogenerators:
             p_model += float(r[f"{tg.id}.power_MW"])
             if r[f"{tg.id}.on"] < 0.5 or tg.envelope is not None:
@@ -157,15 +156,16 @@ def verify_schedule(cfg: SiteConfig, series: Series, schedule: pd.DataFrame,
                 mass_imb[sec.to] += leaving * (r_phys - r_model)
                 exhaust_imb[sec.to] += leaving * (r_phys - r_model)
                 energy_imb[sec.to] += leaving * (outl.h - sec.outlet.h) / 3600.0
-                extra_water += leaving * (r_phys - r_model)
         # letdowns: isenthalpic valve and spray to the header state, from IAPWS directly
         for ld in cfg.letdowns:
             flow = float(r[f"{ld.id}.flow_t_h"])
             water = flow * (st.headers[ld.source].h - st.headers[ld.to].h) / (st.headers[ld.to].h - h_fw)
             mass_imb[ld.to] += water - float(r[f"{ld.id}.water_t_h"])
-        # deaerator: steam from its energy balance with the physical spray water
-        # the overflow drains at feedwater enthalpy, as scheduled (older plans lack the column)
-        fw = float(r["deaerator.feedwater_t_h"]) + extra_water + float(r.get("deaerator.overflow_t_h", 0.0))
+        # deaerator: steam from its energy balance with the physical spray water (the model's
+        # plus what the hotter exhausts need); the overflow drains at feedwater enthalpy, as
+        # scheduled (older plans lack the column)
+        fw = (float(r["deaerator.feedwater_t_h"]) + sum(exhaust_imb.values())
+              + float(r.get("deaerator.overflow_t_h", 0.0)))
         cond = 0.0
         cond_h = 0.0
         for c in cfg.condensers:

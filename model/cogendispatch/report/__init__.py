@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
+from ..outputs import output_kind
 from .excel import write_plan_xlsx, write_study_xlsx
 from .html import Units, plan_report, study_report
 
@@ -12,7 +12,7 @@ from .html import Units, plan_report, study_report
 def write_reports(d: Path, units: str = "si") -> list[Path]:
     """Write report.html and plan.xlsx (or study.xlsx) into the output folder ``d``; the
     files written. ``units`` is for the page; the workbook keeps the folder's SI tables."""
-    kind = json.loads((d / "summary.json").read_text(encoding="utf-8")).get("kind", "plan")
+    kind = output_kind(d)
     if kind not in ("plan", "study"):
         from ..errors import InputError
 
