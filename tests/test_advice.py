@@ -260,7 +260,7 @@ def test_what_if_values_may_carry_units() -> None:
     args = argparse.Namespace(force=[], trip=[], price=["fuel:NG=4 per MMBtu", "import=0.09 per kWh", "export=40"],
                               demand=["LP=+20 klb/h", "MP=-3"])
     w = what_if_from_args(args)
-    assert w.fuel_price["NG"] == pytest.approx(4 / 1.055056, rel=1e-6)  # 1 MMBtu = 1.055056 GJ (NIST SP 811)
+    assert w.fuel_price["NG"] == pytest.approx(4 / (2.326 * 0.45359237), rel=1e-12)  # 1 MMBtu = 1.05505585 GJ (IT Btu, NIST SP 811)
     assert w.price_import == pytest.approx(90.0) and w.price_export == pytest.approx(40.0)
     assert w.demand["LP"] == pytest.approx(20 * 0.45359237, rel=1e-9)  # 1 lb = 0.45359237 kg (NIST SP 811)
     assert w.demand["MP"] == pytest.approx(-3.0)
@@ -297,3 +297,43 @@ def test_advice_holds_the_plans_states(tmp_path) -> None:  # noqa: ANN001
     row = sched.iloc[2]
     assert a.held == {u: int(row[f"{u}.on"]) for u in ("B1", "B2", "B3")}
     assert a.drivers.set_index("machine").loc["P1"].now_on_steam == int(row["P1.on_steam"])
+
+
+def test_a_reserve_penalty_is_named_not_passed_off_as_cost() -> None:
+    # Three 60 t/h boilers keep a one-boiler-trip reserve for 75 t/h of LP (deaerator
+    # steam on top). 50 t/h more demand is beyond what two can carry: with every boiler
+    # already running, the reserve goes short and the hour's cost jumps by its penalty
+    # (10^4 per t of reserve by default), which the advice must call a penalty.
+    cfg = site(boiler=_three_boilers(), reserve={"enabled": True},
+               letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
+    ser = series(cfg, 1, demand_LP=75.0)
+    at = str(ser.time[0])
+    a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(demand={"LP": 50.0}))
+    wi = a.what_if
+    assert wi["short"] is False and wi["reserve_short_t_h"] > 1.0
+    assert wi["penalty_change"] == pytest.approx(1e4 * wi["reserve_short_t_h"], rel=1e-9)
+    note = next(c for c in wi["changes"] if c.startswith("steam reserve"))
+    assert "penalty, not money spent" in note and "allow-starts" not in note  # no boiler left to start
+    # the same demand as the hour itself: the marginal prices say what sets them
+    ser = series(cfg, 1, demand_LP=125.0)
+    a = advise(cfg, ser, at, "<tiny>")
+    assert "penalty" in a.reasons["LP"] and "reserve" in a.reasons["LP"]
+    assert a.prices["LP"] > 1000.0  # of the penalty's order, far above any fuel cost
+
+
+def test_a_what_if_price_never_imports_and_exports_at_once() -> None:
+    # Power from the turbo-generator is cheap; an import price of 0 below the export price
+    # of 60 would pay the site to import at its limit and sell the excess back, which one
+    # metered connection cannot do.
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "80 t/h", "min_throttle": "5 t/h",
+          "generator_rating": "10 MW", "no_load_loss": "0.2 MW", "section": [{"to": "LP", "efficiency": 0.75}]}
+    cfg = site(turbogenerator=[tg], grid={"max_import": "50 MW", "max_export": "20 MW"})
+    ser = series(cfg, 1, demand_LP=60.0, load=4.0, price_import=100.0, price_export=60.0)
+    at = str(ser.time[0])
+    hm = HourModel(cfg, ser, 0, {"B1": 1, "TG": 1})
+    st = hm.solve(WhatIf(price_import=0.0))
+    x = hm.lm.solution()
+    imp, exp = x[hm.imp_col], x[hm.exp_col]
+    assert min(imp, exp) < 1e-6, (imp, exp)
+    a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(price_import=0.0))
+    assert a.what_if["cost"] == pytest.approx(st.cost, rel=1e-9)

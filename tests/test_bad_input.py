@@ -168,6 +168,9 @@ SITE_CASES = [
     pytest.param(drop_boilers, ["[[boiler]]", "no boiler"], id="no-boilers"),
     pytest.param(sub("efficiency = [0.82, 0.86, 0.875, 0.872]", "efficiency = [0.82, 0.86, 0.875]"),
                  ["[[boiler]] #1 (id 'B1') > efficiency_curve", "same number of points"], id="curve-length-mismatch"),
+    pytest.param(sub("[[vent]]", "[[vents]]"), ["[[vents]]", "unknown table; write [[vent]]"], id="plural-table"),
+    pytest.param(sub('max_export = "15 MW"', 'max_export = "15 MW"\nmin_import = "2 MW"'),
+                 ["[grid] > min_import", "the site never exports"], id="min-import-with-export"),
     pytest.param(sub("motor = { efficiency = 0.92 }\n", ""),
                  ["[[drive]] #8 (id 'FANS')", "needs a 'steam_turbine', a 'motor' or both"], id="drive-without-driver"),
 ]
@@ -305,6 +308,7 @@ SERIES_CASES = [
     pytest.param(cell(2, IMPORT, "nan"), [f"row 4, column '{IMPORT}'", "'nan' is not a finite number"], id="nan-text"),
     pytest.param(cell(2, IMPORT, "inf"), [f"row 4, column '{IMPORT}'", "not a finite number"], id="inf-text"),
     pytest.param(cell(10, LOAD, "-5"), ["row 12, column 'load'", "must not be negative"], id="negative-load"),
+    pytest.param(cell(4, LP, "1e300"), [f"row 6, column '{LP}'", "beyond any plant"], id="huge-cell"),
     pytest.param(add_column("duty:FANS [kW]", "300", row=3, row_value="-10"),
                  ["row 5, column 'duty:FANS'", "must not be negative"], id="negative-duty"),
     # --- columns
@@ -483,3 +487,16 @@ def test_missing_top_tables_are_named_as_tables() -> None:
     text = str(exc.value)
     assert "required table [deaerator] is missing" in text
     assert "no [[header]] table" in text
+
+
+def test_inspect_csv_writes_a_folder_it_may_replace(demo_site: Path, tmp_path: Path,
+                                                    capsys: pytest.CaptureFixture[str]) -> None:
+    d = tmp_path / "coef"
+    assert main(["inspect", str(demo_site), "--csv", str(d)]) == 0
+    assert (d / "boilers.csv").is_file()
+    assert main(["inspect", str(demo_site), "--csv", str(d)]) == 0  # its own folder: replaced
+    capsys.readouterr()
+    f = tmp_path / "taken.csv"
+    f.write_text("x\n")
+    assert main(["inspect", str(demo_site), "--csv", str(f)]) == 2
+    assert "exists and is not a folder" in capsys.readouterr().err and f.read_text() == "x\n"

@@ -147,7 +147,7 @@ def test_drive_steam_rate_and_exhaust_by_hand():
 
 
 def test_letdown_water_ratio_matches_energy_balance():
-    # references.md sec. 6 [calc]: 42 bar(a)/400 degC let down to 11 bar(a), sprayed to 200 degC
+    # tests/references.md sec. 6 [calc]: 42 bar(a)/400 degC let down to 11 bar(a), sprayed to 200 degC
     # with 105 degC water needs about 0.163 kg water per kg of steam (1 %)
     cfg = site(header=[{"id": "HP", "pressure": "42 bar(a)", "temperature": "400 degC"},
                        {"id": "LP", "pressure": "11 bar(a)", "temperature": "200 degC"}],
@@ -215,6 +215,7 @@ def test_inspect_fits_the_terminal_without_cutting_a_number(width: int, monkeypa
     assert max(len(line) for line in text.splitlines() if line[:1] in "┏┃┡│└") <= width
     # the wet gas compressor's and the air blower's duty [kW], and B4's curve note, whole
     assert "3,500" in text and "5,000" in text and "convex hull, up to 0.002 % below the curve" in text
+    assert "vents" in text and "V-LP" in text  # every unit read is shown, vents too
 
 
 def test_deaerator_table_gives_the_steam_each_water_stream_needs():

@@ -29,7 +29,8 @@ def energy_audit(cfg, ser, res) -> np.ndarray:  # noqa: ANN001
     In: fuel, import, make-up water, returned process condensate, and the shortfall slacks
     of an impossible hour (surplus slacks count as negative). Out: process steam at
     header enthalpy, site load, export, shaft work delivered to the driven machines, boiler
-    losses (fuel less heat absorbed), blowdown, vented and ejector steam, deaerator overflow,
+    losses (fuel less heat absorbed), blowdown, vented steam, the heat the ejector steam
+    rejects before it drains to the hotwell, deaerator overflow,
     condenser duty, generator and no-load losses, motor losses. Enthalpies from IAPWS-IF97.
     """
     stt = SiteStates.of(cfg)
@@ -61,8 +62,10 @@ def energy_audit(cfg, ser, res) -> np.ndarray:  # noqa: ANN001
         e_out += s[f"{v.id}.flow_t_h"].to_numpy() * stt.headers[v.header].h / 3600
     for c in cfg.condensers:
         e_out += s[f"{c.id}.duty_MW"].to_numpy()
-        if c.ejector_header:
-            e_out += s[f"{c.id}.in_service"].to_numpy() * c.ejector_steam * stt.headers[c.ejector_header].h / 3600
+        if c.ejector_header:  # the motive steam drains to the hotwell as saturated liquid
+            h_hotwell = state_px(c.pressure, 0.0).h
+            e_out += (s[f"{c.id}.in_service"].to_numpy() * c.ejector_steam
+                      * (stt.headers[c.ejector_header].h - h_hotwell) / 3600)
     for tg in cfg.turbogenerators:
         co = tg_coefficients(tg, stt)
         f = s[f"{tg.id}.throttle_t_h"].to_numpy().copy()

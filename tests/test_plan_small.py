@@ -110,6 +110,79 @@ def test_min_up_time_keeps_a_boiler_on_after_a_short_peak():
     assert not res.diagnosis
 
 
+def test_a_running_hour_is_not_a_start_and_a_stop_at_once():
+    # With 1 h minimum times and no start-up cost, nothing in the objective stops the
+    # solver from booking a start and a stop in the same running hour (the transition row
+    # only sees their difference); the reported start count would then be wrong. The
+    # point on = 1, start = stop = 1 must violate one of the boiler's own rows.
+    import pyomo.environ as pyo
+
+    cfg = site()
+    sm = build_site_model(cfg, series(cfg, 3, demand_LP=30.0))
+    blk = sm.model.boiler_B1
+    for t in sm.model.T:
+        blk.on[t].set_value(1)
+        blk.start[t].set_value(1 if t == 0 else 0)
+        blk.stop[t].set_value(1 if t == 0 else 0)
+    violated = [c.name for c in blk.component_data_objects(pyo.Constraint, active=True)
+                if c.name.split(".")[-1].startswith(("transition", "min_up", "min_down"))
+                and ((c.upper is not None and pyo.value(c.body) > pyo.value(c.upper) + 1e-9)
+                     or (c.lower is not None and pyo.value(c.body) < pyo.value(c.lower) - 1e-9))]
+    assert violated
+    # ... and the plan counts no start for a boiler that runs throughout
+    _, _, res = run(cfg, series(cfg, 3, demand_LP=30.0))
+    assert res.schedule["B1.on"].tolist() == [1, 1, 1]
+    assert res.schedule["B1.start"].sum() == 0 and res.totals["boiler_starts"]["B1"] == 0
+
+
+def test_minimum_import_holds_when_own_power_is_cheaper():
+    # A turbo-generator makes power below the import price, so the site would import
+    # nothing; a 1.5 MW minimum import (a reverse-power relay, say) keeps 1.5 MW flowing in
+    # every hour and the set backs off by as much.
+    cfg = site(turbogenerator=[TG], letdown=None)
+    _, _, free_run = run(cfg, series(cfg, 3, demand_LP=60.0, load=4.0, price_import=500.0))
+    assert (free_run.schedule["grid.import_MW"] < 1e-6).all()
+    cfg = site(turbogenerator=[TG], letdown=None, grid={"max_import": "50 MW", "min_import": "1.5 MW"})
+    _, _, held = run(cfg, series(cfg, 3, demand_LP=60.0, load=4.0, price_import=500.0))
+    assert np.allclose(held.schedule["grid.import_MW"], 1.5, atol=1e-6)
+    assert (held.schedule["grid.export_MW"] == 0).all()
+
+
+def test_a_part_hour_minimum_up_time_is_rounded_up():
+    # 2.5 h of minimum up time holds the peak boiler on for 3 hourly steps (Python's
+    # round() would give 2: half to even)
+    from cogendispatch.equipment.common import whole_hours
+
+    assert [whole_hours(x) for x in (0.5, 1.0, 2.5, 6.0, 6.5)] == [1, 1, 3, 6, 7]
+    boilers = [
+        {"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}},
+        {"id": "B2", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "20 t/h",
+         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.70, 0.70]}, "initial_on": False,
+         "min_up": "2.5 h"},
+    ]
+    cfg = site(boiler=boilers, letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
+    _, _, res = run(cfg, series(cfg, 6, demand_LP=[30, 30, 130, 30, 30, 30]))
+    assert res.schedule["B2.on"].sum() == 3
+
+
+def test_colder_exhaust_cannot_superheat_itself():
+    # LP held at 5 bar(a) and 300 degC: the turbo-generator's exhaust arrives near 190 degC
+    # (the model books it with a negative "drain"). That is physical only where hotter
+    # letdown steam takes less spray in the same hour, so with power dear the set runs
+    # only as far as the letdown's spray can absorb its exhaust.
+    hot_lp = [{"id": "HP", "pressure": "40 bar(a)", "temperature": "400 degC"},
+              {"id": "LP", "pressure": "5 bar(a)", "temperature": "300 degC"}]
+    cfg = site(header=hot_lp, turbogenerator=[TG])
+    _, _, res = run(cfg, series(cfg, 2, demand_LP=60.0, price_import=400.0))
+    bal = res.balances[res.balances.header == "LP"]
+    water = bal[bal.term.str.endswith(("desuperheater water", "drain"))].groupby("time").flow_t_h.sum()
+    assert (water >= -1e-6).all() and (water.abs() < 1e-6).all()  # bound: no spare spray
+    drain = bal[bal.term == "TG exhaust to LP drain"].flow_t_h
+    assert (drain < -0.5).all()  # the set runs, against the letdown's spray
+    assert (res.schedule["LD.flow_t_h"] > 1.0).all()
+
+
 def test_min_down_time_holds_a_stopped_boiler_off():
     # The boiler was stopped 1 h before the horizon with a 3 h minimum down time: it may
     # not run in hours 0-1 even though the demand there is short without it.
@@ -141,6 +214,30 @@ def test_impossible_demand_is_diagnosed_by_header_and_hour():
     da = res.schedule["deaerator.steam_t_h"].to_numpy()
     assert short[2] - short[1] == pytest.approx(10.0 + da[2] - da[1], rel=1e-6)
     assert res.schedule["B1.steam_t_h"].iloc[1:3].tolist() == pytest.approx([100, 100])
+
+
+def test_deaerator_is_no_steam_dump():
+    # A process exports 150 t/h into LP, which has no vent and no user: nothing can take
+    # it. The deaerator may not quench it in make-up water and pour it away (its overflow
+    # drains only returned condensate, none here), so the hour is reported as LP surplus.
+    cfg = site(vent=None)
+    _, _, res = run(cfg, series(cfg, 2, demand_LP=[20, -150], demand_HP=[0, 30]))
+    # the HP process's return (half its 30 t/h), heated to saturation with its steam
+    st = SiteStates.of(cfg)
+    from cogendispatch.steam import state_pT
+    h_s, h_fw, h_ret = st.headers["LP"].h, st.h_feedwater, state_pT(2.0, 80.0).h
+    assert res.schedule["deaerator.overflow_t_h"].iloc[1] <= 15.0 * (h_s - h_ret) / (h_s - h_fw) + 1e-6
+    assert res.schedule["deaerator.makeup_t_h"].iloc[1] < 100
+    assert any(d.startswith("LP header surplus") and "hour 1" in d for d in res.diagnosis)
+
+
+def test_a_short_header_names_only_units_that_can_feed_it():
+    # HP is short (the boiler at its rating); the HP->LP letdown at its capacity cannot
+    # help HP and must not be named as binding
+    cfg = site(letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "5 t/h"}])
+    _, _, res = run(cfg, series(cfg, 1, demand_HP=120.0, demand_LP=5.0))
+    hp = [d for d in res.diagnosis if d.startswith("HP header short")]
+    assert hp and "B1 at its 100 t/h rating" in hp[0] and "LD" not in hp[0]
 
 
 def test_balances_close_and_limits_hold_on_a_tiny_site():

@@ -39,7 +39,8 @@ def test_prices_equal_finite_differences() -> None:
     lm, rep = solve_loaded(sm, SolveOptions(gap=1e-9, time_limit=60))
     pr = hourly_prices(lm, lm.schedule)
     assert pr is not None
-    assert list(pr.columns) == ["time", "balance", "price", "unit"]
+    assert list(pr.columns) == ["time", "balance", "price", "unit", "set_by"]
+    assert set(pr.set_by) == {"cost"}  # nothing short: every price is a cost
     assert len(pr) == 3 * (len(cfg.headers) + 1)
     assert set(pr.unit) == {"EUR/t", "EUR/MWh"}
     base = rep.objective
@@ -55,3 +56,16 @@ def test_prices_equal_finite_differences() -> None:
         assert p[(t, "power")] == pytest.approx((_cost(cfg, LP_DEMAND, heavier) - base) / step, rel=2e-3)
     # the loaded model is left as it was: the MIP solves again to the same optimum
     assert lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60)).objective == pytest.approx(base, rel=1e-9)
+
+
+def test_a_price_set_by_the_reserve_penalty_says_so() -> None:
+    # one 60 t/h boiler with the reserve on has no cover at all: the reserve is short in
+    # every hour, and a tonne more steam makes it shorter, so its penalty sets the prices
+    boilers = [{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}, "initial_on": True}]
+    cfg = site(boiler=boilers, reserve={"enabled": True})
+    sm = build_site_model(cfg, series(cfg, 2, demand_LP=20.0))
+    lm, _ = solve_loaded(sm, SolveOptions(gap=1e-9, time_limit=60))
+    pr = hourly_prices(lm, lm.schedule)
+    lp = pr[pr.balance == "LP"]
+    assert (lp.set_by == "reserve penalty").all() and (lp.price > 5000).all()

@@ -79,6 +79,13 @@ def test_us_units_and_rebuild(plan_dir: Path, tmp_path: Path) -> None:
     html = (d / "report.html").read_text()
     assert "klb/h" in html and "Header balances [klb/h]" in html
     assert main(["report", str(tmp_path)]) == 2  # not a plan or study folder
+    # the factors the page scales by: 1 lb = 0.45359237 kg exactly, 1 Btu_IT/lb = 2.326
+    # kJ/kg exactly (NIST SP 811, App. B)
+    from cogendispatch.report import Units
+
+    us = Units("us")
+    assert us.kf == pytest.approx(1.0 / 0.45359237, rel=1e-12)  # klb/h per t/h
+    assert us.ke == pytest.approx(1.0 / (2.326 * 0.45359237), rel=1e-12)  # MMBtu per GJ
 
 
 def test_page_renders_in_headless_chromium(plan_dir: Path, tmp_path: Path) -> None:
@@ -116,8 +123,8 @@ def test_plan_prints_its_fuel_total_in_the_units_asked(tmp_path: Path, capsys: p
                  str(tmp_path / "out"), "--quiet", "--units", "us"]) == 0
     out = capsys.readouterr().out
     gj = json.loads((tmp_path / "out" / "summary.json").read_text())["fuel_total_GJ"]
-    # 1 MMBtu = 1.055056 GJ (NIST SP 811, International Table Btu)
-    assert f"fuel {gj / 1.055056:,.0f} MMBtu" in out
+    # 1 MMBtu = 1.05505585 GJ (NIST SP 811, International Table Btu: 2.326 kJ/kg per Btu/lb)
+    assert f"fuel {gj / (2.326 * 0.45359237):,.0f} MMBtu" in out
 
 
 def test_penalties_stay_out_of_the_cost_and_price_charts(tmp_path: Path) -> None:
@@ -131,3 +138,32 @@ def test_penalties_stay_out_of_the_cost_and_price_charts(tmp_path: Path) -> None
                  str(tmp_path / "out"), "--quiet"]) == 3
     html = (tmp_path / "out" / "report.html").read_text()
     assert "are left out of this chart and of the prices below" in html and "in 1 h" in html
+
+
+def test_report_on_a_broken_folder_is_refused_and_keeps_the_old_page(plan_dir: Path, tmp_path: Path,
+                                                                     capsys: pytest.CaptureFixture[str]) -> None:
+    d = tmp_path / "copy"
+    shutil.copytree(plan_dir, d)
+    page = (d / "report.html").read_bytes()
+    (d / "balances.csv").unlink()
+    assert main(["report", str(d)]) == 2
+    err = capsys.readouterr().err
+    assert "cannot build the report" in err and "Traceback" not in err
+    assert (d / "report.html").read_bytes() == page and not list(d.glob(".*.tmp"))
+    (d / "summary.json").write_text("{not json")
+    assert main(["report", str(d)]) == 2
+    assert "summary.json is unreadable" in capsys.readouterr().err
+
+
+def test_a_short_baseline_is_named_beside_the_saving(plan_dir: Path, tmp_path: Path) -> None:
+    d = tmp_path / "copy"
+    shutil.copytree(plan_dir, d)
+    s = json.loads((d / "summary.json").read_text())
+    assert "baseline" in s and not s["baseline"]["diagnosis"]
+    assert "practice baseline itself leaves" not in (d / "report.html").read_text()
+    s["baseline"]["diagnosis"] = ["HP header short 13.17 t/h at most in hour 0 (2027-03-01 00:00)"]
+    (d / "summary.json").write_text(json.dumps(s))
+    assert main(["report", str(d)]) == 0
+    html = (d / "report.html").read_text()
+    assert "practice baseline itself leaves demand or the steam reserve unmet" in html
+    assert "HP header short 13.17 t/h" in html

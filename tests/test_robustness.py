@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import shutil
 import os
 import re
 import signal
@@ -64,16 +65,28 @@ def test_killed_runs_never_leave_a_partial_output(tmp_path) -> None:  # noqa: AN
     assert main(["plan", str(site), "--series", str(ser), "--out", str(out), "--quiet"]) == 0
     names = set(_digest(out))
     env = dict(os.environ, PYTHONPATH=str(ROOT / "model") + os.pathsep + os.environ.get("PYTHONPATH", ""))
-    for delay in (0.3, 0.8, 1.3, 1.8, 2.5):
+    # killed while solving (0.3 s in), and twice while the new results are being written:
+    # the kill waits until the temporary folder beside ``out`` exists, then lands a moment
+    # (0 or 0.2 s) into the write, so each case is hit whatever the machine's speed
+    for early, into_write in ((True, 0.0), (False, 0.0), (False, 0.2)):
         p = subprocess.Popen([sys.executable, "-m", "cogendispatch.cli", "plan", str(site), "--series", str(ser),
                               "--out", str(out), "--quiet"], env=env, stdout=subprocess.DEVNULL,
                              stderr=subprocess.DEVNULL)
-        time.sleep(delay)
+        if early:
+            time.sleep(0.3)
+        else:
+            deadline = time.monotonic() + 120
+            while not list(tmp_path.glob(".out.new-*")) and p.poll() is None and time.monotonic() < deadline:
+                time.sleep(0.002)
+            assert list(tmp_path.glob(".out.new-*")), "the run ended before its write could be interrupted"
+            time.sleep(into_write)
         p.send_signal(signal.SIGKILL)
         p.wait()
         # whatever the moment of the kill, the folder holds one complete set of results
         assert set(_digest(out)) == names
         assert (out / "summary.json").read_text().strip().endswith("}")
+        for left in tmp_path.glob(".out.new-*"):  # what a killed run leaves behind, cleared for the next
+            shutil.rmtree(left)
 
 
 def test_output_folder_gets_the_usual_mode(tmp_path) -> None:  # noqa: ANN001

@@ -5,7 +5,9 @@ Conversions used below: 1 MPa = 10 bar; T[K] = T[degC] + 273.15; 1 Btu/lb = 2.32
 (International Table Btu, exact by definition of the IT calorie); 1 kg = 2.20462 lb
 (NIST SP 811: 1 lb = 0.45359237 kg exactly); degF = degC * 9/5 + 32.
 
-Sources are quoted as the project's list of published check values (references.md) gives them.
+Sources are quoted as the project's list of published check values (tests/references.md)
+gives them; "[calc]" values there were computed with IAPWS-IF97 for that list, so they are
+held to their printed rounding here, tighter than the list's 1 %.
 """
 
 from __future__ import annotations
@@ -154,11 +156,10 @@ def test_superheated_40_bar_400_C():
 
 def test_saturated_400_psig():
     st = state_px(bar("400 psig"), 1.0)
-    # common practice rule "about 440 degF" for a 400 psig header: loose check only, +-10 degF
-    assert c_to_f(st.T) == pytest.approx(440.0, abs=10.0)
-    # [calc] about 448 degF, h_g about 1205 Btu/lb (IAPWS-IF97, references.md sec. 2)
-    assert c_to_f(st.T) == pytest.approx(448.0, abs=1.0)
-    assert st.h / BTU_PER_LB == pytest.approx(1205.0, abs=1.0)
+    # [calc] about 448 degF, h_g about 1205 Btu/lb (IAPWS-IF97, references.md sec. 2): a
+    # cross-check of the psig conversion and the saturation state, to the printed rounding
+    assert c_to_f(st.T) == pytest.approx(448.0, abs=0.5)
+    assert st.h / BTU_PER_LB == pytest.approx(1205.0, abs=0.5)
 
 
 # ---------------------------------------------------------------------------------------
@@ -235,9 +236,11 @@ def test_doe_tip_sheet_15_heat_added(header, feedwater, heat_btu_lb):
     # Feedwater is taken as compressed liquid at boiler pressure (it has been pumped up to
     # the drum): h_g(p) - h(p, T_fw). This reproduces all six entries within 0.6 Btu/lb.
     # The alternative, saturated liquid at T_fw, deviates by up to 1.65 Btu/lb at 600 psig
-    # (inside the 2 Btu/lb tolerance, but only just), so the compressed-liquid form is used.
+    # (inside the list's 2 Btu/lb tolerance), so the compressed-liquid form is used, and held
+    # to 1 Btu/lb: the sheet's whole-number rounding plus older steam tables, which the
+    # saturated-liquid form would fail.
     heat = (state_px(p, 1.0).h - state_pT(p, t_fw).h) / BTU_PER_LB
-    assert heat == pytest.approx(heat_btu_lb, abs=2.0)  # US DOE Steam Tip Sheet #15, Table 1
+    assert heat == pytest.approx(heat_btu_lb, abs=1.0)  # US DOE Steam Tip Sheet #15, Table 1
 
 
 # ---------------------------------------------------------------------------------------
@@ -262,7 +265,7 @@ def test_mil_hdbk_1003_7_table8_theoretical_steam_rate(p_in, t_in, p_out, tsr_lb
 
 
 # ---------------------------------------------------------------------------------------
-# 6. Desuperheating and letdown [calc] (references.md sec. 6). Tolerance 1 %
+# 6. Desuperheating and letdown [calc] (references.md sec. 6): held to the printed rounding
 # ---------------------------------------------------------------------------------------
 
 
@@ -270,11 +273,11 @@ def test_letdown_and_desuperheating_calc():
     inlet = state_pT(42.0, 400.0)
     out = throttled_state(inlet, 11.0)
     assert out.h == pytest.approx(inlet.h, abs=1e-6)  # isenthalpic
-    assert inlet.h == pytest.approx(3210.9, rel=1e-2)  # [calc] references.md sec. 6: h 3210.9
-    assert out.T == pytest.approx(375.7, rel=1e-2)  # [calc] references.md sec. 6: ~375.7 degC
+    assert inlet.h == pytest.approx(3210.9, abs=0.05)  # [calc] references.md sec. 6: h 3210.9
+    assert out.T == pytest.approx(375.7, abs=0.05)  # [calc] references.md sec. 6: ~375.7 degC
     assert out.phase == "superheated"
     ratio = spray_water_ratio(out.h, state_pT(11.0, 200.0).h, state_pT(11.0, 105.0).h)
-    assert ratio == pytest.approx(0.163, rel=1e-2)  # [calc] references.md sec. 6: ~0.163 kg/kg
+    assert ratio == pytest.approx(0.163, abs=5e-4)  # [calc] references.md sec. 6: ~0.163 kg/kg
 
 
 def test_spray_water_ratio_rejects_target_below_water():
@@ -408,8 +411,7 @@ def test_out_of_range_raises(call):
     ids=["pT-0.006bar", "px-0.006bar", "pT-1000bar-1500C"],
 )
 def test_out_of_range_raises_steam_property_error_not_iapws_error(call):
-    # Either a valid state or SteamPropertyError is acceptable; nothing else may escape.
-    try:
+    # below the triple point, and above 500 bar(a) at 1500 degC (region 5 ends at 50 MPa;
+    # IAPWS-IF97, sec. 4): each is our own error, not whatever iapws raises or returns
+    with pytest.raises(SteamPropertyError, match="outside IAPWS-IF97"):
         call()
-    except SteamPropertyError:
-        pass

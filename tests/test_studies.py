@@ -115,6 +115,7 @@ demand = { LP = 1.1 }
     ('[[scenario]]\nname = "a"\ndemand = { XX = 1.1 }\n', "demand > XX"),
     ('[[scenario]]\nname = "a"\nwind = 3\n', "unknown key"),
     ('[[scenario]\nname = "a"\n', "not valid TOML"),
+    ('[[scenario]]\nname = "a"\nimport = { multiply = 1e400 }\n', "import > multiply"),
 ])
 def test_bad_scenarios_name_the_place(tmp_path, text: str, where: str) -> None:  # noqa: ANN001
     cfg = _site()
@@ -142,6 +143,7 @@ def test_process_pool_results_equal_serial() -> None:
     sc = _three(cfg)
     serial = run_study(cfg, sc, FAST, window=24, lookahead=6, workers=1)
     pooled = run_study(cfg, sc, FAST, window=24, lookahead=6, workers=2)
+    assert len(serial) == len(pooled) == len(sc) == 3
     for a, b in zip(serial, pooled):
         assert a.name == b.name
         pd.testing.assert_frame_equal(a.schedule, b.schedule)
@@ -155,6 +157,7 @@ def test_dask_local_cluster_results_equal_serial() -> None:
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
                                   dashboard_address=None) as cluster:
         remote = run_study(cfg, sc, FAST, window=24, lookahead=6, cluster=cluster.scheduler_address)
+    assert len(serial) == len(remote) == len(sc) == 2
     for a, b in zip(serial, remote):
         pd.testing.assert_frame_equal(a.schedule, b.schedule)
         pd.testing.assert_frame_equal(summarise(cfg, a), summarise(cfg, b))
@@ -248,3 +251,9 @@ def test_a_window_without_a_bound_leaves_the_gap_unproven() -> None:
     assert np.isnan(summarise(cfg, ScenarioResult("x", s, c, 0, win)).largest_window_gap.iloc[0])
     win[1] = WindowReport("c", "d", 0.1, 1.0, "optimal", 0.001, 1)
     assert summarise(cfg, ScenarioResult("x", s, c, 0, win)).largest_window_gap.iloc[0] == pytest.approx(0.004)
+
+
+def test_a_folder_given_as_scenario_file_is_refused(tmp_path) -> None:  # noqa: ANN001
+    cfg = _site()
+    with pytest.raises(InputError, match="cannot be read"):
+        load_scenarios(tmp_path, cfg, series(cfg, 24, demand_LP=50.0))

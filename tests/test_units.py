@@ -18,7 +18,9 @@ INCH_M = 0.0254  # [m] (NIST SP 811, App. B; exact)
 FOOT_M = 0.3048  # [m] (NIST SP 811, App. B; exact)
 PSI_BAR = LB_KG * G_N / INCH_M**2 / 1e5  # lbf/in2 = 6894.757 Pa (NIST SP 811, App. B)
 HP_W = 550.0 * FOOT_M * LB_KG * G_N  # 550 ft lbf/s = 745.69987 W (NIST SP 811, App. B)
-BTU_J = 1055.056  # [J] British thermal unit, International Table (NIST SP 811, App. B)
+# [J] British thermal unit, International Table: 1 Btu_IT/lb = 2.326 kJ/kg exactly, so
+# 1 Btu_IT = 1055.05585262 J (NIST SP 811, App. B, which rounds it to 1.055 056 E+03 J)
+BTU_J = 2326.0 * LB_KG
 
 REL = 1e-9
 
@@ -131,7 +133,7 @@ def test_power(text, expected):
     [
         ("5 GJ", 5.0),
         ("5000 MJ", 5.0),
-        ("1 MMBtu", BTU_J * 1e6 / 1e9),  # Btu_IT = 1055.056 J (NIST SP 811)
+        ("1 MMBtu", BTU_J * 1e6 / 1e9),  # Btu_IT (NIST SP 811)
         ("4.7 MMBtu", 4.7 * BTU_J * 1e-3),
     ],
 )
@@ -140,8 +142,12 @@ def test_energy(text, expected):
 
 
 def test_other_kinds():
-    # 1 Btu/lb = 2.326 kJ/kg (IT Btu, NIST SP 811; pint's rounded 1055.056 J gives 2.3260003)
-    assert parse_quantity("1 Btu/lb", "specific_energy") == pytest.approx(2.326, rel=1e-6)
+    # 1 Btu/lb = 2.326 kJ/kg exactly (IT Btu, NIST SP 811; pint's own "Btu" is the ISO
+    # 1055.056 J, which would give 2.3260003)
+    assert parse_quantity("1 Btu/lb", "specific_energy") == pytest.approx(2.326, rel=1e-12)
+    # 1 kcal_IT/kg = 4.1868 kJ/kg (IT calorie, NIST SP 811; the thermochemical is 4.184)
+    assert parse_quantity("1 kcal/kg", "specific_energy") == pytest.approx(4.1868, rel=1e-12)
+    assert parse_quantity("1 Gcal", "energy") == pytest.approx(4.1868, rel=1e-12)
     # 1 lb/kWh = 0.45359237 kg/kWh (NIST SP 811)
     assert parse_quantity("26 lb/kWh", "steam_rate") == pytest.approx(26 * LB_KG, rel=REL)
     # 140 MMBtu/h = 147.70784 GJ/h (Btu_IT, NIST SP 811)
@@ -276,3 +282,12 @@ def test_column_factor_errors():
         column_factor("psig", "temperature")
     with pytest.raises(UnitError):
         column_factor("per foo", "price_energy")
+
+
+@pytest.mark.parametrize("text, kind", [("5 ton/h", "mass_flow"), ("5 tons/h", "mass_flow"), ("3 per ton", "price_mass")])
+def test_ton_is_refused_as_ambiguous(text: str, kind: str) -> None:
+    # short ton 907.18474 kg, long ton 1016.0469 kg (NIST SP 811, App. B), metric 1000 kg:
+    # 9 % apart, so the bare word is refused as plain "bar" is
+    with pytest.raises(UnitError, match="ambiguous"):
+        parse_quantity(text, kind)
+    assert parse_quantity("5 short_ton/h", "mass_flow") == pytest.approx(5 * 2000 * LB_KG / 1000, rel=REL)

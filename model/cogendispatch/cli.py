@@ -21,11 +21,12 @@ from rich.text import Text
 from rich.table import Table
 
 from .errors import InputError, SolveError
-from .outputs import json_text
+from .outputs import atomic_dir, json_text, write_csv, write_json
 from .plan import SAFETY_NOTE, run_plan
 from .site import BuildOptions
 from .solve import SolveOptions
 from .steam import SteamPropertyError
+from .studies import COLD_MIN, NEW_MODEL_MIN
 from .verify import MOISTURE_LIMIT
 
 if TYPE_CHECKING:
@@ -61,10 +62,11 @@ def _count(text: str) -> int:
     return v
 
 
-def _units_option(p: argparse.ArgumentParser) -> None:
+def _units_option(p: argparse.ArgumentParser, prints_fuel: bool = True) -> None:
+    what = "report.html and of the fuel total printed here" if prints_fuel else "report.html"
     p.add_argument("--units", choices=["si", "us"], default="si",
-                   help="units of report.html and of the fuel total printed here: t/h and GJ, or klb/h and "
-                        "MMBtu (the CSV, JSON and workbook files and the messages stay in t/h and GJ)")
+                   help=f"units of {what}: t/h and GJ, or klb/h and MMBtu (the CSV, JSON and workbook files "
+                        "and the messages stay in t/h and GJ)")
 
 
 def _site_and_series(p: argparse.ArgumentParser, series_help: str) -> None:
@@ -92,7 +94,7 @@ def build_parser() -> argparse.ArgumentParser:
                          "coefficients (fuel per tonne, turbine kW per t/h and steam rates, drive steam "
                          "rates, letdown water ratios, deaerator steam ratio).")
     ins.add_argument("site", help="site file (TOML)")
-    ins.add_argument("--csv", metavar="DIR", help="also write each table as CSV into DIR")
+    ins.add_argument("--csv", metavar="DIR", help="also write each table as CSV into the folder DIR (created, or replaced if an earlier inspect wrote it)")
 
     pl = sub.add_parser("plan", help="lowest-cost hourly schedule for the hours of a series",
                         description="Plan every unit hour by hour for the hours in --series and write "
@@ -100,16 +102,16 @@ def build_parser() -> argparse.ArgumentParser:
                         "summary.json, report.html and plan.xlsx into --out (whole or not at all).")
     _site_and_series(pl, "hourly demands and prices (CSV or Excel)")
     pl.add_argument("--out", required=True, help="output folder (created, or replaced if it holds earlier results)")
-    pl.add_argument("--gap", type=_positive, default=1e-3, help="relative MIP gap to stop at (default 0.001 = 0.1 %%)")
+    pl.add_argument("--gap", type=_positive, default=1e-3, help="relative MIP gap to stop at (default %(default)g)")
     pl.add_argument("--time-limit", type=_positive, default=120.0,
-                    help="time for the search [s] (default 120); reading, building, the re-check, the "
+                    help="time for the search [s] (default %(default)g); reading, building, the re-check, the "
                          "baseline and the report come on top")
     pl.add_argument("--threads", type=_count, default=1,
                     help="threads for the solve (default 1); with 2 or more, one builds and improves "
                          "schedules beside HiGHS, which gets the rest: better results in the same time")
     pl.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
     pl.add_argument("--moisture-limit", type=_positive, default=MOISTURE_LIMIT,
-                    help="lowest turbine exhaust quality accepted by the re-check (default 0.88, common practice)")
+                    help="lowest turbine exhaust quality accepted by the re-check (default %(default)g, common practice)")
     _units_option(pl)
     pl.add_argument("--quiet", action="store_true", help="no progress messages")
     pl.add_argument("--json", action="store_true", help="print summary.json to standard output")
@@ -121,24 +123,24 @@ def build_parser() -> argparse.ArgumentParser:
     _site_and_series(sd, "base hourly demands and prices (CSV or Excel)")
     sd.add_argument("--scenarios", required=True, help="scenario file (TOML)")
     sd.add_argument("--out", required=True, help="output folder")
-    sd.add_argument("--window", type=int, default=168, help="hours kept per window (default 168)")
-    sd.add_argument("--lookahead", type=int, default=24, help="hours solved past each window and discarded (default 24)")
-    sd.add_argument("--gap", type=_positive, default=5e-3, help="relative MIP gap per window (default 0.005)")
+    sd.add_argument("--window", type=int, default=168, help="hours kept per window (default %(default)d)")
+    sd.add_argument("--lookahead", type=int, default=24, help="hours solved past each window and discarded (default %(default)d)")
+    sd.add_argument("--gap", type=_positive, default=5e-3, help="relative MIP gap per window (default %(default)g)")
     sd.add_argument("--time-limit", type=_positive, default=1.5,
-                    help="solver time per window [s] (default 1.5); a window starts from the week before and "
+                    help="solver time per window [s] (default %(default)g); a window starts from the week before and "
                          "more time lets it improve further; a window with nothing to start from gets at "
-                         "least 20 s, one needing a newly built model at least 6 s")
+                         f"least {COLD_MIN:g} s, one needing a newly built model at least {NEW_MODEL_MIN:g} s")
     sd.add_argument("--workers", type=_count, default=None, help="local worker processes (default: one per core)")
     sd.add_argument("--cluster", metavar="ADDRESS", help="send the scenarios to this Dask scheduler instead")
     sd.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
-    _units_option(sd)
+    _units_option(sd, prints_fuel=False)
     sd.add_argument("--quiet", action="store_true", help="no progress bars")
     sd.add_argument("--json", action="store_true", help="print the scenario table as JSON to standard output")
     rp = sub.add_parser("report", help="rebuild report.html and the Excel workbook of a plan or study folder",
                         description="Rebuild report.html and plan.xlsx or study.xlsx from the files of a plan or "
                         "study folder.")
     rp.add_argument("dir", help="a folder written by cogen plan or cogen study")
-    _units_option(rp)
+    _units_option(rp, prints_fuel=False)
     ve = sub.add_parser("verify", help="re-check a plan's schedule with full IAPWS-IF97 physics",
                         description="Re-evaluate every hour of a plan folder's schedule with IAPWS-IF97: turbine "
                         "sections along the actual expansion line, desuperheater and deaerator water from energy "
@@ -146,7 +148,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "verify_sections.csv and updates summary.json (plan runs this itself).")
     ve.add_argument("dir", help="a folder written by cogen plan")
     ve.add_argument("--moisture-limit", type=_positive, default=MOISTURE_LIMIT,
-                    help="lowest exhaust quality accepted (default 0.88, common practice)")
+                    help="lowest exhaust quality accepted (default %(default)g, common practice)")
     ad = sub.add_parser("advise", help="one hour: marginal steam prices, turbine-versus-motor table, what-if",
                         description="Advice for one hour: the marginal cost of steam in each header and of power, "
                         "and for every machine with both drivers the cost of the hour on steam and on motor, the "
@@ -243,7 +245,7 @@ def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
 
 def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     from .decisions import advise
-    from .outputs import atomic_dir, check_out_dir, write_csv, write_json
+    from .outputs import check_out_dir
     from .plant.load import load_site
     from .plant.series import load_series
 
@@ -259,16 +261,24 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     if args.json:
         print(json_text(d))
     else:
-        pr = pd.DataFrame([{"header": h, f"marginal price [{cur}/t]": v, "set by": a.reasons[h].split(": ", 1)[1]}
-                           for h, v in a.prices.items()]
-                          + [{"header": "power", f"marginal price [{cur}/t]": a.power_price,
-                              "set by": a.power_reason.split(": ", 1)[1] + f" [{cur}/MWh]"}])
+        pr = pd.DataFrame([{"balance": h, "marginal price": v, "unit": f"{cur}/t",
+                            "set by": a.reasons[h].split(": ", 1)[1]} for h, v in a.prices.items()]
+                          + [{"balance": "power", "marginal price": a.power_price, "unit": f"{cur}/MWh",
+                              "set by": a.power_reason.split(": ", 1)[1]}])
         # the prices and the driver table are the hour as given; the what-if is its own line
         given = ", as given (before the what-if below)" if a.what_if else ""
         _table(out, f"Marginal prices at {a.time} (hour cost {a.cost:,.0f} {cur}{given})", pr)
         if not a.drivers.empty:
             dt = a.drivers[["machine", "now_on_steam", "cost_on_steam", "cost_on_motor", "saving", "better",
                             "flip_import_price", "marginal_estimate"]].copy()
+            # a choice that leaves demand or the reserve short is priced by a penalty: say so
+            for i, r in a.drivers.iterrows():
+                marks = [f"{drv} leaves {what}" for drv in ("steam", "motor")
+                         for what, hit in (("demand short", r[f"{drv}_leaves_short"]),
+                                           (f"the reserve {r[f'{drv}_reserve_short_t_h']:.1f} t/h short",
+                                            r[f"{drv}_reserve_short_t_h"] > 1e-4)) if hit]
+                if marks:
+                    dt.loc[i, "better"] = f"{r['better']} ({'; '.join(marks)}: the saving includes its penalty)"
             dt.columns = ["machine", "now on steam", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
                           f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", f"marginal estimate [{cur}/MWh]"]
             _table(out, "Turbine or motor" + (" (hour as given)" if a.what_if else ""),
@@ -304,7 +314,7 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
 
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
 
-    from .outputs import atomic_dir, check_out_dir, write_csv, write_json
+    from .outputs import check_out_dir
     from .plant.load import load_site
     from .plant.series import load_series
     from .studies import load_scenarios, run_study, summarise
@@ -438,10 +448,13 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
             wide.insert(0, "quantity", wide.index)
             _table(out, name, wide.reset_index(drop=True).astype(object))
     if args.csv:
-        d = Path(args.csv)
-        d.mkdir(parents=True, exist_ok=True)
-        for name, df in tables.items():
-            df.to_csv(d / f"{name}.csv", index=False)
+        def write(tmp: Path) -> None:
+            for name, df in tables.items():
+                write_csv(df, tmp / f"{name}.csv", index=False)
+            # the marker lets a later inspect replace this folder and nothing else
+            write_json({"kind": "coefficients", "site": str(Path(args.site).resolve())}, tmp / "summary.json")
+
+        atomic_dir(args.csv, write, kind="coefficients")
     return EXIT_OK
 
 

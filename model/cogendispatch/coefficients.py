@@ -80,9 +80,13 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
                       "header_h_kJ_kg": out.h})
     letdowns = pd.DataFrame(lrows)
 
+    # vents: what the site file gives, so a planner can see they were read
+    vents = pd.DataFrame([{"vent": v.id, "header": v.header, "max_flow_t_h": v.max_flow, "cost_per_t": v.cost}
+                          for v in cfg.vents])
+
     deaerator = _deaerator_table(cfg, st)
     return {"headers": hdr, "boilers": boilers, "turbines": turbines, "drives": drives,
-            "letdowns": letdowns, "deaerator": deaerator}
+            "letdowns": letdowns, "vents": vents, "deaerator": deaerator}
 
 
 def _deaerator_table(cfg: SiteConfig, st: SiteStates) -> pd.DataFrame:
@@ -95,7 +99,7 @@ def _deaerator_table(cfg: SiteConfig, st: SiteStates) -> pd.DataFrame:
     streams = [("make-up", state_pT(da.pressure, da.makeup_temperature), "the balance of the feedwater"),
                ("process condensate", state_pT(da.pressure, da.condensate_temperature),
                 f"{da.process_condensate_return:.0%} of the hour's process steam demand")]
-    streams += [(f"{c.id} hotwell condensate", state_px(c.pressure, 0.0), f"the steam {c.id} condenses")
+    streams += [(f"{c.id} hotwell condensate", state_px(c.pressure, 0.0), f"the steam {c.id} condenses" + (" and its ejector steam" if c.ejector_steam > 0 else ""))
                 for c in cfg.condensers]
     return pd.DataFrame([{
         "stream": name, "temperature_C": w.T, "enthalpy_kJ_kg": w.h,

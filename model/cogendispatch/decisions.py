@@ -15,7 +15,7 @@ the model is built and loaded once per hour of advice.
 from __future__ import annotations
 
 import re
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
 
 import highspy
@@ -59,6 +59,7 @@ class HourState:
     vent: dict[str, float]
     short: dict[str, float]
     power_short: float
+    reserve_short: float = 0.0  # [t/h] of the one-boiler-trip reserve not kept
 
 
 class HourModel:
@@ -68,7 +69,8 @@ class HourModel:
                  build: BuildOptions = BuildOptions()) -> None:
         self.cfg = _hold_initial_states(cfg, held)
         self.series1 = series.window(index, 1)
-        self.sm: SiteModel = build_site_model(self.cfg, self.series1, build)
+        # what-ifs change prices on the loaded model: import and export kept apart always
+        self.sm: SiteModel = build_site_model(self.cfg, self.series1, replace(build, grid_exclusive=True))
         self.lm = LoadedModel(self.sm)
         self.h: highspy.Highs = self.lm.h
         self.h.setOptionValue("mip_rel_gap", 1e-9)
@@ -176,6 +178,7 @@ class HourModel:
             vent={vt.id: v(self.blocks[vt.id].flow[0]) for vt in self.cfg.vents},
             short={hh.id: v(m.steam_short[hh.id, 0]) for hh in self.cfg.headers},
             power_short=v(m.power_short[0]),
+            reserve_short=v(m.reserve_short[0]) if m.component("reserve_short") is not None else 0.0,
         )
 
     def marginal_prices(self, w: WhatIf = WhatIf()) -> tuple[dict[str, float], float, np.ndarray]:
@@ -277,6 +280,7 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
         return lo + 1e-6 < v < hi - 1e-6
 
     out: dict[str, str] = {}
+    reserve_short = val(m.reserve_short[0]) if m.component("reserve_short") is not None else 0.0
     for hh in cfg.headers:
         hid = hh.id
         if val(m.steam_short[hid, 0]) > 1e-6:
@@ -289,6 +293,9 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
         for vt in cfg.vents:
             if vt.header == hid and val(b[vt.id].flow[0]) > 1e-6:
                 reason = f"{hid}: surplus, vented through {vt.id}"
+        if reason is None and reserve_short > 1e-6:
+            reason = (f"{hid}: the steam reserve is {reserve_short:.2f} t/h short; the price carries its penalty "
+                      f"({cfg.penalties.reserve_shortfall:g} per t of reserve), not a cost of steam")
         if reason is None:
             for bo in cfg.boilers:
                 if bo.header == hid and val(b[bo.id].on[0]) > 0.5 and free(b[bo.id].steam[0], bo.min_steam, bo.max_steam):
@@ -367,6 +374,7 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
             "flip_import_price": _flip_price(hm, d.id, p0, d0, est, tol),
             "marginal_estimate": est,
             "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
+            "steam_reserve_short_t_h": on_steam.reserve_short, "motor_reserve_short_t_h": on_motor.reserve_short,
         })
     df = pd.DataFrame(rows)
     if not df.empty:
@@ -490,9 +498,19 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         notes = [f"{u} was already off" for u in what_if.trip if held.get(u) == 0]
         if what_if.trip and len(hm.reserve_rows):
             notes.append("steam reserve no longer kept: the site is in the contingency it was kept for")
+        penalty = cfg.penalties.reserve_shortfall
+        if new.reserve_short > base_free.reserve_short + 1e-4:
+            idle = [b.id for b in cfg.boilers if new.on.get(b.id) == 0 and b.id not in what_if.trip]
+            notes.append(f"steam reserve {new.reserve_short:.2f} t/h short (was {base_free.reserve_short:.2f}): "
+                         f"{penalty * (new.reserve_short - base_free.reserve_short):,.0f} of the change is its "
+                         "penalty, not money spent"
+                         + (f"; starting {', '.join(idle)} (--allow-starts) may keep it" if idle and not allow_starts
+                            else ""))
         wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
               "changes": notes + what_if_changes(base_free, new),
               "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4,
+              "reserve_short_t_h": new.reserve_short,
+              "penalty_change": penalty * (new.reserve_short - base_free.reserve_short),
               "asked": {**asdict(what_if), "allow_starts": allow_starts}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
                   _time.perf_counter() - t0)

@@ -129,6 +129,8 @@ def verify_plan_dir(out: str | Path, moisture_limit: float = MOISTURE_LIMIT) -> 
     from .errors import InputError
 
     d = Path(out)
+    if not d.is_dir():
+        raise InputError(d, "", "folder not found" if not d.exists() else "is a file, not a plan folder")
     kind = output_kind(d)
     if kind is None:
         what = "unreadable" if (d / "summary.json").exists() else "not a plan folder (no summary.json)"
@@ -148,17 +150,28 @@ def verify_plan_dir(out: str | Path, moisture_limit: float = MOISTURE_LIMIT) -> 
         raise InputError(d / "schedule.csv", "", f"cannot read the schedule ({exc})") from None
     if len(sched) != series.hours:
         raise InputError(d / "schedule.csv", "", f"{len(sched)} rows but the series has {series.hours} hours")
-    ver = verify_schedule(cfg, series, sched, moisture_limit)
+    try:
+        ver = verify_schedule(cfg, series, sched, moisture_limit)
+    except KeyError as exc:
+        raise InputError(d / "schedule.csv", "", f"has no column {exc.args[0]!r}: the site file {site} no longer "
+                         "matches this plan (a unit renamed or added since?); plan again") from None
     summary["verify"] = ver.summary()
 
-    def replace(name: str, write: Callable[[Path], None]) -> None:
-        tmp = d / f".{name}.tmp"
-        write(tmp)
+    # all three written first, then swapped in: a failed write leaves the old set whole
+    writes: dict[str, Callable[[Path], None]] = {
+        "verify.csv": lambda p: write_csv(ver.hourly, p),
+        "verify_sections.csv": lambda p: write_csv(ver.sections, p, index=False),
+        "summary.json": lambda p: write_json(summary, p)}
+    tmps = {name: d / f".{name}.tmp" for name in writes}
+    try:
+        for name, write in writes.items():
+            write(tmps[name])
+    except BaseException:
+        for tmp in tmps.values():
+            tmp.unlink(missing_ok=True)
+        raise
+    for name, tmp in tmps.items():
         tmp.replace(d / name)
-
-    replace("verify.csv", lambda p: write_csv(ver.hourly, p))
-    replace("verify_sections.csv", lambda p: write_csv(ver.sections, p, index=False))
-    replace("summary.json", lambda p: write_json(summary, p))
     return ver
 
 

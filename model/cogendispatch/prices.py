@@ -29,7 +29,9 @@ if TYPE_CHECKING:
 def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> pd.DataFrame | None:
     """Marginal prices of the schedule ``x`` (column values of ``lm``), tidy: one row per hour
     and balance, columns ``time``, ``balance`` (a header id or ``power``), ``price`` and
-    ``unit`` ([currency/t] for a header, [currency/MWh] for power). None when the LP does
+    ``unit`` ([currency/t] for a header, [currency/MWh] for power) and ``set_by``: "cost", or
+    "shortfall penalty", "surplus penalty" or "reserve penalty" for an hour whose price a
+    penalty sets (it is then no cost of steam or power). None when the LP does
     not solve within ``time_limit`` [s]. ``lm``'s bounds and integrality are left as they were
     (:meth:`LoadedModel._fixed_run`).
 
@@ -48,7 +50,26 @@ def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> p
         return None
     cur = sm.ctx.cfg.site.currency
     time = sm.ctx.series.time
+
+    def val(var) -> float:  # noqa: ANN001
+        c = lm.col(var)
+        return float(var.value or 0.0) if c is None else float(x[c])
+
+    reserve = m.component("reserve_short")
+
+    def set_by(b: str, t: int) -> str:
+        """'cost', or the penalty a price carries: then it is no cost of steam or power."""
+        short, surplus = (m.power_short[t], m.power_surplus[t]) if b == "power" else \
+            (m.steam_short[b, t], m.steam_surplus[b, t])
+        if val(short) > 1e-6:
+            return "shortfall penalty"
+        if val(surplus) > 1e-6:
+            return "surplus penalty"
+        if reserve is not None and val(reserve[t]) > 1e-6:
+            return "reserve penalty"
+        return "cost"
+
     out = [{"time": time[t], "balance": b, "price": float(dual[r]) if r is not None else float("nan"),
-            "unit": f"{cur}/MWh" if b == "power" else f"{cur}/t"}
+            "unit": f"{cur}/MWh" if b == "power" else f"{cur}/t", "set_by": set_by(b, t)}
            for (b, t), r in rows.items()]
     return pd.DataFrame(out).sort_values(["time", "balance"], kind="stable").reset_index(drop=True)

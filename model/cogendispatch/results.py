@@ -9,7 +9,7 @@ import pandas as pd
 import pyomo.environ as pyo
 
 from .equipment.common import held_value
-from .plant.schema import Boiler, Condenser, Drive, Letdown, TurboGenerator, Vent
+from .plant.schema import Boiler, Condenser, Drive, Letdown, SiteConfig, TurboGenerator, Vent
 from .site import SiteModel
 
 TOL = 1e-5  # [t/h] or [MW]: below this a slack counts as zero
@@ -85,6 +85,8 @@ def schedule_frame(sm: SiteModel) -> pd.DataFrame:
             cols[f"{uid}.in_service"] = _series(lambda t: blk.in_service[t], hours).round()
             cols[f"{uid}.flow_t_h"] = _series(blk.flow, hours)
             cols[f"{uid}.duty_MW"] = _series(blk.duty, hours)
+            cols[f"{uid}.ejector_t_h"] = _series(blk.ejector, hours)
+            cols[f"{uid}.hotwell_t_h"] = _series(blk.hotwell, hours)
     da = m.deaerator
     cols["deaerator.steam_t_h"] = _series(lambda t: da.steam[t], hours)
     cols["deaerator.makeup_t_h"] = _series(lambda t: da.makeup[t], hours)
@@ -150,11 +152,30 @@ def _off(available: bool, on: pyo.Var) -> str:
     return "held off (outage or minimum down time)" if held_value(on) == 0 else "off"
 
 
-def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
-    """Equipment at an upper limit (or held off) in hour ``t``: what stops more supply."""
+def _supplying(cfg: SiteConfig, header: str) -> set[str]:
+    """``header`` and every header whose steam can reach it through letdowns and turbines."""
+    links = [(ld.source, ld.to) for ld in cfg.letdowns]
+    links += [(tg.inlet, sec.to) for tg in cfg.turbogenerators for sec in tg.sections]
+    links += [(d.steam_turbine.inlet, d.steam_turbine.exhaust) for d in cfg.drives if d.steam_turbine is not None]
+    found, grew = {header}, True
+    while grew:
+        grew = False
+        for a, b in links:
+            if b in found and a not in found:
+                found.add(a)
+                grew = True
+    return found
+
+
+def binding_limits(sm: SiteModel, t: int, power: bool = False, header: str | None = None) -> list[str]:
+    """Equipment at an upper limit (or held off) in hour ``t``: what stops more supply (to
+    ``header`` when given: only units on it or upstream of it)."""
     cfg, b = sm.ctx.cfg, sm.blocks
+    up = _supplying(cfg, header) if header is not None else None
     out = []
     for bo in cfg.boilers:
+        if up is not None and bo.header not in up:
+            continue
         blk = b[bo.id]
         if _val(blk.on[t]) < 0.5:
             out.append(f"{bo.id} {_off(bo.available, blk.on[t])}")
@@ -162,6 +183,8 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
             out.append(f"{bo.id} at its {bo.max_steam:g} t/h rating")
     for tg in cfg.turbogenerators:
         blk = b[tg.id]
+        if up is not None and not any(sec.to in up for sec in tg.sections):
+            continue
         if _val(blk.on[t]) > 0.5:
             if _val(blk.throttle[t]) >= tg.max_throttle - 1e-4:
                 out.append(f"{tg.id} at its {tg.max_throttle:g} t/h throttle limit")
@@ -171,6 +194,8 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False) -> list[str]:
             out.append(f"{tg.id} {_off(tg.available, blk.on[t])}")
     if not power:
         for ld in cfg.letdowns:
+            if up is not None and ld.to not in up:
+                continue
             if _val(b[ld.id].flow[t]) >= ld.max_flow - 1e-4:
                 out.append(f"{ld.id} at its {ld.max_flow:g} t/h capacity")
     if power and _val(sm.model.grid.imp[t]) >= cfg.grid.max_import - 1e-4:
@@ -187,7 +212,7 @@ def diagnose(sm: SiteModel, upto: int | None = None) -> list[str]:
     msgs = []
 
     def report(values: np.ndarray, what: str, unit: str, hint: str, limits: bool = False,
-               power: bool = False) -> None:
+               power: bool = False, header: str | None = None) -> None:
         for a, b in _runs(values > TOL):
             peak = values[a:b + 1].max()
             worst = a + int(np.argmax(values[a:b + 1]))
@@ -197,14 +222,14 @@ def diagnose(sm: SiteModel, upto: int | None = None) -> list[str]:
                 span = f"hours {a}-{b} ({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M})"
             msg = f"{what} {peak:.2f} {unit} at most in {span}; {hint}"
             if limits:
-                bind = binding_limits(sm, worst, power)
+                bind = binding_limits(sm, worst, power, header)
                 if bind:
                     msg += f"; binding in hour {worst}: " + ", ".join(bind)
             msgs.append(msg)
 
     for h in ctx.cfg.headers:
         report(_series(lambda t, h=h.id: m.steam_short[h, t], hours), f"{h.id} header short", "t/h",
-               "the units that feed it are at their limits", limits=True)
+               "the units that feed it are at their limits", limits=True, header=h.id)
         report(_series(lambda t, h=h.id: m.steam_surplus[h, t], hours), f"{h.id} header surplus", "t/h",
                "nothing can take this steam (add a vent or letdown, or lower minimum flows)")
     report(_series(lambda t: m.power_short[t], hours), "electric bus short", "MW",

@@ -32,6 +32,9 @@ class BuildOptions:
     reserve: bool | None = None
     outages: tuple[tuple[str, int, int], ...] = ()
     mutable: bool = False
+    # keep import and export apart with a binary in every hour, not only where the prices
+    # invite both: for models whose prices change after the build (one hour's what-ifs)
+    grid_exclusive: bool = False
 
 
 @dataclass
@@ -82,7 +85,7 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
         for unit in getattr(cfg, attr):
             blocks[unit.id] = builder(m, unit, ctx)
     fix_statuses(blocks, cfg, len(hours), options.outages)
-    blocks["grid"] = add_grid(m, cfg.grid, ctx)
+    blocks["grid"] = add_grid(m, cfg.grid, ctx, every_hour=options.grid_exclusive)
     blocks["deaerator"] = add_deaerator(m, cfg.deaerator, ctx)
 
     # process demand
@@ -101,6 +104,14 @@ def build_site_model(cfg: SiteConfig, series: Series, options: BuildOptions = Bu
         ctx.header_terms[h].append(Term("balance", "surplus (unabsorbed)", lambda t, h=h: -m.steam_surplus[h, t]))
     m.header_balance = pyo.Constraint(
         H, m.T, rule=lambda mm, h, t: sum(term.expr(t) for term in ctx.header_terms[h]) == 0)
+
+    # colder steam cannot superheat itself: at a superheated header it only lets hotter
+    # arrivals take less spray, so the hour's spray water net of it stays >= 0 (at a
+    # saturated header its moisture drains instead)
+    cold = [h for h in H if ctx.cold_water.get(h) and ctx.states.headers[h].phase == "superheated"]
+    if cold:
+        m.net_spray = pyo.Constraint(
+            cold, m.T, rule=lambda mm, h, t: sum(w(t) for w in ctx.header_water[h]) >= 0)
 
     ctx.power_terms.append(Term("process", "site load", lambda t: -data.load(t)))
     m.power_short = pyo.Var(m.T, within=pyo.NonNegativeReals)

@@ -23,7 +23,7 @@ import pyomo.environ as pyo
 from pyomo.contrib.solver.solvers.highs import Highs
 
 from .beside import QUICK_SWEEP_LIMIT, Incumbent, helper_search, interruptible
-from .equipment.common import CommitInfo, held_value, repair_commitment
+from .equipment.common import CommitInfo, held_value, repair_commitment, whole_hours
 from .errors import SolveError
 from .site import SiteModel
 from .strengthen import add_reserve_rows
@@ -269,7 +269,7 @@ class LoadedModel:
                 self._repaired([blk.on[t] for t in m.T], info, guess, free_until, fix_cols, fix_vals)
             elif drivers and blk.component("on_steam") is not None:
                 d = blk.unit
-                L = max(1, int(round(d.min_hours_between_switches)))
+                L = whole_hours(d.min_hours_between_switches)
                 positions: list[tuple[list[int], list[float]]] = []
                 for k in range(d.count):
                     if d.initial_on_steam is None:  # no history: take the guess's first hour as it

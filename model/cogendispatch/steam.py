@@ -65,7 +65,7 @@ P_MIN_BAR = 0.00611213  # [bar(a)] triple-point pressure, the lower limit of IAP
 
 def _check_pressure(p: float) -> None:
     if not (P_MIN_BAR <= p <= P_MAX_BAR):
-        raise SteamPropertyError(f"pressure {p:g} bar(a) is outside IAPWS-IF97 (0.00611-1000 bar(a))")
+        raise SteamPropertyError(f"pressure {p:g} bar(a) is outside IAPWS-IF97 ({P_MIN_BAR:.5f}-{P_MAX_BAR:g} bar(a))")
 
 
 def _iapws(p: float, **kw: float) -> IAPWS97:

@@ -66,7 +66,7 @@ class _T(BaseModel):
 
 
 class PriceChange(_T):
-    multiply: float = Field(default=1.0, ge=0.0)
+    multiply: float = Field(default=1.0, ge=0.0, allow_inf_nan=False)
     add: str | None = None  # a price with its unit, e.g. "5 per MWh"
     months: list[Annotated[int, Field(ge=1, le=12)]] | None = None
 
@@ -120,6 +120,8 @@ def load_scenarios(path: str | Path, cfg: SiteConfig, base: Series, site_path: s
         raw = tomllib.loads(path.read_bytes().decode("utf-8"))
     except FileNotFoundError:
         raise InputError(path, "", "file not found") from None
+    except OSError as exc:  # a folder, no permission
+        raise InputError(path, "", f"cannot be read: {exc.strerror or exc}") from None
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
         raise InputError(path, "", f"not valid TOML: {exc}") from None
     try:

@@ -28,7 +28,9 @@ class UnitError(ValueError):
 
 
 _ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
-_ureg.define("MMBtu = 1e6 * british_thermal_unit")
+# the International Table Btu (1 Btu/lb = 2.326 kJ/kg exactly), which steam tables and fuel
+# data use; pint's plain "Btu" is the ISO 1055.056 J
+_ureg.define("MMBtu = 1e6 * Btu_it")
 _ureg.define("MMBTU = MMBtu")
 _ureg.define("klb = 1000 * pound")
 _ureg.define("Mlb = 1e6 * pound")
@@ -69,10 +71,18 @@ _ABS = {"bar(a)": "bar", "bara": "bar", "psia": "psi", "psi(a)": "psi", "kpa(a)"
 _AMBIGUOUS = {"bar": "12 bar(a)' or '11 bar(g)", "psi": "150 psig' or '165 psia", "mbar": "0.12 bar(a)"}
 _ALIASES = {"°c": "degC", "°f": "degF", "c": "degC", "f": "degF", "tph": "t/h", "klb/hr": "klb/h",
             "bhp": "hp"}  # brake horsepower on pump data sheets: the mechanical horsepower
+_BTU_RE = re.compile(r"\bBtu\b", re.IGNORECASE)
+_KCAL_RE = re.compile(r"\b(k|M|G)?cal\b")  # the International Table calorie of fuel data, not the thermochemical
+# "ton" is 0.907 t (short) in the US, 1.016 t (long) in old British data and often meant as
+# the metric tonne: refused until the writer says which
+_TON_RE = re.compile(r"\btons?\b", re.IGNORECASE)
 
 
 def _normalise_unit(unit: str) -> tuple[str, bool]:
     """Map trade spellings onto pint; return (pint unit, is_gauge)."""
+    if _TON_RE.search(unit):
+        raise UnitError(f"'{unit}' is ambiguous (short, long or metric ton); write 't' for the metric "
+                        "tonne, or 'short_ton' or 'long_ton'")
     key = unit.strip().lower().replace(" ", "")
     if key in _GAUGE:
         return _GAUGE[key], True
@@ -80,7 +90,8 @@ def _normalise_unit(unit: str) -> tuple[str, bool]:
         return _ABS[key], False
     if key in _ALIASES:
         return _ALIASES[key], False
-    return unit.strip().replace("/hr", "/h"), False
+    text = _BTU_RE.sub("Btu_it", unit.strip().replace("/hr", "/h"))
+    return _KCAL_RE.sub(lambda m: f"{m.group(1) or ''}cal_it", text), False
 
 
 @lru_cache(maxsize=1024)

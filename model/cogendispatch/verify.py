@@ -38,6 +38,7 @@ from .steam import SteamState, state_ph, state_pT, state_ps, state_px
 
 MOISTURE_LIMIT = 0.88  # [-] lowest exhaust quality accepted; common practice, no published source
 TARGET_PCT = 1.0  # [%] power and fuel agreement the verdict asks for
+MASS_CLOSE = 0.005  # [t/h] a header imbalance below this is reported as closed (the verdict's 2 decimals)
 
 
 @dataclass
@@ -169,7 +170,8 @@ def verify_schedule(cfg: SiteConfig, series: Series, schedule: pd.DataFrame,
         cond = 0.0
         cond_h = 0.0
         for c in cfg.condensers:
-            q = float(r[f"{c.id}.flow_t_h"])
+            # exhaust and ejector condensate (older plans returned the exhaust alone)
+            q = float(r.get(f"{c.id}.hotwell_t_h", r[f"{c.id}.flow_t_h"]))
             cond += q
             cond_h += q * state_px(c.pressure, 0.0).h
         # fw h_fw = S h_s + cond_h + ret h_ret + M h_mu with M = fw - S - cond - ret
@@ -219,8 +221,8 @@ def _mass_note(cfg: SiteConfig, hourly: pd.DataFrame) -> str:
     worst = max(cfg.headers, key=lambda h: hourly[f"{h.id}_mass_imbalance_t_h"].abs().max())
     col = hourly[f"{worst.id}_mass_imbalance_t_h"]
     t = col.abs().idxmax()
-    if abs(col[t]) < 0.005:
-        return "; header mass balances close within 0.005 t/h"
+    if abs(col[t]) < MASS_CLOSE:
+        return f"; header mass balances close within {MASS_CLOSE:g} t/h"
     note = f"; header mass balances close within {abs(col[t]):.2f} t/h ({worst.id}"
     part = hourly.loc[t, f"{worst.id}_exhaust_water_t_h"]
     if abs(part) >= 0.5 * abs(col[t]) and any(tg.no_load_loss > 0 for tg in cfg.turbogenerators):

@@ -9,6 +9,7 @@ code list every term of every balance by name.
 
 from __future__ import annotations
 
+import math
 from collections import defaultdict
 from dataclasses import dataclass, field
 from typing import Callable
@@ -53,7 +54,9 @@ class SiteStates:
         The header is held at its own enthalpy h_H. Steam arriving hotter is desuperheated
         with feedwater (ratio > 1, the excess is spray water); steam arriving colder gives
         up the difference by condensing a share to feedwater-enthalpy drains (ratio < 1):
-        r = (h_in - h_fw) / (h_H - h_fw), an energy balance on the header.
+        r = (h_in - h_fw) / (h_H - h_fw), an energy balance on the header. At a superheated
+        header the "drain" can only be spray saved on hotter arrivals in the same hour; the
+        site model keeps each such header's net spray from going negative.
         """
         h_hdr = self.headers[header].h
         return (h_in - self.h_feedwater) / (h_hdr - self.h_feedwater)
@@ -89,6 +92,10 @@ class ModelContext:
     boiler_sets: list[tuple[tuple[int, ...], float]] = field(default_factory=list)
     condenser_users: dict[str, list[pyo.Block]] = field(default_factory=lambda: defaultdict(list))
     condensate_enthalpy: dict[str, float] = field(default_factory=dict)
+    # per header, the water terms of arrivals colder than the header [t/h], negative
+    cold_water: dict[str, list[Expr]] = field(default_factory=lambda: defaultdict(list))
+    # per header, every desuperheater water and drain term of its arrivals [t/h]
+    header_water: dict[str, list[Expr]] = field(default_factory=lambda: defaultdict(list))
 
     def add_arrival(self, header: str, unit: str, label: str, flow: Expr, h_in: float) -> float:
         """Register steam arriving at ``header`` with enthalpy ``h_in`` [kJ/kg].
@@ -104,11 +111,23 @@ class ModelContext:
             tag = "desuperheater water" if r > 1.0 else "drain"
             self.header_terms[header].append(Term(unit, f"{label} {tag}", water))
             self.feedwater_terms.append(Term(unit, f"{label} {tag}", water))
+            self.header_water[header].append(water)
+            if r < 1.0:
+                self.cold_water[header].append(water)
         return r
 
     def take(self, header: str, unit: str, label: str, flow: Expr) -> None:
         """Register steam taken out of ``header`` (``flow`` is positive, stored negated)."""
         self.header_terms[header].append(Term(unit, label, lambda t: -flow(t)))
+
+
+def whole_hours(duration: float) -> int:
+    """A minimum time [h] in whole hours of an hourly plan [h]: rounded up, at least 1.
+
+    6.5 h of minimum up time holds a unit on for 7 hourly steps; rounding half to even
+    would give 6 and break the limit.
+    """
+    return max(1, math.ceil(duration - 1e-9))
 
 
 def commitment(blk: pyo.Block, min_up: float, min_down: float, initial_on: bool, initial_hours: float) -> None:
@@ -136,19 +155,19 @@ def commitment(blk: pyo.Block, min_up: float, min_down: float, initial_on: bool,
     blk.start = pyo.Var(T, bounds=(0, 1))
     blk.stop = pyo.Var(T, bounds=(0, 1))
     blk.u0 = pyo.Param(mutable=True, initialize=1.0 if initial_on else 0.0)
-    UT, DT = max(1, int(round(min_up))), max(1, int(round(min_down)))
+    UT, DT = whole_hours(min_up), whole_hours(min_down)
 
     def _trans(b: pyo.Block, t: int) -> RuleResult:
         prev = b.on[t - 1] if t > 0 else b.u0
         return b.on[t] - prev == b.start[t] - b.stop[t]
 
     blk.transition = pyo.Constraint(T, rule=_trans)
-    if UT > 1:
-        blk.min_up = pyo.Constraint(
-            T, rule=lambda b, t: sum(b.start[k] for k in range(max(0, t - UT + 1), t + 1)) <= b.on[t])
-    if DT > 1:
-        blk.min_down = pyo.Constraint(
-            T, rule=lambda b, t: sum(b.stop[k] for k in range(max(0, t - DT + 1), t + 1)) <= 1 - b.on[t])
+    # built at 1 h too: start_t <= on_t and stop_t <= 1 - on_t keep a running hour from
+    # counting a start and a stop at once when neither costs anything
+    blk.min_up = pyo.Constraint(
+        T, rule=lambda b, t: sum(b.start[k] for k in range(max(0, t - UT + 1), t + 1)) <= b.on[t])
+    blk.min_down = pyo.Constraint(
+        T, rule=lambda b, t: sum(b.stop[k] for k in range(max(0, t - DT + 1), t + 1)) <= 1 - b.on[t])
     blk.commit_info = CommitInfo(UT, DT, bool(initial_on), float(initial_hours))
 
 

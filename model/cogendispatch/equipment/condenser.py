@@ -24,7 +24,11 @@ def cooling_duty(flow: float, h_exhaust: float, h_condensate: float) -> float:
 
 
 def add_condenser(m: pyo.ConcreteModel, c: Condenser, ctx: ModelContext) -> pyo.Block:
-    """Add a condenser block: ``in_service`` and the cooling and ejector constraints."""
+    """Add a condenser block: ``in_service`` and the cooling and ejector constraints.
+
+    ``flow`` is the exhaust steam condensed [t/h], ``ejector`` the ejectors' motive steam
+    [t/h] and ``hotwell`` the condensate both return to the deaerator [t/h].
+    """
     blk = pyo.Block()
     m.add_component(f"condenser_{c.id}", blk)
     T = m.T
@@ -46,8 +50,16 @@ def add_condenser(m: pyo.ConcreteModel, c: Condenser, ctx: ModelContext) -> pyo.
     blk.duty = duty
     if users:
         blk.cooling = pyo.Constraint(T, rule=lambda b, t: duty(t) <= c.cooling_capacity)
+    ejector = lambda t: 0.0  # noqa: E731
     if c.ejector_steam > 0 and c.ejector_header is not None:
-        ctx.take(c.ejector_header, c.id, f"{c.id} ejectors", lambda t: c.ejector_steam * blk.in_service[t])
-    ctx.condensate_terms.append(Term(c.id, f"{c.id} hotwell condensate", flow))
+        ejector = lambda t: c.ejector_steam * blk.in_service[t]  # noqa: E731
+        ctx.take(c.ejector_header, c.id, f"{c.id} ejectors", ejector)
+    # the ejectors' motive steam condenses in their inter- and after-condensers and drains
+    # to the hotwell, so it returns to the deaerator with the exhaust condensate (at
+    # hotwell enthalpy: the heat it gives up there is taken as rejected, the safe side)
+    hotwell = lambda t: flow(t) + ejector(t)  # noqa: E731
+    blk.ejector = ejector
+    blk.hotwell = hotwell
+    ctx.condensate_terms.append(Term(c.id, f"{c.id} hotwell condensate", hotwell))
     blk.unit = c
     return blk

@@ -29,7 +29,8 @@ def add_deaerator(m: pyo.ConcreteModel, da: Deaerator, ctx: ModelContext) -> pyo
 
     Feedwater drawn (boiler feedwater and spray water, from the registry) is matched by
     heating steam, hotwell condensate, returned process condensate and make-up in mass and
-    in energy.
+    in energy. The overflow is at most the hour's returned process condensate with the
+    steam that heats it to saturation.
     """
     blk = pyo.Block()
     m.add_component("deaerator", blk)
@@ -50,6 +51,12 @@ def add_deaerator(m: pyo.ConcreteModel, da: Deaerator, ctx: ModelContext) -> pyo
     blk.energy = pyo.Constraint(T, rule=lambda b, t: (fw(t) + b.overflow[t]) * h_fw
                                 == b.steam[t] * h_s + sum(h * c.expr(t) for h, c in zip(hc, cond))
                                 + ret(t) * h_ret + b.makeup[t] * h_mu)
+    # the overflow drains returned process condensate the boilers cannot take, heated to
+    # saturation with the steam that heats it (S = W (h_fw - h_ret) / (h_s - h_fw)); more
+    # would let the deaerator quench any surplus steam in make-up water and pour it away,
+    # a steam dump no deaerator is
+    heated = (h_s - h_ret) / (h_s - h_fw)  # [t of overflow per t of condensate returned]
+    blk.overflow_limit = pyo.Constraint(T, rule=lambda b, t: b.overflow[t] <= heated * ret(t))
     ctx.take(da.heating_steam, "deaerator", "deaerator heating steam", lambda t: blk.steam[t])
     if da.makeup_cost > 0:
         ctx.cost_terms["water"].append(lambda t: da.makeup_cost * (blk.makeup[t] + blk.overflow[t]))

@@ -13,7 +13,7 @@ import pyomo.environ as pyo
 
 from ..plant.schema import Drive
 from ..steam import isentropic_drop
-from .common import ModelContext, RuleResult, SiteStates, Term, apply_fixings
+from .common import ModelContext, RuleResult, SiteStates, Term, apply_fixings, whole_hours
 
 
 @dataclass(frozen=True)
@@ -67,7 +67,7 @@ def wanted_drivers(d: Drive, hours: list[int]) -> dict[tuple[int, int], int]:
     """Driver of each position fixed before the solve: a switch made less than the minimum
     time before the horizon holds the driver it chose (1 steam, 0 motor)."""
     init = d.initial_on_steam
-    L = max(1, int(round(d.min_hours_between_switches)))
+    L = whole_hours(d.min_hours_between_switches)
     if init is None or L <= 1:
         return {}
     return {(k, t): (1 if k < init else 0) for k in range(d.count) for t in hours
@@ -86,7 +86,7 @@ def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:
         blk.on_steam = pyo.Var(K, T, within=pyo.Binary)
         if d.count > 1:
             blk.order = pyo.Constraint(K[1:], T, rule=lambda b, k, t: b.on_steam[k, t] <= b.on_steam[k - 1, t])
-        L = max(1, int(round(d.min_hours_between_switches)))
+        L = whole_hours(d.min_hours_between_switches)
         if L > 1:
             # A minimum time L between driver changes is a minimum up and down time of L on
             # ``on_steam``; the turn-on/turn-off inequalities are the tight (convex hull) form.

@@ -8,11 +8,12 @@ from ..plant.schema import Grid
 from .common import ModelContext, Term
 
 
-def add_grid(m: pyo.ConcreteModel, g: Grid, ctx: ModelContext) -> pyo.Block:
+def add_grid(m: pyo.ConcreteModel, g: Grid, ctx: ModelContext, every_hour: bool = False) -> pyo.Block:
     """Add the grid block: ``imp`` and ``exp`` [MW].
 
-    Where an hour pays more for export than it charges for import, a binary keeps the site
-    from importing and exporting at once; elsewhere the prices already prevent it.
+    Where an hour pays more for export than it charges for import (or in every hour, with
+    ``every_hour``, for a model whose prices change later), a binary keeps the site from
+    importing and exporting at once; elsewhere the prices already prevent it.
     """
     blk = pyo.Block()
     m.add_component("grid", blk)
@@ -20,7 +21,7 @@ def add_grid(m: pyo.ConcreteModel, g: Grid, ctx: ModelContext) -> pyo.Block:
     pi, pe = ctx.data.a_import, ctx.data.a_export
     blk.imp = pyo.Var(T, bounds=(g.min_import, g.max_import))
     blk.exp = pyo.Var(T, bounds=(0, g.max_export))
-    arb = [t for t in ctx.hours if pe[t] > pi[t] and g.max_export > 0]
+    arb = [t for t in ctx.hours if (every_hour or pe[t] > pi[t]) and g.max_export > 0]
     if arb:
         blk.importing = pyo.Var(arb, within=pyo.Binary)
         blk.imp_side = pyo.Constraint(arb, rule=lambda b, t: b.imp[t] <= g.max_import * b.importing[t])

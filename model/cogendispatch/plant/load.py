@@ -95,6 +95,11 @@ def parse_site(raw: dict[str, Any], path: str | Path = "<site>") -> SiteConfig:
     InputErrors with one entry per problem, each naming the table and key.
     """
     path = Path(path)
+    # the model's own plural names would be read as the tables: only the singular is the format
+    plural = [InputError(path, f"[[{k}]]", f"unknown table; write [[{_TABLE_NAMES[k]}]]")
+              for k in raw if k in _TABLE_NAMES and k != "sections"]
+    if plural:
+        raise InputErrors(plural)
     try:
         cfg = SiteConfig.model_validate(raw)
     except ValidationError as err:
@@ -332,6 +337,11 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
         bad("[grid]", "limits must not be negative")
     if g.min_import > g.max_import:
         bad("[grid] > min_import", "exceeds max_import")
+    if g.min_import > 0 and g.max_export > 0:
+        # one connection point meters the net flow: a floor on the import (a reverse-power
+        # relay, a contract) rules out export in every hour
+        bad("[grid] > min_import", f"{g.min_import:g} MW with max_export {g.max_export:g} MW: a minimum "
+            "import means the site never exports; set max_export = \"0 MW\" or drop min_import")
     return problems
 
 

@@ -73,7 +73,8 @@ def _read_table(path: Path) -> pd.DataFrame:
     except FileNotFoundError:
         raise InputError(path, "", "file not found") from None
     except Exception as exc:  # parser errors from pandas/openpyxl come in many types
-        raise InputError(path, "", f"cannot read the table ({type(exc).__name__}: {exc})") from None
+        why = " ".join(str(exc).split())  # parser messages carry line breaks
+        raise InputError(path, "", f"cannot read the table ({type(exc).__name__}: {why})") from None
 
 
 def load_series(path: str | Path, site: SiteConfig) -> Series:
@@ -169,6 +170,10 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
                   fuel_price=fuel_price, co2_price=co2, duty=duty, source=str(path))
 
 
+# largest magnitude a series cell may have, in its column's unit (t/h, MW, kW, per MWh ...)
+MAX_CELL = 1e7
+
+
 def _numeric(col: pd.Series, path: Path, name: str) -> pd.Series:
     """Parse a column of strings to floats; a blank, text or NaN cell is an error naming its row."""
     text = col.astype(str).str.strip()
@@ -179,6 +184,11 @@ def _numeric(col: pd.Series, path: Path, name: str) -> pd.Series:
         cell = text.iloc[i]
         what = "an empty cell" if cell == "" else f"'{cell}' is not a finite number"
         raise InputError(path, f"row {i + 2}, column '{name}'", what)
+    huge = num.abs() > MAX_CELL
+    if huge.any():  # a slipped exponent or a pasted id: no plant has such a flow, load or price
+        i = int(np.argmax(huge.to_numpy()))
+        raise InputError(path, f"row {i + 2}, column '{name}'",
+                         f"{text.iloc[i]} is beyond any plant (more than {MAX_CELL:g} in size)")
     return num.astype(float).reset_index(drop=True)
 
 

@@ -12,21 +12,30 @@ from .html import Units, plan_report, study_report
 def write_reports(d: Path, units: str = "si") -> list[Path]:
     """Write report.html and plan.xlsx (or study.xlsx) into the output folder ``d``; the
     files written. ``units`` is for the page; the workbook keeps the folder's SI tables."""
-    kind = output_kind(d)
-    if kind not in ("plan", "study"):
-        from ..errors import InputError
+    from ..errors import InputError
 
+    kind = output_kind(d)
+    if kind is None:
+        what = "its summary.json is unreadable" if (d / "summary.json").exists() else "no summary.json"
+        raise InputError(d, "", f"not a plan or study folder ({what})")
+    if kind not in ("plan", "study"):
         raise InputError(d, "", f"holds {kind} results, which have no report; reports are for plan and study folders")
     u = Units(units)
     if kind == "study":
-        html, xlsx, writer = study_report(d, u), d / "study.xlsx", write_study_xlsx
+        build, xlsx, writer = study_report, d / "study.xlsx", write_study_xlsx
     else:
-        html, xlsx, writer = plan_report(d, u), d / "plan.xlsx", write_plan_xlsx
-    tmp = d / ".report.html.tmp"
-    tmp.write_text(html, encoding="utf-8")
+        build, xlsx, writer = plan_report, d / "plan.xlsx", write_plan_xlsx
+    tmp, tmpx = d / ".report.html.tmp", d / ".workbook.xlsx.tmp"
+    try:
+        tmp.write_text(build(d, u), encoding="utf-8")
+        writer(d, tmpx)
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        # a file of the folder missing, or edited out of shape: nothing is replaced
+        tmp.unlink(missing_ok=True)
+        tmpx.unlink(missing_ok=True)
+        raise InputError(d, "", f"cannot build the report from this {kind} folder ({type(exc).__name__}: {exc}); "
+                         f"its files are incomplete or were edited: run {kind} again") from None
     tmp.replace(d / "report.html")
-    tmpx = d / ".workbook.xlsx.tmp"
-    writer(d, tmpx)
     tmpx.replace(xlsx)
     return [d / "report.html", xlsx]
 

@@ -9,9 +9,10 @@ from pathlib import Path
 import pandas as pd
 
 from . import plots
+from ..units import convert
 
-T_H_TO_KLB_H = 2.20462262185  # [klb/h per t/h]: 1 lb = 0.45359237 kg (NIST SP 811)
-GJ_TO_MMBTU = 1.0 / 1.055056  # [MMBtu per GJ]: International Table Btu (NIST SP 811)
+T_H_TO_KLB_H = 1.0 / convert(1.0, "klb/h", "mass_flow")  # [klb/h per t/h]
+GJ_TO_MMBTU = 1.0 / convert(1.0, "MMBtu", "energy")  # [MMBtu per GJ], International Table Btu
 
 CSS = """
 body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:24px auto;max-width:1180px;color:#1d2730}
@@ -89,6 +90,10 @@ def plan_report(d: Path, units: Units = Units()) -> str:
             [{"category": k, f"practice [{s.get('currency', '')}]": v["baseline"],
               f"optimised [{s.get('currency', '')}]": v["optimised"], f"saving [{s.get('currency', '')}]": v["saving"],
               "saving [%]": v["saving_pct"]} for k, v in sv.items()])))
+        if s["baseline"].get("diagnosis"):
+            body.append("<p class='bad'>The practice baseline itself leaves demand or the steam reserve unmet, "
+                        "and its cost carries the penalties for that, so the saving above is not all money: "
+                        + "; ".join(escape(x) for x in s["baseline"]["diagnosis"]) + ".</p>")
     elif "baseline_note" in s:
         body.append(f"<h2>Against the practice baseline</h2><p>{escape(s['baseline_note'])}</p>")
     if "verify" in s:
