@@ -88,17 +88,22 @@ def test_boiler_start_avoided_when_start_cost_exceeds_saving():
     assert res.schedule["NEW.on"].iloc[0] == 1
 
 
-def test_min_up_time_keeps_a_boiler_on_after_a_short_peak():
-    # B1 alone cannot carry hour 2 (130 t/h of demand); B2 must start, and with a 4 h
-    # minimum up time it stays on for 4 h although B1 could carry the other hours alone.
+def _peak_site(min_up: str):  # noqa: ANN202
+    """B1 (100 t/h, 85 %) running, B2 (60 t/h, 70 %) cold with minimum up time ``min_up``."""
     boilers = [
         {"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
          "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}},
         {"id": "B2", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "20 t/h",
          "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.70, 0.70]}, "initial_on": False,
-         "min_up": "4 h"},
+         "min_up": min_up},
     ]
-    cfg = site(boiler=boilers, letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
+    return site(boiler=boilers, letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
+
+
+def test_min_up_time_keeps_a_boiler_on_after_a_short_peak():
+    # B1 alone cannot carry hour 2 (130 t/h of demand); B2 must start, and with a 4 h
+    # minimum up time it stays on for 4 h although B1 could carry the other hours alone.
+    cfg = _peak_site("4 h")
     demand = [30, 30, 130, 30, 30, 30, 30, 30]
     _, rep, res = run(cfg, series(cfg, 8, demand_LP=demand))
     on = res.schedule["B2.on"].to_numpy().astype(int).tolist()
@@ -154,14 +159,7 @@ def test_a_part_hour_minimum_up_time_is_rounded_up():
     from cogendispatch.equipment.common import whole_hours
 
     assert [whole_hours(x) for x in (0.5, 1.0, 2.5, 6.0, 6.5)] == [1, 1, 3, 6, 7]
-    boilers = [
-        {"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
-         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}},
-        {"id": "B2", "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "20 t/h",
-         "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.70, 0.70]}, "initial_on": False,
-         "min_up": "2.5 h"},
-    ]
-    cfg = site(boiler=boilers, letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
+    cfg = _peak_site("2.5 h")
     _, _, res = run(cfg, series(cfg, 6, demand_LP=[30, 30, 130, 30, 30, 30]))
     assert res.schedule["B2.on"].sum() == 3
 

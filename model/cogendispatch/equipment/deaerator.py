@@ -42,7 +42,13 @@ def add_deaerator(m: pyo.ConcreteModel, da: Deaerator, ctx: ModelContext) -> pyo
     ret = ctx.data.condensate_return  # [t/h] by hour
     blk.steam = pyo.Var(T, within=pyo.NonNegativeReals)
     blk.makeup = pyo.Var(T, within=pyo.NonNegativeReals)
-    blk.overflow = pyo.Var(T, within=pyo.NonNegativeReals)
+    # the overflow drains returned process condensate the boilers cannot take, heated to
+    # saturation with the steam that heats it (S = W (h_fw - h_ret) / (h_s - h_fw)); more
+    # would let the deaerator quench any surplus steam in make-up water and pour it away,
+    # a steam dump no deaerator is. A bound, not a row: with the hour's return as a
+    # parameter (a re-used study model) the bound follows it.
+    heated = (h_s - h_ret) / (h_s - h_fw)  # [t of overflow per t of condensate returned]
+    blk.overflow = pyo.Var(T, bounds=lambda b, t: (0.0, heated * ret(t)))
     fw = lambda t: sum(term.expr(t) for term in ctx.feedwater_terms)  # noqa: E731
     cond = ctx.condensate_terms
     hc = [ctx.condensate_enthalpy[c.unit] for c in cond]
@@ -51,12 +57,6 @@ def add_deaerator(m: pyo.ConcreteModel, da: Deaerator, ctx: ModelContext) -> pyo
     blk.energy = pyo.Constraint(T, rule=lambda b, t: (fw(t) + b.overflow[t]) * h_fw
                                 == b.steam[t] * h_s + sum(h * c.expr(t) for h, c in zip(hc, cond))
                                 + ret(t) * h_ret + b.makeup[t] * h_mu)
-    # the overflow drains returned process condensate the boilers cannot take, heated to
-    # saturation with the steam that heats it (S = W (h_fw - h_ret) / (h_s - h_fw)); more
-    # would let the deaerator quench any surplus steam in make-up water and pour it away,
-    # a steam dump no deaerator is
-    heated = (h_s - h_ret) / (h_s - h_fw)  # [t of overflow per t of condensate returned]
-    blk.overflow_limit = pyo.Constraint(T, rule=lambda b, t: b.overflow[t] <= heated * ret(t))
     ctx.take(da.heating_steam, "deaerator", "deaerator heating steam", lambda t: blk.steam[t])
     if da.makeup_cost > 0:
         ctx.cost_terms["water"].append(lambda t: da.makeup_cost * (blk.makeup[t] + blk.overflow[t]))
