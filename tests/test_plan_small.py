@@ -446,3 +446,22 @@ def test_load_comes_before_the_reserve() -> None:
     assert min(m.reserve_short[t].value for t in m.T) > 1.0
     msgs = diagnose(sm)
     assert msgs and all(d.startswith("steam reserve short") for d in msgs)
+
+
+def test_ejectors_run_only_while_a_turbine_exhausts_into_the_condenser():
+    # Cheap power and a 40 t/h minimum throttle keep the condensing set off; LP steam is in
+    # surplus in hour 0 (a waste-heat boiler exports into it). The ejectors' drains return
+    # to the deaerator, where they would displace make-up water and the vented surplus:
+    # without the tie to the set's status the ejectors would run on their own as a path
+    # from LP steam to boiler feed.
+    tg = {"id": "TGC", "inlet": "HP", "max_throttle": "80 t/h", "min_throttle": "40 t/h", "initial_on": False,
+          "generator_rating": "10 MW", "no_load_loss": "0.2 MW", "section": [{"to": "C", "efficiency": 0.75}]}
+    cond = {"id": "C", "pressure": "0.1 bar(a)", "cooling_capacity": "40 MW", "ejector_steam": "2 t/h",
+            "ejector_header": "LP"}
+    cfg = site(turbogenerator=[tg], condenser=[cond])
+    _, rep, res = run(cfg, series(cfg, 3, demand_HP=20.0, demand_LP=[-8.0, 0.0, 2.0], price_import=5.0))
+    s = res.schedule
+    assert rep.status == "optimal"
+    assert (s["TGC.on"] == 0).all()
+    assert s["V.flow_t_h"].iloc[0] > 2.0  # the surplus the ejectors could have taken
+    assert (s["C.in_service"] == 0).all() and (s["C.ejector_t_h"].abs() < 1e-9).all()

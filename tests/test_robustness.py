@@ -153,8 +153,10 @@ def test_a_baseline_without_solution_leaves_the_plan_whole(tmp_path, monkeypatch
 
     site, ser = _files(tmp_path)
 
+    from cogendispatch.baseline import NoBaselineError
+
     def broken(*args, **kwargs):  # noqa: ANN002, ANN003, ANN202
-        raise RuntimeError("the practice-rule schedule has no solution")
+        raise NoBaselineError("the practice-rule schedule has no solution")
 
     monkeypatch.setattr(plan_mod, "practice_baseline", broken)
     out = tmp_path / "out"

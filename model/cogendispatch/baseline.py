@@ -35,6 +35,10 @@ from .site import BuildOptions, build_site_model
 from .solve import LoadedModel
 
 
+class NoBaselineError(RuntimeError):
+    """The practice-rule schedule could not be priced (its fixed commitment has no solution)."""
+
+
 @dataclass
 class Baseline:
     cost: dict[str, float]  # by category over the horizon [currency]
@@ -110,7 +114,7 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
         x = lm.solution() if ok else None
         h.changeColsBounds(len(idx), idx, lm.col_lower[idx], lm.col_upper[idx])
         if x is None:
-            raise RuntimeError("the practice-rule schedule has no solution")
+            raise NoBaselineError("the practice-rule schedule has no solution")
         slacks = [[lm.col(m.steam_short[hh.id, t]) for hh in cfg.headers] + [lm.col(m.reserve_short[t])]
                   for t in hours]
         short = np.array([sum(x[c] for c in cs if c is not None) for cs in slacks])

@@ -49,6 +49,7 @@ class Incumbent:
         return 0
 
     def get(self) -> tuple[np.ndarray | None, float, int]:
+        """The best schedule shared so far: (column values, objective, version)."""
         with self._lock:
             return self.x, self.objective, self.version
 

@@ -84,6 +84,7 @@ def _version() -> str:
 
 
 def build_parser() -> argparse.ArgumentParser:
+    """The ``cogen`` argument parser with its six commands; usage errors exit with code 2."""
     p = _Parser(prog="cogen", description="Cogeneration dispatch optimiser for industrial steam and power "
                 "plants. " + SAFETY_NOTE)
     p.add_argument("--version", action="version", version=f"cogen {_version()}")
@@ -216,6 +217,7 @@ def _amount(v: str, flag: str, kind: str) -> float:
 
 
 def what_if_from_args(args: argparse.Namespace) -> "WhatIf":
+    """The what-if of ``cogen advise`` from its ``--force``/``--trip``/price/demand options."""
     from .decisions import WhatIf
 
     w = WhatIf(force=dict(_pairs(args.force, "--force")), trip=list(args.trip))
@@ -234,6 +236,7 @@ def what_if_from_args(args: argparse.Namespace) -> "WhatIf":
 
 
 def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
+    """One hour's advice as the JSON object written to ``advice.json``."""
     return {
         "time": a.time, "currency": currency, "held_on": a.held, "cost": a.cost,
         "marginal_price": {"steam_per_t": a.prices, "power_per_MWh": a.power_price},
@@ -244,6 +247,7 @@ def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
 
 
 def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
+    """``cogen advise``: one hour held as running, re-optimised; returns the exit code."""
     from .decisions import advise
     from .outputs import check_out_dir
     from .plant.load import load_site
@@ -310,6 +314,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 
 def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
+    """``cogen study``: a long horizon under price scenarios, window by window; returns the exit code."""
     import re
 
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
@@ -428,6 +433,7 @@ def _table(console: Console, title: str, df: pd.DataFrame) -> None:
 
 
 def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
+    """``cogen inspect``: validate a site and print its linear coefficients; returns the exit code."""
     from .coefficients import coefficient_tables
     from .plant.load import load_site
 
@@ -459,6 +465,7 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
 
 
 def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
+    """``cogen plan``: the weekly plan, written whole or not at all; returns the exit code (3: a header short)."""
     t0 = time.perf_counter()
 
     def progress(msg: str) -> None:
@@ -517,6 +524,7 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``cogen`` console script; returns the exit code (2: bad input)."""
     out = Console(soft_wrap=True)  # messages whole, one a line; tables fit the width themselves
     if not out.is_terminal:
         # piped or redirected: a file has no width to fit, and cut numbers mislead

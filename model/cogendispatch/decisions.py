@@ -44,6 +44,7 @@ class WhatIf:
     demand: dict[str, float] = field(default_factory=dict)  # header id -> change [t/h]
 
     def empty(self) -> bool:
+        """True when the what-if changes nothing."""
         return not (self.force or self.trip or self.price_import is not None or self.price_export is not None
                     or self.fuel_price or self.demand)
 

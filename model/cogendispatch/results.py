@@ -40,6 +40,8 @@ class PlanResults:
 
     @property
     def feasible(self) -> bool:
+        """True when the diagnosis is empty: no header or electric-bus shortfall or surplus, no
+        reserve short."""
         return not self.diagnosis
 
 

@@ -92,6 +92,7 @@ class SolveReport:
 
     @property
     def has_solution(self) -> bool:
+        """True when the solve returned a schedule (a finite objective)."""
         return math.isfinite(self.objective)
 
 
@@ -218,6 +219,7 @@ class LoadedModel:
             raise SolveError(f"HiGHS refused to run (status {self.h.getModelStatus()}); see its log with output_flag")
 
     def solution(self) -> np.ndarray:
+        """Column values of HiGHS's current solution, in its column order."""
         return np.array(self.h.getSolution().col_value, dtype=float)
 
     def rounding_start(self, time_limit: float, threshold: float = 0.01, gap: float = 1e-3,

@@ -44,18 +44,22 @@ inequalities for knapsack sets).
 from __future__ import annotations
 
 from itertools import combinations
+from typing import TYPE_CHECKING
 
 import highspy
 import numpy as np
 
 from .equipment.common import held_value
 
+if TYPE_CHECKING:  # solve.py imports this module
+    from .solve import LoadedModel
+
 K_SHORT = 5.0  # [t/h of boiler steam per t/h of header shortfall] weight in the bound (any K > 0 is valid)
 # [t/h of boiler steam per MW of power shortfall]: a small and a large weight (module docstring)
 K_POWER = (2.0, 50.0)
 
 
-def linking_rows(lm) -> np.ndarray:  # noqa: ANN001
+def linking_rows(lm: LoadedModel) -> np.ndarray:
     """Rows of the loaded model whose columns belong to more than one hour (commitment
     transitions, minimum up/down times, ramps, switching limits, whatever a new equipment
     kind adds), or to no hour at all (such a column could tie hours together).
@@ -82,7 +86,7 @@ def linking_rows(lm) -> np.ndarray:  # noqa: ANN001
     return np.flatnonzero(used & ((first != last) | (first < 0))).astype(np.int32)
 
 
-def _slack_cols(lm, t: int, k_power: float, reserve: bool = True) -> list[tuple[int, float]]:  # noqa: ANN001
+def _slack_cols(lm: LoadedModel, t: int, k_power: float, reserve: bool = True) -> list[tuple[int, float]]:
     """(column, weight) of hour t's steam and power shortfalls in L_t, and with ``reserve``
     the reserve shortfall (weight 1, the rows' own slack)."""
     m = lm.sm.model
@@ -91,7 +95,7 @@ def _slack_cols(lm, t: int, k_power: float, reserve: bool = True) -> list[tuple[
     return [(c, a) for c, a in cols if c is not None]
 
 
-def _decoupled_lp(lm, cost: dict[int, float], time_limit: float) -> np.ndarray | None:  # noqa: ANN001
+def _decoupled_lp(lm: LoadedModel, cost: dict[int, float], time_limit: float) -> np.ndarray | None:
     """Column values minimising sum(cost[c] * x[c]) over the LP relaxation without the rows
     that link hours, so that each hour's part of the optimum is that hour's own minimum;
     None when the LP does not solve. The loaded model is restored afterwards."""
@@ -122,7 +126,7 @@ def _decoupled_lp(lm, cost: dict[int, float], time_limit: float) -> np.ndarray |
     return x if ok else None
 
 
-def minimum_steam(lm, time_limit: float, k_power: float = K_POWER[-1]) -> np.ndarray | None:  # noqa: ANN001
+def minimum_steam(lm: LoadedModel, time_limit: float, k_power: float = K_POWER[-1]) -> np.ndarray | None:
     """Each hour's lower bound L_t on S_t + K_s * steam shortfall_t + K_p * power shortfall_t
     [t/h], from the decoupled LP (module docstring, item 1); ``k_power`` is K_p [t/h per MW]."""
     m = lm.sm.model
@@ -143,7 +147,7 @@ def _floor(L: float) -> float:
     return L * (1 - 1e-7) - 1e-6
 
 
-def add_set_rows(lm, L: np.ndarray, k_power: float, skip: np.ndarray | None = None) -> int:  # noqa: ANN001
+def add_set_rows(lm: LoadedModel, L: np.ndarray, k_power: float, skip: np.ndarray | None = None) -> int:
     """Add the running-set rows (module docstring, item 2) for the bounds ``L`` [t/h]
     found with power weight ``k_power``; hours where ``skip`` is true get none.
     Returns the number of rows added."""
@@ -165,7 +169,7 @@ def add_set_rows(lm, L: np.ndarray, k_power: float, skip: np.ndarray | None = No
     return n_rows
 
 
-def add_reserve_covers(lm, L: np.ndarray, k_power: float, skip: np.ndarray | None = None) -> int:  # noqa: ANN001
+def add_reserve_covers(lm: LoadedModel, L: np.ndarray, k_power: float, skip: np.ndarray | None = None) -> int:
     """Add the cover rows (module docstring, item 3) for the bounds ``L`` [t/h] found with
     power weight ``k_power``; hours where ``skip`` is true get none.
 
@@ -210,7 +214,7 @@ def add_reserve_covers(lm, L: np.ndarray, k_power: float, skip: np.ndarray | Non
     return n_rows
 
 
-def add_reserve_rows(lm, time_limit: float = 30.0) -> int:  # noqa: ANN001
+def add_reserve_rows(lm: LoadedModel, time_limit: float = 30.0) -> int:
     """Add the rows of the module docstring to the loaded HiGHS model, for each power
     weight in :data:`K_POWER`: running-set rows where the model has set weights, covers
     otherwise. An hour whose bound does not drop with the small weight keeps only the

@@ -50,6 +50,7 @@ class Verification:
     worst: list[str] = field(default_factory=list)
 
     def summary(self) -> dict[str, object]:
+        """Verdict, largest differences and worst hours: the ``verify`` entry of ``summary.json``."""
         h = self.hourly
         return {
             "verdict": self.verdict,

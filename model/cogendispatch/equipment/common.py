@@ -42,6 +42,8 @@ class SiteStates:
 
     @classmethod
     def of(cls, cfg: SiteConfig) -> "SiteStates":
+        """IAPWS-IF97 states of every header (at its pressure and temperature, or saturated)
+        and of every condenser's saturated exhaust."""
         return cls(
             headers={h.id: header_state(h.pressure, h.temperature) for h in cfg.headers},
             condensers={c.id: state_px(c.pressure, 1.0) for c in cfg.condensers},

@@ -24,7 +24,8 @@ def cooling_duty(flow: float, h_exhaust: float, h_condensate: float) -> float:
 
 
 def add_condenser(m: pyo.ConcreteModel, c: Condenser, ctx: ModelContext) -> pyo.Block:
-    """Add a condenser block: ``in_service`` and the cooling and ejector constraints.
+    """Add a condenser block: ``in_service`` (1 while a turbine exhausts into it, else 0)
+    and the cooling and ejector constraints.
 
     ``flow`` is the exhaust steam condensed [t/h], ``ejector`` the ejectors' motive steam
     [t/h] and ``hotwell`` the condensate both return to the deaerator [t/h].
@@ -37,10 +38,12 @@ def add_condenser(m: pyo.ConcreteModel, c: Condenser, ctx: ModelContext) -> pyo.
     ctx.condensate_enthalpy[c.id] = h_f
     blk.in_service = pyo.Var(T, bounds=(0, 1))
     if users:
-        # in service whenever any turbine exhausting into it runs; the ejector steam it
-        # costs pushes it to zero otherwise
+        # in service whenever any turbine exhausting into it runs, and only then: its
+        # ejectors' drains return to the deaerator, so without the upper row they could
+        # run as a steam path from their header to the deaerator with no turbine on
         blk.serves = pyo.Constraint(range(len(users)), T,
                                     rule=lambda b, i, t: b.in_service[t] >= users[i].on[t])
+        blk.idle = pyo.Constraint(T, rule=lambda b, t: b.in_service[t] <= sum(u.on[t] for u in users))
     else:
         for t in ctx.hours:
             blk.in_service[t].fix(0)

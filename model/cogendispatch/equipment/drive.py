@@ -47,6 +47,13 @@ def turbine_steam_rate(drop_s: float, efficiency: float) -> float:
 
 
 def coefficients(d: Drive, states: SiteStates) -> DriveCoefficients:
+    """Linear coefficients of a drive at its header states.
+
+    With an isentropic efficiency given, the steam rate follows from the isentropic drop
+    (``turbine_steam_rate``); with a rated steam rate [kg/kWh] given, the efficiency follows
+    from it. The exhaust enthalpy [kJ/kg] is the inlet enthalpy less the shaft work per kg,
+    3600 / SR (first law, no heat loss from the casing).
+    """
     st = d.steam_turbine
     sr = h_ex = eff = None
     if st is not None:

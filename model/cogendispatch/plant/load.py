@@ -65,6 +65,7 @@ _TYPE_WORDS = {"float_parsing": "a number", "float_type": "a number", "int_parsi
 
 
 def validation_problems(path: Path, raw: dict[str, Any], err: ValidationError) -> list[InputError]:
+    """Each pydantic error as an ``InputError`` naming the file and the table entry by its id."""
     out = []
     for e in err.errors():
         loc = tuple(x for x in e["loc"] if not (isinstance(x, str) and x.startswith("function-")))

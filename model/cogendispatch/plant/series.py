@@ -44,6 +44,7 @@ class Series:
 
     @property
     def hours(self) -> int:
+        """Number of hours in the series."""
         return len(self.time)
 
     def window(self, start: int, length: int) -> "Series":

@@ -61,6 +61,7 @@ def stacked_balance(frame: pd.DataFrame, demand: pd.Series | None, title: str, y
 
 
 def lines(frame: pd.DataFrame, title: str, ylabel: str, step: bool = False) -> str:
+    """One line chart of the frame's columns by hour, as inline SVG text for the report."""
     fig, ax = plt.subplots(figsize=(9.5, 2.8))
     x = np.arange(len(frame))
     for i, c in enumerate(frame.columns):
