@@ -363,6 +363,11 @@ def test_unreadable_series_is_refused(name: str, make: Callable[[Path], object] 
 @pytest.mark.parametrize(("extra", "expected"), [
     pytest.param(["--gap", "-1"], ["--gap", "'-1' must be positive"], id="negative-gap"),
     pytest.param(["--gap", "tiny"], ["--gap", "'tiny' is not a number"], id="gap-not-a-number"),
+    # a gap of 2 (200 %) once let the start heuristic's schedule stand, with a reserve
+    # penalty reported as "not met" (exit 3)
+    pytest.param(["--gap", "2"], ["--gap", "'2' is not a relative gap", "0.001 is 0.1 %)"], id="gap-above-one"),
+    pytest.param(["--moisture-limit", "1.2"], ["--moisture-limit", "'1.2' is not a steam quality"],
+                 id="moisture-limit-above-one"),
     pytest.param(["--time-limit", "0"], ["--time-limit", "must be positive"], id="zero-time-limit"),
     pytest.param(["--threads", "-1"], ["--threads", "'-1' must be 1 or more"], id="negative-threads"),
     pytest.param(["--threads", "two"], ["--threads", "'two' is not a whole number"], id="threads-not-a-number"),
@@ -386,6 +391,8 @@ def test_bad_option_exits_2(extra: list[str], expected: list[str], demo_site: Pa
     pytest.param(["plan", "site.toml", "--out", "x"], "--series", id="plan-without-series"),
     pytest.param(["study", "site.toml", "--series", "s.csv", "--scenarios", "c.toml", "--out", "x", "--workers", "0"],
                  "'0' must be 1 or more", id="study-zero-workers"),
+    pytest.param(["study", "site.toml", "--series", "s.csv", "--scenarios", "c.toml", "--out", "x", "--gap", "1"],
+                 "'1' is not a relative gap", id="study-gap-of-one"),
 ])
 def test_usage_error_exits_2(argv: list[str], expected: str, capsys: pytest.CaptureFixture[str]) -> None:
     with pytest.raises(SystemExit) as exc:

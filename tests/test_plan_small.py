@@ -65,6 +65,9 @@ def test_expensive_power_runs_the_turbo_generator_before_the_drive_turbine():
     assert rep.status == "optimal"
     assert (s["TG.on"] == 1).all() and (s["TG.power_MW"] > 3).all()
     assert (s["P1.on_steam"] == 0).all()
+    # the set was off before hour 0: one start, counted whatever it costs
+    assert s["TG.start"].tolist() == [1, 0, 0]
+    assert res.totals["starts"] == {"B1": 0, "TG": 1}
 
 
 def _two_boilers(startup_cost: float) -> dict:

@@ -59,6 +59,27 @@ def test_interrupted_write_leaves_the_previous_results(tmp_path, monkeypatch) ->
     assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".out.")] == []
 
 
+def test_ctrl_c_during_the_solve_is_an_interruption(tmp_path) -> None:  # noqa: ANN001
+    """Ctrl-C while HiGHS runs (and calls back into Python) exits 130 with nothing written;
+    it once came out as a solver error (exit 4)."""
+    import threading
+
+    out = tmp_path / "out"
+    # the demo week with two threads: HiGHS's MIP (and its callbacks) run from the start
+    timer = threading.Timer(3.0, lambda: os.kill(os.getpid(), signal.SIGINT))
+    timer.start()
+    t0 = time.perf_counter()
+    try:
+        code = main(["plan", str(ROOT / "plant_configs/saltmarsh_refinery.toml"), "--series",
+                     str(ROOT / "plant_configs/saltmarsh_week.csv"), "--out", str(out),
+                     "--threads", "2", "--time-limit", "60", "--quiet"])
+    finally:
+        timer.cancel()
+    assert code == 130
+    assert time.perf_counter() - t0 < 20  # stopped, not run to its limit
+    assert not out.exists()
+
+
 def test_killed_runs_never_leave_a_partial_output(tmp_path) -> None:  # noqa: ANN001
     site, ser = _files(tmp_path)
     out = tmp_path / "out"

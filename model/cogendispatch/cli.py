@@ -51,6 +51,22 @@ def _positive(text: str) -> float:
     return v
 
 
+def _gap(text: str) -> float:
+    """A relative gap: a fraction above 0 and below 1 (0.001 is 0.1 %)."""
+    v = _positive(text)
+    if not v < 1:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a relative gap: give a fraction below 1 (0.001 is 0.1 %)")
+    return v
+
+
+def _quality(text: str) -> float:
+    """A steam quality (dryness fraction): above 0, at most 1."""
+    v = _positive(text)
+    if not v <= 1:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a steam quality: give a fraction of at most 1")
+    return v
+
+
 def _count(text: str) -> int:
     """A whole number of at least 1 (threads, workers)."""
     try:
@@ -103,7 +119,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "summary.json, report.html and plan.xlsx into --out (whole or not at all).")
     _site_and_series(pl, "hourly demands and prices (CSV or Excel)")
     pl.add_argument("--out", required=True, help="output folder (created, or replaced if it holds earlier results)")
-    pl.add_argument("--gap", type=_positive, default=1e-3, help="relative MIP gap to stop at (default %(default)g)")
+    pl.add_argument("--gap", type=_gap, default=1e-3, help="relative MIP gap to stop at (default %(default)g)")
     pl.add_argument("--time-limit", type=_positive, default=120.0,
                     help="time for the search [s] (default %(default)g); reading, building, the re-check, the "
                          "baseline and the report come on top")
@@ -111,7 +127,7 @@ def build_parser() -> argparse.ArgumentParser:
                     help="threads for the solve (default 1); with 2 or more, one builds and improves "
                          "schedules beside HiGHS, which gets the rest: better results in the same time")
     pl.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
-    pl.add_argument("--moisture-limit", type=_positive, default=MOISTURE_LIMIT,
+    pl.add_argument("--moisture-limit", type=_quality, default=MOISTURE_LIMIT,
                     help="lowest turbine exhaust quality accepted by the re-check (default %(default)g, common practice)")
     _units_option(pl)
     pl.add_argument("--quiet", action="store_true", help="no progress messages")
@@ -126,7 +142,7 @@ def build_parser() -> argparse.ArgumentParser:
     sd.add_argument("--out", required=True, help="output folder")
     sd.add_argument("--window", type=int, default=168, help="hours kept per window (default %(default)d)")
     sd.add_argument("--lookahead", type=int, default=24, help="hours solved past each window and discarded (default %(default)d)")
-    sd.add_argument("--gap", type=_positive, default=5e-3, help="relative MIP gap per window (default %(default)g)")
+    sd.add_argument("--gap", type=_gap, default=5e-3, help="relative MIP gap per window (default %(default)g)")
     sd.add_argument("--time-limit", type=_positive, default=1.5,
                     help="solver time per window [s] (default %(default)g); a window starts from the week before and "
                          "more time lets it improve further; a window with nothing to start from gets at "
@@ -148,7 +164,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "balances, boiler fuel from the efficiency curve. Writes verify.csv and "
                         "verify_sections.csv and updates summary.json (plan runs this itself).")
     ve.add_argument("dir", help="a folder written by cogen plan")
-    ve.add_argument("--moisture-limit", type=_positive, default=MOISTURE_LIMIT,
+    ve.add_argument("--moisture-limit", type=_quality, default=MOISTURE_LIMIT,
                     help="lowest exhaust quality accepted (default %(default)g, common practice)")
     ad = sub.add_parser("advise", help="one hour: marginal steam prices, turbine-versus-motor table, what-if",
                         description="Advice for one hour: the marginal cost of steam in each header and of power, "
@@ -484,7 +500,8 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
         cost = pd.DataFrame([{"category": k, f"cost [{cur}]": v} for k, v in s["cost"].items()]
                             + [{"category": "total", f"cost [{cur}]": s["cost_total"]}])
         _table(out, f"Cost over {s['hours']} h from {s['first_hour']}", cost)
-        hrs = pd.DataFrame([{"unit": k, "running h": v, "starts": s["boiler_starts"].get(k, "")}
+        starts = s.get("starts", s["boiler_starts"])  # a summary written before turbo-generator starts were counted
+        hrs = pd.DataFrame([{"unit": k, "running h": v, "starts": starts.get(k, "")}
                             for k, v in s["running_hours"].items()])
         _table(out, "Units", hrs)
         dh = pd.DataFrame([{"machine": k, "machine-h on steam": v["steam"], "machine-h on motor": v["motor"]}

@@ -59,6 +59,7 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
         "export_MWh": t["export_MWh"],
         "co2_t": t["co2_t"],
         "boiler_starts": t["boiler_starts"],
+        "starts": t["starts"],
         "running_hours": t["running_hours"],
         "drive_hours": t["drive_hours"],
         "diagnosis": res.diagnosis,

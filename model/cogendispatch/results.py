@@ -69,6 +69,7 @@ def schedule_frame(sm: SiteModel) -> pd.DataFrame:
             n = len(co.sections) - 1
             cols[f"{uid}.exhaust_{last.to}_t_h"] = _series(lambda t: blk.flow[n, t], hours)
             cols[f"{uid}.power_MW"] = _series(lambda t: blk.power[t], hours)
+            cols[f"{uid}.start"] = _series(lambda t: blk.start[t], hours).round()
         elif isinstance(u, Drive):
             on_steam = _series(blk.machines_on_steam, hours).round()
             cols[f"{uid}.on_steam"] = on_steam
@@ -265,6 +266,7 @@ def plan_results(sm: SiteModel) -> PlanResults:
         "export_MWh": float(sched["grid.export_MW"].sum()),
         "co2_t": float(co2),
         "boiler_starts": {b.id: int(sched[f"{b.id}.start"].sum()) for b in cfg.boilers},
+        "starts": {u.id: int(sched[f"{u.id}.start"].sum()) for u in (*cfg.boilers, *cfg.turbogenerators)},
         "running_hours": {u.id: int(sched[f"{u.id}.on"].sum()) for u in (*cfg.boilers, *cfg.turbogenerators)},
         "drive_hours": {d.id: {"steam": float(sched[f"{d.id}.on_steam"].sum()),
                                "motor": float(sched[f"{d.id}.on_motor"].sum())} for d in cfg.drives},

@@ -10,12 +10,14 @@ start is built and improved beside HiGHS instead (:mod:`cogendispatch.beside`).
 
 from __future__ import annotations
 
+import contextlib
 import copy
 import math
+import signal
 import threading
 import time
 from dataclasses import dataclass, field
-from typing import Callable
+from typing import Callable, Iterator
 
 import highspy
 import numpy as np
@@ -119,6 +121,26 @@ _MIP_CALLBACKS = (highspy.cb.HighsCallbackType.kCallbackMipInterrupt,
                   highspy.cb.HighsCallbackType.kCallbackMipUserSolution,
                   highspy.cb.HighsCallbackType.kCallbackMipImprovingSolution)
 _SCHEDULER = threading.local()
+# set by Ctrl-C during a run: HiGHS calls back into Python, where a KeyboardInterrupt
+# raised inside a callback would become a solver error and be lost
+_INTERRUPTED = threading.Event()
+
+
+@contextlib.contextmanager
+def _ctrl_c_as_flag() -> Iterator[threading.Event]:
+    """Within the block, Ctrl-C (SIGINT) sets ``_INTERRUPTED`` instead of raising; the MIP
+    interrupt callback then stops HiGHS, and the caller raises KeyboardInterrupt after the
+    run. Only the main thread can take signals; elsewhere (the helper search, which stops
+    when the main run does) the block changes nothing."""
+    if threading.current_thread() is not threading.main_thread():
+        yield threading.Event()
+        return
+    _INTERRUPTED.clear()
+    previous = signal.signal(signal.SIGINT, lambda signum, frame: _INTERRUPTED.set())
+    try:
+        yield _INTERRUPTED
+    finally:
+        signal.signal(signal.SIGINT, previous)
 
 
 def _scheduler_for(threads: int) -> None:
@@ -215,7 +237,11 @@ class LoadedModel:
         if gap is not None:
             self.h.setOptionValue("mip_rel_gap", gap)
         _scheduler_for(self.threads)
-        if self.h.run() == highspy.HighsStatus.kError:
+        with _ctrl_c_as_flag() as interrupted:
+            status = self.h.run()
+        if interrupted.is_set():
+            raise KeyboardInterrupt
+        if status == highspy.HighsStatus.kError:
             raise SolveError(f"HiGHS refused to run (status {self.h.getModelStatus()}); see its log with output_flag")
 
     def solution(self) -> np.ndarray:
@@ -607,9 +633,8 @@ class LoadedModel:
         it, the helper's schedules handed in and HiGHS's own handed out through ``best``.
         :meth:`_stop_callbacks` ends them."""
         kinds = _MIP_CALLBACKS
-        wanted = ([kinds[0]] if progress is not None else []) + (list(kinds[1:]) if helper else [])
-        if not wanted:
-            return
+        # the interrupt callback always: it also stops the run on Ctrl-C
+        wanted = [kinds[0]] + (list(kinds[1:]) if helper else [])
         last = [0.0]
         sent = [best.get()[2]]  # newest version HiGHS has; a start, if any, is already set
 
@@ -626,8 +651,11 @@ class LoadedModel:
                 if mine and mine == best.get()[2]:
                     sent[0] = max(sent[0], mine)
             else:
+                if _INTERRUPTED.is_set():
+                    data_in.user_interrupt = True
+                    return
                 now = time.perf_counter()
-                if now - last[0] >= 2.0:
+                if progress is not None and now - last[0] >= 2.0:
                     last[0] = now
                     p, d = min(data_out.objective_function_value, best.get()[1]), data_out.mip_dual_bound
                     bound = f"bound {d:,.0f}" if math.isfinite(d) else "no bound yet (root LP)"
