@@ -314,6 +314,16 @@ def test_a_reserve_penalty_is_named_not_passed_off_as_cost() -> None:
     assert wi["penalty_change"] == pytest.approx(1e4 * wi["reserve_short_t_h"], rel=1e-9)
     note = next(c for c in wi["changes"] if c.startswith("steam reserve"))
     assert "penalty, not money spent" in note and "allow-starts" not in note  # no boiler left to start
+    # far beyond what the boilers carry, the LP header goes short: that penalty is named too
+    # (10^6 per t at the lowest header by default) and counted in the penalty change
+    a = advise(cfg, series(cfg, 1, demand_LP=75.0), at, "<tiny>", what_if=WhatIf(demand={"LP": 500.0}))
+    wi = a.what_if
+    assert wi["short"] is True
+    shortfall = next(c for c in wi["changes"] if "shortfall penalty" in c)
+    lp_short = wi["penalty_change"] - 1e4 * wi["reserve_short_t_h"]
+    named = float(shortfall.split(" of the change is the shortfall penalty")[0].replace(",", ""))
+    assert lp_short > 1e8 and named == pytest.approx(lp_short, abs=1.0)
+    assert wi["change"] > wi["penalty_change"] > 0.99 * wi["change"]  # nearly all of it is penalty
     # the same demand as the hour itself: the marginal prices say what sets them
     ser = series(cfg, 1, demand_LP=125.0)
     a = advise(cfg, ser, at, "<tiny>")

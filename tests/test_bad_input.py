@@ -226,7 +226,7 @@ def test_excel_cells_are_named_as_typed(demo_site: Path, demo_series: Path, tmp_
     pytest.param("missing.toml", None, ["file not found"], id="missing-file"),
     pytest.param("latin1.toml", lambda p: p.write_bytes(DEMO_SITE_TEXT.encode() + b"\n# caf\xe9\n"),
                  ["cannot read the file", "utf-8"], id="not-utf8"),
-    pytest.param("folder.toml", lambda p: p.mkdir(), ["cannot read the file"], id="a-folder"),
+    pytest.param("folder.toml", lambda p: p.mkdir(), ["is a folder; give the site file"], id="a-folder"),
 ])
 def test_unreadable_site_is_refused(name: str, make: Callable[[Path], object] | None, expected: list[str],
                                     tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
@@ -348,6 +348,7 @@ def test_bad_series_is_refused(edit: Frame, expected: list[str], demo_site: Path
 @pytest.mark.parametrize(("name", "make", "expected"), [
     pytest.param("missing.csv", None, ["file not found"], id="missing-file"),
     pytest.param("empty.csv", lambda p: p.write_bytes(b""), ["cannot read the table"], id="empty-file"),
+    pytest.param("folder", lambda p: p.mkdir(), ["is a folder; give the series file"], id="a-folder"),
 ])
 def test_unreadable_series_is_refused(name: str, make: Callable[[Path], object] | None, expected: list[str],
                                       demo_site: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:

@@ -395,6 +395,22 @@ def test_diagnosis_names_the_binding_limits():
     cfg = site(grid={"max_import": "3 MW"})
     _, rep, res = run(cfg, series(cfg, 1, demand_LP=20.0, load=5.0))
     assert any(d.startswith("electric bus short") and "grid import at its 3 MW limit" in d for d in res.diagnosis)
+    # with a condensing set whose last section is full, the diagnosis names that section
+    # too: more power would need more steam through it
+    tg = {"id": "TGC", "inlet": "HP", "max_throttle": "80 t/h", "generator_rating": "30 MW",
+          "no_load_loss": "0.2 MW", "section": [{"to": "C", "efficiency": 0.75, "max_flow": "20 t/h"}]}
+    cond = {"id": "C", "pressure": "0.1 bar(a)", "cooling_capacity": "100 MW"}
+    cfg = site(grid={"max_import": "1 MW"}, turbogenerator=[tg], condenser=[cond])
+    _, rep, res = run(cfg, series(cfg, 1, demand_LP=20.0, load=15.0))
+    short = [d for d in res.diagnosis if d.startswith("electric bus short")]
+    assert len(short) == 1
+    assert "TGC section to C at its 20 t/h limit" in short[0] and "grid import at its 1 MW limit" in short[0]
+    # a back-pressure set with nowhere for its exhaust but the deaerator and a full vent
+    cfg = site(grid={"max_import": "1 MW"}, turbogenerator=[TG],
+               vent=[{"id": "V", "header": "LP", "max_flow": "15 t/h", "cost": "1 per t"}])
+    _, rep, res = run(cfg, series(cfg, 1, demand_LP=0.0, load=8.0))
+    short = [d for d in res.diagnosis if d.startswith("electric bus short")]
+    assert len(short) == 1 and "V venting its 15 t/h maximum" in short[0], res.diagnosis
 
 
 def test_demand_comes_before_the_reserve_in_an_impossible_hour() -> None:

@@ -26,7 +26,7 @@ from .equipment.common import SiteStates
 from .errors import InputError
 from .plant.schema import Drive, SiteConfig
 from .plant.series import Series
-from .site import BuildOptions, SiteModel, build_site_model
+from .site import BuildOptions, SiteModel, build_site_model, shortfall_prices
 from .solve import LoadedModel
 
 TOL = 1e-6
@@ -61,6 +61,13 @@ class HourState:
     short: dict[str, float]
     power_short: float
     reserve_short: float = 0.0  # [t/h] of the one-boiler-trip reserve not kept
+
+
+def shortfall_penalty(cfg: SiteConfig, s: HourState) -> float:
+    """Penalty in an hour's cost for steam and power the site could not supply [currency]:
+    each header's shortfall at its price (``site.shortfall_prices``), the electric bus's."""
+    prices = shortfall_prices(cfg)
+    return sum(prices[h] * v for h, v in s.short.items()) + cfg.penalties.power_shortfall * s.power_short
 
 
 class HourModel:
@@ -507,11 +514,15 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
                          "penalty, not money spent"
                          + (f"; starting {', '.join(idle)} (--allow-starts) may keep it" if idle and not allow_starts
                             else ""))
+        short_change = shortfall_penalty(cfg, new) - shortfall_penalty(cfg, base_free)
+        if short_change > 1e-6:
+            notes.append(f"{short_change:,.0f} of the change is the shortfall penalty for steam or power "
+                         "the site cannot supply, not money spent")
         wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
               "changes": notes + what_if_changes(base_free, new),
               "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4,
               "reserve_short_t_h": new.reserve_short,
-              "penalty_change": penalty * (new.reserve_short - base_free.reserve_short),
+              "penalty_change": penalty * (new.reserve_short - base_free.reserve_short) + short_change,
               "asked": {**asdict(what_if), "allow_starts": allow_starts}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
                   _time.perf_counter() - t0)

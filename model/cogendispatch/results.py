@@ -193,6 +193,13 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False, header: str | Non
                 out.append(f"{tg.id} at its {tg.max_throttle:g} t/h throttle limit")
             if _val(blk.power[t]) >= tg.generator_rating - 1e-4:
                 out.append(f"{tg.id} at its {tg.generator_rating:g} MW rating")
+            # a full section or extraction stops more flow to a header, and more power
+            for k, sec in enumerate(tg.sections):
+                if sec.max_flow is not None and _val(blk.flow[k, t]) >= sec.max_flow - 1e-4:
+                    out.append(f"{tg.id} section to {sec.to} at its {sec.max_flow:g} t/h limit")
+                if (sec.max_extraction is not None and k < len(tg.sections) - 1
+                        and _val(blk.extraction[k, t]) >= sec.max_extraction - 1e-4):
+                    out.append(f"{tg.id} extraction to {sec.to} at its {sec.max_extraction:g} t/h limit")
         elif power:
             out.append(f"{tg.id} {_off(tg.available, blk.on[t])}")
     if not power:
@@ -201,6 +208,15 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False, header: str | Non
                 continue
             if _val(b[ld.id].flow[t]) >= ld.max_flow - 1e-4:
                 out.append(f"{ld.id} at its {ld.max_flow:g} t/h capacity")
+    if power:
+        # more power from steam needs somewhere for the exhaust steam to go
+        for c in cfg.condensers:
+            blk = b.get(c.id)
+            if blk is not None and hasattr(blk, "cooling") and _val(blk.duty(t)) >= c.cooling_capacity - 1e-4:
+                out.append(f"{c.id} at its {c.cooling_capacity:g} MW cooling capacity")
+        for v in cfg.vents:
+            if _val(b[v.id].flow[t]) >= v.max_flow - 1e-4:
+                out.append(f"{v.id} venting its {v.max_flow:g} t/h maximum")
     if power and _val(sm.model.grid.imp[t]) >= cfg.grid.max_import - 1e-4:
         out.append(f"grid import at its {cfg.grid.max_import:g} MW limit")
     return out

@@ -123,6 +123,8 @@ def load_site(path: str | Path) -> SiteConfig:
         text = path.read_bytes().decode("utf-8")
     except FileNotFoundError:
         raise InputError(path, "", "file not found") from None
+    except IsADirectoryError:
+        raise InputError(path, "", "is a folder; give the site file (TOML)") from None
     except (OSError, UnicodeDecodeError) as exc:
         raise InputError(path, "", f"cannot read the file ({exc})") from None
     try:

@@ -73,6 +73,8 @@ def _read_table(path: Path) -> pd.DataFrame:
         return pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
     except FileNotFoundError:
         raise InputError(path, "", "file not found") from None
+    except IsADirectoryError:
+        raise InputError(path, "", "is a folder; give the series file (CSV or Excel)") from None
     except Exception as exc:  # parser errors from pandas/openpyxl come in many types
         why = " ".join(str(exc).split())  # parser messages carry line breaks
         raise InputError(path, "", f"cannot read the table ({type(exc).__name__}: {why})") from None
