@@ -231,6 +231,24 @@ def test_advice_never_replaces_a_plan_folder(tmp_path, capsys) -> None:  # noqa:
     assert _digest(plan) == before
 
 
+def test_advice_on_a_plan_made_from_another_series_says_so(tmp_path, capsys) -> None:  # noqa: ANN001
+    import shutil
+
+    from test_robustness import _files
+
+    site, ser = _files(tmp_path)
+    plan = tmp_path / "plan"
+    assert main(["plan", str(site), "--series", str(ser), "--out", str(plan), "--quiet"]) == 0
+    args = ["--at", "2027-03-01T05:00", "--plan", str(plan)]
+    assert main(["advise", str(site), "--series", str(ser), *args]) == 0
+    assert "note: the plan" not in capsys.readouterr().err  # the same files: nothing to say
+    newer = tmp_path / "forecast.csv"
+    shutil.copy(ser, newer)
+    assert main(["advise", str(site), "--series", str(newer), *args]) == 0
+    err = capsys.readouterr().err
+    assert f"was made from the series file {ser.resolve()}, not {newer}" in err
+
+
 @pytest.mark.parametrize("args, where", [
     (["--at", "2030-01-01T00:00"], "--at"),
     (["--at", "2027-01-05"], "gives no hour"),

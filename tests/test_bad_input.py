@@ -159,6 +159,12 @@ SITE_CASES = [
                  ["[[vent]] 'V-LP' > max_flow", "must not be negative"], id="vent-negative-max-flow"),
     pytest.param(sub('max_flow = "100 t/h"', 'max_flow = "-100 t/h"'),
                  ["[[letdown]] 'LD-HM' > max_flow", "must be positive"], id="letdown-negative-max-flow"),
+    pytest.param(sub('min_flow = "2 t/h"', 'min_flow = "120 t/h"'),
+                 ["[[letdown]] 'LD-HM' > min_flow", "min_flow 120 t/h exceeds max_flow 100 t/h"],
+                 id="letdown-min-flow-above-max"),
+    pytest.param(sub('  to = "COND"', '  to = "CONDX"'),
+                 ["[[turbogenerator]] 'TG1' > section #2 > to", "unknown header or condenser 'CONDX'",
+                  "(known: HP, MP, LP, COND)"], id="section-unknown-exhaust"),
     pytest.param(sub(AIRB_RATE, 'steam_rate = "0 kg/kWh"'),
                  ["[[drive]] 'AIRB' > steam_turbine > steam_rate", "must be positive"], id="drive-steam-rate-zero"),
     pytest.param(sub(AIRB_RATE, 'steam_rate = "0.5 kg/kWh"'),
@@ -297,6 +303,10 @@ SERIES_CASES = [
     pytest.param(cell(5, "time", "2027-01-04T05:30"),
                  ["row 7, column 'time'", "2027-01-04T05:30 is 90 min after the previous row", "exactly one hour apart"],
                  id="off-the-hour"),
+    # a time read otherwise than meant shows in the row before the break, named with how it was read
+    pytest.param(cell(3, "time", "2027-01-04 3pm"),
+                 ["row 6, column 'time'", "is before the previous row (row 5 '2027-01-04 3pm' read as 2027-01-04 15:00)"],
+                 id="time-read-otherwise"),
     # a day-first date read month first: 01/04/2027 (1 April) is 4 January
     pytest.param(lambda df: df.assign(time=pd.to_datetime(df["time"]).dt.strftime("%d/%m/%Y %H:%M")),
                  ["row 26, column 'time'", "missing hour(s) before 05/01/2027 00:00", "read month first"],

@@ -262,6 +262,22 @@ def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
     }
 
 
+def _warn_other_inputs(plan: Path, site: Path, series: Path, err: Console) -> None:
+    """Warn when a plan folder was made from another site or series file than the advice
+    is asked on: its commitment may not fit the hour (a new forecast may be meant)."""
+    import json
+
+    try:
+        s = json.loads((plan / "summary.json").read_text())
+    except (OSError, ValueError):
+        return  # advise reads the plan's schedule itself and says what is wrong with it
+    for key, given in (("site", site), ("series", series)):
+        made = s.get(key)
+        if made and Path(made).resolve() != given.resolve():
+            err.print(f"note: the plan in {plan} was made from the {key} file {made}, not {given}; "
+                      "its units' on/off states are held as planned", highlight=False)
+
+
 def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     """``cogen advise``: one hour held as running, re-optimised; returns the exit code."""
     from .decisions import advise
@@ -274,6 +290,8 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     cfg = load_site(args.site)
     series = load_series(args.series, cfg)
     w = what_if_from_args(args)
+    if args.plan:
+        _warn_other_inputs(Path(args.plan), Path(args.site), Path(args.series), err)
     a = advise(cfg, series, args.at, args.series, args.plan, w,
                BuildOptions(reserve=False if args.no_reserve else None), allow_starts=args.allow_starts)
     d = advice_dict(a, cfg.site.currency)
@@ -412,6 +430,7 @@ def _fmt(x: object) -> str:
     if isinstance(x, float):
         if x != x:
             return ""
+        x = x + 0.0  # no '-0'
         return f"{x:,.4g}" if abs(x) < 1000 else f"{x:,.0f}"
     return "" if x is None else str(x)
 
@@ -497,8 +516,9 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
         print(json_text(s))
     else:
         cur = s["currency"]
-        cost = pd.DataFrame([{"category": k, f"cost [{cur}]": v} for k, v in s["cost"].items()]
-                            + [{"category": "total", f"cost [{cur}]": s["cost_total"]}])
+        # money in whole currency units: a vent's 0.04 beside 747,681 of fuel reads as noise
+        cost = pd.DataFrame([{"category": k, f"cost [{cur}]": float(round(v))} for k, v in s["cost"].items()]
+                            + [{"category": "total", f"cost [{cur}]": float(round(s["cost_total"]))}])
         _table(out, f"Cost over {s['hours']} h from {s['first_hour']}", cost)
         starts = s.get("starts", s["boiler_starts"])  # a summary written before turbo-generator starts were counted
         hrs = pd.DataFrame([{"unit": k, "running h": v, "starts": starts.get(k, "")}
@@ -517,8 +537,9 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                   f"solve {sec['solve']:.2f} s, total {sec['total']:.2f} s; schedule found by {s['found_by']}")
         if "baseline" in s:
             sv = s["baseline"]["saving"]
-            bt = pd.DataFrame([{"category": k, f"practice [{cur}]": v["baseline"], f"optimised [{cur}]": v["optimised"],
-                                f"saving [{cur}]": v["saving"], "saving [%]": v["saving_pct"]} for k, v in sv.items()])
+            bt = pd.DataFrame([{"category": k, f"practice [{cur}]": float(round(v["baseline"])),
+                                f"optimised [{cur}]": float(round(v["optimised"])), f"saving [{cur}]": float(round(v["saving"])),
+                                "saving [%]": v["saving_pct"]} for k, v in sv.items()])
             _table(out, "Against the practice baseline", bt)
             if s["baseline"]["diagnosis"]:
                 out.print(Text("the practice baseline itself leaves demand unmet: "

@@ -72,7 +72,7 @@ def validation_problems(path: Path, raw: dict[str, Any], err: ValidationError) -
         msg = e["msg"]
         kind, ctx, given = e["type"], e.get("ctx") or {}, e.get("input")
         if kind == "extra_forbidden":
-            msg = "unknown key (check the spelling; see plant_configs/ for a complete example)"
+            msg = "unknown key (check the spelling; the project's plant_configs/ folder has a complete example)"
         elif kind == "missing" and len(loc) == 1 and loc[0] in _TOP_TABLES:
             msg = _TOP_TABLES[str(loc[0])]
         elif kind == "missing":
@@ -221,7 +221,8 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                 bad(where("turbogenerator", t.id, key), f"'{sec.to}' is a condenser: only the last section may exhaust to it")
                 break
             else:
-                bad(where("turbogenerator", t.id, key), f"unknown header or condenser '{sec.to}'")
+                known = ", ".join([*headers, *condensers]) or "none"
+                bad(where("turbogenerator", t.id, key), f"unknown header or condenser '{sec.to}' (known: {known})")
                 break
             if p_to >= p_prev:
                 bad(where("turbogenerator", t.id, key),
@@ -233,9 +234,11 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
             if last and sec.max_extraction is not None:
                 bad(where("turbogenerator", t.id, f"section #{k + 1} > max_extraction"), "the last section exhausts; use max_flow")
             if sec.max_extraction is not None and sec.min_extraction > sec.max_extraction:
-                bad(where("turbogenerator", t.id, f"section #{k + 1} > min_extraction"), "exceeds max_extraction")
+                bad(where("turbogenerator", t.id, f"section #{k + 1} > min_extraction"),
+                    f"min_extraction {sec.min_extraction:g} t/h exceeds max_extraction {sec.max_extraction:g} t/h")
             if sec.max_flow is not None and sec.min_flow > sec.max_flow:
-                bad(where("turbogenerator", t.id, f"section #{k + 1} > min_flow"), "exceeds max_flow")
+                bad(where("turbogenerator", t.id, f"section #{k + 1} > min_flow"),
+                    f"min_flow {sec.min_flow:g} t/h exceeds max_flow {sec.max_flow:g} t/h")
         if t.min_throttle > t.max_throttle:
             bad(where("turbogenerator", t.id, "min_throttle"), f"min_throttle {t.min_throttle:g} t/h exceeds max_throttle {t.max_throttle:g} t/h")
         if t.max_throttle <= 0:
@@ -297,7 +300,7 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
         if ld.max_flow <= 0:
             bad(where("letdown", ld.id, "max_flow"), "must be positive")
         if ld.min_flow > ld.max_flow:
-            bad(where("letdown", ld.id, "min_flow"), "exceeds max_flow")
+            bad(where("letdown", ld.id, "min_flow"), f"min_flow {ld.min_flow:g} t/h exceeds max_flow {ld.max_flow:g} t/h")
 
     for v in cfg.vents:
         need_header("vent", v.id, "header", v.header)

@@ -219,17 +219,21 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
             if d == 1.0:
                 continue
             row = i + 3
+            # the previous row as read: a time pandas read otherwise than meant ('3pm',
+            # day-first dates) shows there, one row before the break is found
+            prev = f"row {row - 1} '{text.iloc[i]}' read as {parsed[i]:%Y-%m-%d %H:%M}"
             if d == 0:
                 raise InputError(path, f"row {row}, column 'time'", f"duplicated hour {text.iloc[i + 1]}")
             if d < 0:
-                raise InputError(path, f"row {row}, column 'time'", f"{text.iloc[i + 1]} is before the previous row: rows must be in time order")
-            slash = " Dates with '/' are read month first (01/03/2027 is 3 January): write 2027-03-01." \
-                if text.str.contains("/").any() else ""
+                raise InputError(path, f"row {row}, column 'time'",
+                                 f"{text.iloc[i + 1]} is before the previous row ({prev}): rows must be in time order")
+            slash = text.str.contains("/").any()
+            hint = ("dates with '/' are read month first (01/03/2027 is 3 January): write 2027-03-01" if slash
+                    else "a daylight-saving gap? give UTC offsets")
             if d > 1 and d == round(d):
                 raise InputError(path, f"row {row}, column 'time'",
-                                 f"{d - 1:g} missing hour(s) before {text.iloc[i + 1]} (a daylight-saving gap? give UTC offsets)"
-                                 + slash)
+                                 f"{d - 1:g} missing hour(s) before {text.iloc[i + 1]} ({prev}); {hint}")
             raise InputError(path, f"row {row}, column 'time'",
-                             f"{text.iloc[i + 1]} is {d * 60:g} min after the previous row: rows must be exactly one hour apart"
-                             + slash)
+                             f"{text.iloc[i + 1]} is {d * 60:g} min after the previous row ({prev}): rows must be "
+                             "exactly one hour apart" + (f"; {hint}" if slash else ""))
     return idx
