@@ -530,7 +530,10 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
         sec = s["seconds"]
         from .report.html import Units
         u = Units(args.units)
-        out.print(f"status {s['status']}, gap {100 * s['gap']:.3f} %, cost {s['objective']:,.0f} {cur}, "
+        # HiGHS says "optimal" once within the gap asked; say which gap that was
+        status = (f"optimal within the {100 * args.gap:g} % gap asked" if s["status"] == "optimal" and s["gap"] > 1e-9
+                  else s["status"])
+        out.print(f"status {status}, gap {100 * s['gap']:.3f} %, cost {s['objective']:,.0f} {cur}, "
                   f"bound {s['bound']:,.0f}; fuel {s['fuel_total_GJ'] * u.ke:,.0f} {u.energy}, "
                   f"import {s['import_MWh']:,.0f} MWh, export {s['export_MWh']:,.0f} MWh, CO2 {s['co2_t']:,.0f} t")
         out.print(f"time: build {sec['build']:.2f} s, load {sec['load']:.2f} s, start {sec['start']:.2f} s, "
