@@ -337,11 +337,16 @@ def test_a_reserve_penalty_is_named_not_passed_off_as_cost() -> None:
     a = advise(cfg, series(cfg, 1, demand_LP=75.0), at, "<tiny>", what_if=WhatIf(demand={"LP": 500.0}))
     wi = a.what_if
     assert wi["short"] is True
-    shortfall = next(c for c in wi["changes"] if "shortfall penalty" in c)
+    shortfall = next(c for c in wi["changes"] if "cannot supply or take" in c)
     lp_short = wi["penalty_change"] - 1e4 * wi["reserve_short_t_h"]
-    named = float(shortfall.split(" of the change is the shortfall penalty")[0].replace(",", ""))
+    named = float(shortfall.split(" of the change is the penalty")[0].replace(",", ""))
     assert lp_short > 1e8 and named == pytest.approx(lp_short, abs=1.0)
     assert wi["change"] > wi["penalty_change"] > 0.99 * wi["change"]  # nearly all of it is penalty
+    # and a process exporting more LP steam than the vent and the deaerator can take: surplus
+    a = advise(cfg, series(cfg, 1, demand_LP=75.0), at, "<tiny>", what_if=WhatIf(demand={"LP": -400.0}))
+    wi = a.what_if
+    assert any("cannot supply or take" in c for c in wi["changes"])
+    assert wi["penalty_change"] > 1e8 and wi["change"] > 0.99 * wi["penalty_change"]
     # the same demand as the hour itself: the marginal prices say what sets them
     ser = series(cfg, 1, demand_LP=125.0)
     a = advise(cfg, ser, at, "<tiny>")

@@ -80,6 +80,25 @@ def test_ctrl_c_during_the_solve_is_an_interruption(tmp_path) -> None:  # noqa: 
     assert not out.exists()
 
 
+def test_ctrl_c_ignored_stays_ignored_during_a_run() -> None:
+    """A process started with Ctrl-C ignored (a background job of a shell script) keeps
+    ignoring it while HiGHS runs; the default handler is put back after each run."""
+    from cogendispatch.solve import _ctrl_c_as_flag
+
+    before = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        with _ctrl_c_as_flag() as flag:
+            assert signal.getsignal(signal.SIGINT) is signal.SIG_IGN
+            os.kill(os.getpid(), signal.SIGINT)
+            time.sleep(0.05)
+        assert not flag.is_set()
+    finally:
+        signal.signal(signal.SIGINT, before)
+    with _ctrl_c_as_flag():
+        assert signal.getsignal(signal.SIGINT) is not signal.default_int_handler
+    assert signal.getsignal(signal.SIGINT) is signal.default_int_handler
+
+
 def test_killed_runs_never_leave_a_partial_output(tmp_path) -> None:  # noqa: ANN001
     site, ser = _files(tmp_path)
     out = tmp_path / "out"
@@ -167,17 +186,19 @@ def test_no_schedule_at_all_is_a_clear_error(tmp_path, monkeypatch, capsys) -> N
         solve(build_site_model(*_tiny_model_inputs(tmp_path)), SolveOptions())
 
 
-def test_a_baseline_without_solution_leaves_the_plan_whole(tmp_path, monkeypatch, capsys) -> None:  # noqa: ANN001
-    """The practice rules can break a site's own limits; the plan is then written without
-    its comparison, and says why."""
+@pytest.mark.parametrize("error", ["NoBaselineError", "SolveError"])
+def test_a_baseline_without_solution_leaves_the_plan_whole(error, tmp_path, monkeypatch, capsys) -> None:  # noqa: ANN001
+    """The practice rules can break a site's own limits, or HiGHS fail on them; the plan is
+    then written without its comparison, and says why."""
     import json
 
-    site, ser = _files(tmp_path)
+    from cogendispatch import baseline
 
-    from cogendispatch.baseline import NoBaselineError
+    site, ser = _files(tmp_path)
+    kind = {"NoBaselineError": baseline.NoBaselineError, "SolveError": SolveError}[error]
 
     def broken(*args, **kwargs):  # noqa: ANN002, ANN003, ANN202
-        raise NoBaselineError("the practice-rule schedule has no solution")
+        raise kind("the practice-rule schedule has no solution")
 
     monkeypatch.setattr(plan_mod, "practice_baseline", broken)
     out = tmp_path / "out"

@@ -271,6 +271,8 @@ def _warn_other_inputs(plan: Path, site: Path, series: Path, err: Console) -> No
         s = json.loads((plan / "summary.json").read_text())
     except (OSError, ValueError):
         return  # advise reads the plan's schedule itself and says what is wrong with it
+    if not isinstance(s, dict):
+        return
     for key, given in (("site", site), ("series", series)):
         made = s.get(key)
         if made and Path(made).resolve() != given.resolve():

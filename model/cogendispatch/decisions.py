@@ -61,13 +61,17 @@ class HourState:
     short: dict[str, float]
     power_short: float
     reserve_short: float = 0.0  # [t/h] of the one-boiler-trip reserve not kept
+    surplus: dict[str, float] = field(default_factory=dict)  # [t/h] no unit could take, by header
+    power_surplus: float = 0.0  # [MW] beyond load and the export limit
 
 
 def shortfall_penalty(cfg: SiteConfig, s: HourState) -> float:
-    """Penalty in an hour's cost for steam and power the site could not supply [currency]:
-    each header's shortfall at its price (``site.shortfall_prices``), the electric bus's."""
-    prices = shortfall_prices(cfg)
-    return sum(prices[h] * v for h, v in s.short.items()) + cfg.penalties.power_shortfall * s.power_short
+    """Penalty in an hour's cost for steam and power the site could not supply or take
+    [currency]: each header's shortfall at its price (``site.shortfall_prices``), its surplus,
+    and the electric bus's shortfall and surplus."""
+    prices, pen = shortfall_prices(cfg), cfg.penalties
+    return (sum(prices[h] * v for h, v in s.short.items()) + pen.steam_surplus * sum(s.surplus.values())
+            + pen.power_shortfall * s.power_short + pen.power_surplus * s.power_surplus)
 
 
 class HourModel:
@@ -187,6 +191,8 @@ class HourModel:
             short={hh.id: v(m.steam_short[hh.id, 0]) for hh in self.cfg.headers},
             power_short=v(m.power_short[0]),
             reserve_short=v(m.reserve_short[0]) if m.component("reserve_short") is not None else 0.0,
+            surplus={hh.id: v(m.steam_surplus[hh.id, 0]) for hh in self.cfg.headers},
+            power_surplus=v(m.power_surplus[0]),
         )
 
     def marginal_prices(self, w: WhatIf = WhatIf()) -> tuple[dict[str, float], float, np.ndarray]:
@@ -515,9 +521,9 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
                          + (f"; starting {', '.join(idle)} (--allow-starts) may keep it" if idle and not allow_starts
                             else ""))
         short_change = shortfall_penalty(cfg, new) - shortfall_penalty(cfg, base_free)
-        if short_change > 1e-6:
-            notes.append(f"{short_change:,.0f} of the change is the shortfall penalty for steam or power "
-                         "the site cannot supply, not money spent")
+        if short_change > 1.0:  # a penalty of 10^6 per t turns solver round-off into cents
+            notes.append(f"{short_change:,.0f} of the change is the penalty for steam or power the site "
+                         "cannot supply or take, not money spent")
         wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
               "changes": notes + what_if_changes(base_free, new),
               "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4,

@@ -10,6 +10,7 @@ from typing import Callable
 import pandas as pd
 
 from .baseline import NoBaselineError, practice_baseline, savings
+from .errors import SolveError
 from .outputs import atomic_dir, check_out_dir, output_kind, write_csv, write_json
 from .plant.load import load_site
 from .plant.schema import SiteConfig
@@ -108,7 +109,7 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     say("pricing the practice baseline (merit-order boilers, fixed turbine throttles, normal drivers)")
     try:
         base = practice_baseline(cfg, series, build_options, time_limit=solve_options.time_limit)
-    except NoBaselineError as e:  # the plan stands without its comparison
+    except (NoBaselineError, SolveError) as e:  # the plan stands without its comparison
         summary["baseline_note"] = f"no practice baseline: {e}"
         say(summary["baseline_note"])
     else:

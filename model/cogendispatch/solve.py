@@ -129,10 +129,13 @@ _INTERRUPTED = threading.Event()
 @contextlib.contextmanager
 def _ctrl_c_as_flag() -> Iterator[threading.Event]:
     """Within the block, Ctrl-C (SIGINT) sets ``_INTERRUPTED`` instead of raising; the MIP
-    interrupt callback then stops HiGHS, and the caller raises KeyboardInterrupt after the
-    run. Only the main thread can take signals; elsewhere (the helper search, which stops
-    when the main run does) the block changes nothing."""
-    if threading.current_thread() is not threading.main_thread():
+    interrupt callback then stops HiGHS's search (an LP in progress, such as the root's,
+    finishes first), and the caller raises KeyboardInterrupt after the run. Only the main
+    thread can take signals; elsewhere (the helper search, which stops when the main run
+    does), or where Ctrl-C is ignored or handled by someone else (a background job of a
+    shell script), the block changes nothing."""
+    if (threading.current_thread() is not threading.main_thread()
+            or signal.getsignal(signal.SIGINT) is not signal.default_int_handler):
         yield threading.Event()
         return
     _INTERRUPTED.clear()
@@ -558,13 +561,16 @@ class LoadedModel:
                 best.started.wait(options.time_limit)
         finally:
             best.stop.set()
+            interrupted = False
             while helper is not None and helper.is_alive():
                 try:
                     helper.join(0.5)
                 except KeyboardInterrupt:  # the helper stops at its next callback: wait for it
-                    continue
+                    interrupted = True
             self._stop_callbacks()
             self._set_options(kept)
+        if interrupted:  # Ctrl-C while waiting for the helper still stops the plan
+            raise KeyboardInterrupt
         if best.error and progress:
             progress(f"the helper search stopped early ({best.error}); HiGHS went on alone")
         secs["solve"] = time.perf_counter() - t1

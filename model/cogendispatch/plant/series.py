@@ -221,7 +221,8 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
             row = i + 3
             # the previous row as read: a time pandas read otherwise than meant ('3pm',
             # day-first dates) shows there, one row before the break is found
-            prev = f"row {row - 1} '{text.iloc[i]}' read as {parsed[i]:%Y-%m-%d %H:%M}"
+            prev = f"row {row - 1} '{text.iloc[i]}' read as {parsed[i]:%Y-%m-%d %H:%M}" \
+                + (" UTC" if parsed[i].tzinfo is not None else "")
             if d == 0:
                 raise InputError(path, f"row {row}, column 'time'", f"duplicated hour {text.iloc[i + 1]}")
             if d < 0:
