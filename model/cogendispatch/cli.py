@@ -11,7 +11,7 @@ import argparse
 import sys
 import time
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Callable
 
 import numpy as np
 import pandas as pd
@@ -51,20 +51,20 @@ def _positive(text: str) -> float:
     return v
 
 
-def _gap(text: str) -> float:
-    """A relative gap: a fraction above 0 and below 1 (0.001 is 0.1 %)."""
-    v = _positive(text)
-    if not v < 1:
-        raise argparse.ArgumentTypeError(f"'{text}' is not a relative gap: give a fraction below 1 (0.001 is 0.1 %)")
-    return v
+def _fraction(what: str, one_allowed: bool, hint: str) -> Callable[[str], float]:
+    """An option type for a fraction above 0 and below 1 (or at most 1)."""
+
+    def parse(text: str) -> float:
+        v = _positive(text)
+        if v > 1 or (v == 1 and not one_allowed):
+            raise argparse.ArgumentTypeError(f"'{text}' is not {what}: give a fraction {hint}")
+        return v
+
+    return parse
 
 
-def _quality(text: str) -> float:
-    """A steam quality (dryness fraction): above 0, at most 1."""
-    v = _positive(text)
-    if not v <= 1:
-        raise argparse.ArgumentTypeError(f"'{text}' is not a steam quality: give a fraction of at most 1")
-    return v
+_gap = _fraction("a relative gap", False, "below 1 (0.001 is 0.1 %)")
+_quality = _fraction("a steam quality", True, "of at most 1")  # dryness fraction
 
 
 def _count(text: str) -> int:

@@ -21,12 +21,13 @@ from pathlib import Path
 import highspy
 import numpy as np
 import pandas as pd
+from pyomo.repn import generate_standard_repn
 
 from .equipment.common import SiteStates
 from .errors import InputError
 from .plant.schema import Drive, SiteConfig
 from .plant.series import Series
-from .site import BuildOptions, SiteModel, build_site_model, shortfall_prices
+from .site import BuildOptions, SiteModel, build_site_model
 from .solve import LoadedModel
 
 TOL = 1e-6
@@ -61,17 +62,7 @@ class HourState:
     short: dict[str, float]
     power_short: float
     reserve_short: float = 0.0  # [t/h] of the one-boiler-trip reserve not kept
-    surplus: dict[str, float] = field(default_factory=dict)  # [t/h] no unit could take, by header
-    power_surplus: float = 0.0  # [MW] beyond load and the export limit
-
-
-def shortfall_penalty(cfg: SiteConfig, s: HourState) -> float:
-    """Penalty in an hour's cost for steam and power the site could not supply or take
-    [currency]: each header's shortfall at its price (``site.shortfall_prices``), its surplus,
-    and the electric bus's shortfall and surplus."""
-    prices, pen = shortfall_prices(cfg), cfg.penalties
-    return (sum(prices[h] * v for h, v in s.short.items()) + pen.steam_surplus * sum(s.surplus.values())
-            + pen.power_shortfall * s.power_short + pen.power_surplus * s.power_surplus)
+    penalty: float = 0.0  # [currency] the hour's "penalty" cost: every slack at its price
 
 
 class HourModel:
@@ -98,6 +89,9 @@ class HourModel:
         self.header_row = {hh.id: self.lm.opt._pyomo_con_to_solver_con_map[m.header_balance[hh.id, 0]]
                            for hh in self.cfg.headers}
         self.power_row = self.lm.opt._pyomo_con_to_solver_con_map[m.power_balance[0]]
+        # the model's own penalty term (site.py), linear in the slacks: (variable, price) pairs
+        repn = generate_standard_repn(sum(term(0) for term in self.sm.ctx.cost_terms["penalty"]))
+        self.penalty_terms = list(zip(repn.linear_vars, repn.linear_coefs))
         res = m.component("reserve")
         self.reserve_rows = np.array([] if res is None else [
             self.lm.opt._pyomo_con_to_solver_con_map[c] for c in res.values()], dtype=np.int32)
@@ -191,8 +185,7 @@ class HourModel:
             short={hh.id: v(m.steam_short[hh.id, 0]) for hh in self.cfg.headers},
             power_short=v(m.power_short[0]),
             reserve_short=v(m.reserve_short[0]) if m.component("reserve_short") is not None else 0.0,
-            surplus={hh.id: v(m.steam_surplus[hh.id, 0]) for hh in self.cfg.headers},
-            power_surplus=v(m.power_surplus[0]),
+            penalty=sum(price * v(var) for var, price in self.penalty_terms),
         )
 
     def marginal_prices(self, w: WhatIf = WhatIf()) -> tuple[dict[str, float], float, np.ndarray]:
@@ -512,23 +505,23 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         notes = [f"{u} was already off" for u in what_if.trip if held.get(u) == 0]
         if what_if.trip and len(hm.reserve_rows):
             notes.append("steam reserve no longer kept: the site is in the contingency it was kept for")
-        penalty = cfg.penalties.reserve_shortfall
+        reserve_change = cfg.penalties.reserve_shortfall * (new.reserve_short - base_free.reserve_short)
         if new.reserve_short > base_free.reserve_short + 1e-4:
             idle = [b.id for b in cfg.boilers if new.on.get(b.id) == 0 and b.id not in what_if.trip]
             notes.append(f"steam reserve {new.reserve_short:.2f} t/h short (was {base_free.reserve_short:.2f}): "
-                         f"{penalty * (new.reserve_short - base_free.reserve_short):,.0f} of the change is its "
+                         f"{reserve_change:,.0f} of the change is its "
                          "penalty, not money spent"
                          + (f"; starting {', '.join(idle)} (--allow-starts) may keep it" if idle and not allow_starts
                             else ""))
-        short_change = shortfall_penalty(cfg, new) - shortfall_penalty(cfg, base_free)
-        if short_change > 1.0:  # a penalty of 10^6 per t turns solver round-off into cents
-            notes.append(f"{short_change:,.0f} of the change is the penalty for steam or power the site "
+        slack_change = new.penalty - base_free.penalty - reserve_change  # header and bus slacks
+        if slack_change > 1.0:  # a penalty of 10^6 per t turns solver round-off into cents
+            notes.append(f"{slack_change:,.0f} of the change is the penalty for steam or power the site "
                          "cannot supply or take, not money spent")
         wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
               "changes": notes + what_if_changes(base_free, new),
               "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4,
               "reserve_short_t_h": new.reserve_short,
-              "penalty_change": penalty * (new.reserve_short - base_free.reserve_short) + short_change,
+              "penalty_change": new.penalty - base_free.penalty,
               "asked": {**asdict(what_if), "allow_starts": allow_starts}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
                   _time.perf_counter() - t0)

@@ -274,6 +274,7 @@ def plan_results(sm: SiteModel) -> PlanResults:
             used = float(sched[f"{b.id}.fuel_{f}_GJ_h"].sum())
             fuel[f] = fuel.get(f, 0.0) + used
             co2 += used * factors[f]
+    starts = {u.id: int(sched[f"{u.id}.start"].sum()) for u in (*cfg.boilers, *cfg.turbogenerators)}
     totals: dict[str, object] = {
         "cost": {k: float(v) for k, v in cost.sum().items()},
         "fuel_GJ": {k: float(v) for k, v in fuel.items()},
@@ -281,8 +282,8 @@ def plan_results(sm: SiteModel) -> PlanResults:
         "import_MWh": float(sched["grid.import_MW"].sum()),
         "export_MWh": float(sched["grid.export_MW"].sum()),
         "co2_t": float(co2),
-        "boiler_starts": {b.id: int(sched[f"{b.id}.start"].sum()) for b in cfg.boilers},
-        "starts": {u.id: int(sched[f"{u.id}.start"].sum()) for u in (*cfg.boilers, *cfg.turbogenerators)},
+        "starts": starts,
+        "boiler_starts": {b.id: starts[b.id] for b in cfg.boilers},
         "running_hours": {u.id: int(sched[f"{u.id}.on"].sum()) for u in (*cfg.boilers, *cfg.turbogenerators)},
         "drive_hours": {d.id: {"steam": float(sched[f"{d.id}.on_steam"].sum()),
                                "motor": float(sched[f"{d.id}.on_motor"].sum())} for d in cfg.drives},
