@@ -31,6 +31,19 @@ SERIES = ("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]
           + "".join(f"2027-03-01T{h:02d}:00,0,{20 + h},5,{50 + 5 * h}\n" for h in range(12)))
 
 
+@pytest.fixture
+def ctrl_c_default():  # noqa: ANN201
+    """Ctrl-C as in a terminal for the test: a suite started as a background job of a
+    shell script inherits it ignored, which the plan rightly leaves alone."""
+    before = signal.signal(signal.SIGINT, signal.default_int_handler)
+    yield
+    signal.signal(signal.SIGINT, before)
+
+
+def _default_sigint_in_child() -> None:
+    signal.signal(signal.SIGINT, signal.SIG_DFL)  # Python then installs its own handler
+
+
 def _files(tmp_path: Path) -> tuple[Path, Path]:
     (tmp_path / "site.toml").write_text(TINY_TOML)
     (tmp_path / "s.csv").write_text(SERIES)
@@ -59,7 +72,7 @@ def test_interrupted_write_leaves_the_previous_results(tmp_path, monkeypatch) ->
     assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".out.")] == []
 
 
-def test_ctrl_c_during_the_solve_is_an_interruption(tmp_path) -> None:  # noqa: ANN001
+def test_ctrl_c_during_the_solve_is_an_interruption(tmp_path, ctrl_c_default) -> None:  # noqa: ANN001
     """Ctrl-C while HiGHS runs (and calls back into Python) exits 130 with nothing written;
     it once came out as a solver error (exit 4)."""
     import threading
@@ -80,7 +93,33 @@ def test_ctrl_c_during_the_solve_is_an_interruption(tmp_path) -> None:  # noqa: 
     assert not out.exists()
 
 
-def test_ctrl_c_ignored_stays_ignored_during_a_run() -> None:
+def test_ctrl_c_stops_an_lp_at_once(ctrl_c_default: None) -> None:
+    """Ctrl-C during an LP (the demo week's relaxation, about 3 s) stops it within a
+    fraction of a second; it used to run to its end first (2.4 to 4.8 s after the signal).
+    The next run in the same process is not stopped by it."""
+    import threading
+
+    from cogendispatch.plant.load import load_site
+    from cogendispatch.plant.series import load_series
+    from cogendispatch.solve import LoadedModel
+
+    cfg = load_site(ROOT / "plant_configs/saltmarsh_refinery.toml")
+    lm = LoadedModel(build_site_model(cfg, load_series(ROOT / "plant_configs/saltmarsh_week.csv", cfg)))
+    lm._set_integrality(False)
+    sent: list[float] = []
+    timer = threading.Timer(0.5, lambda: (sent.append(time.perf_counter()), os.kill(os.getpid(), signal.SIGINT)))
+    timer.start()
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            lm._run(60.0)
+    finally:
+        timer.cancel()
+    assert sent and time.perf_counter() - sent[0] < 1.0
+    lm._run(60.0)
+    assert lm.h.getModelStatus().name == "kOptimal"
+
+
+def test_ctrl_c_ignored_stays_ignored_during_a_run(ctrl_c_default: None) -> None:
     """A process started with Ctrl-C ignored (a background job of a shell script) keeps
     ignoring it while HiGHS runs; the default handler is put back after each run."""
     from cogendispatch.solve import _ctrl_c_as_flag
@@ -285,3 +324,37 @@ def test_mutated_site_files_exit_2_with_a_message(tmp_path, capsys, text: str) -
     err = capsys.readouterr().err
     assert rc == 2
     assert "mutated.toml" in err and "Traceback" not in err
+
+
+def test_ctrl_c_stops_a_study_without_running_its_queued_scenarios(tmp_path, ctrl_c_default) -> None:  # noqa: ANN001
+    """Ctrl-C (SIGINT to the terminal's process group: the study and its workers) during a
+    study of six scenarios on two workers exits 130 within seconds and writes nothing. The
+    scenarios still queued once ran to the end first (about 30 s more here)."""
+    import pandas as pd
+
+    ser = tmp_path / "two_days.csv"
+    pd.read_csv(ROOT / "plant_configs/saltmarsh_week.csv").iloc[:48].to_csv(ser, index=False)
+    sc = tmp_path / "scenarios.toml"
+    sc.write_text("".join(f'[[scenario]]\nname = "s{i}"\nimport = {{ multiply = {0.8 + 0.1 * i:.1f} }}\n'
+                          for i in range(6)))
+    out = tmp_path / "study"
+    code = "import sys; from cogendispatch.cli import main; sys.exit(main(sys.argv[1:]))"
+    proc = subprocess.Popen([sys.executable, "-c", code, "study", str(ROOT / "plant_configs/saltmarsh_refinery.toml"),
+                             "--series", str(ser), "--scenarios", str(sc), "--out", str(out), "--window", "12",
+                             "--lookahead", "2", "--time-limit", "3", "--workers", "2", "--quiet"],
+                            start_new_session=True, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            preexec_fn=_default_sigint_in_child)
+    try:
+        time.sleep(8.0)  # workers spawned and inside their first scenarios
+        assert proc.poll() is None
+        os.killpg(proc.pid, signal.SIGINT)
+        t0 = time.perf_counter()
+        proc.communicate(timeout=60)
+        waited = time.perf_counter() - t0
+    finally:
+        if proc.poll() is None:
+            os.killpg(proc.pid, signal.SIGKILL)
+            proc.wait()
+    assert proc.returncode == 130
+    assert waited < 10.0
+    assert not out.exists()

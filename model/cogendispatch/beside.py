@@ -17,7 +17,6 @@ import threading
 import time
 from typing import TYPE_CHECKING
 
-import highspy
 import numpy as np
 
 if TYPE_CHECKING:
@@ -52,20 +51,6 @@ class Incumbent:
         """The best schedule shared so far: (column values, objective, version)."""
         with self._lock:
             return self.x, self.objective, self.version
-
-
-def interruptible(h: highspy.Highs, stop: threading.Event) -> None:
-    """Make every LP and MIP run of ``h`` stop soon after ``stop`` is set."""
-
-    def _cb(callback_type, message, data_out, data_in, user_data) -> None:  # noqa: ANN001
-        if stop.is_set():
-            data_in.user_interrupt = True
-
-    h.setCallback(_cb, None)
-    for kind in (highspy.cb.HighsCallbackType.kCallbackSimplexInterrupt,
-                 highspy.cb.HighsCallbackType.kCallbackIpmInterrupt,
-                 highspy.cb.HighsCallbackType.kCallbackMipInterrupt):
-        h.startCallback(kind)
 
 
 # the helper's improvement passes, in turn: (hours per window, hours between windows, first

@@ -24,7 +24,7 @@ import numpy as np
 import pyomo.environ as pyo
 from pyomo.contrib.solver.solvers.highs import Highs
 
-from .beside import QUICK_SWEEP_LIMIT, Incumbent, helper_search, interruptible
+from .beside import QUICK_SWEEP_LIMIT, Incumbent, helper_search
 from .equipment.common import CommitInfo, held_value, repair_commitment, whole_hours
 from .errors import SolveError
 from .site import SiteModel
@@ -120,6 +120,11 @@ def _ordered(seqs: list[list[float]]) -> bool:
 _MIP_CALLBACKS = (highspy.cb.HighsCallbackType.kCallbackMipInterrupt,
                   highspy.cb.HighsCallbackType.kCallbackMipUserSolution,
                   highspy.cb.HighsCallbackType.kCallbackMipImprovingSolution)
+# the callbacks through which any run (LP or MIP) can be stopped; always on: calling back
+# every simplex iteration cost nothing measurable on the demo week's LP (3.1 to 3.7 s either way)
+_INTERRUPTS = (highspy.cb.HighsCallbackType.kCallbackSimplexInterrupt,
+               highspy.cb.HighsCallbackType.kCallbackIpmInterrupt,
+               highspy.cb.HighsCallbackType.kCallbackMipInterrupt)
 _SCHEDULER = threading.local()
 # set by Ctrl-C during a run: HiGHS calls back into Python, where a KeyboardInterrupt
 # raised inside a callback would become a solver error and be lost
@@ -128,9 +133,9 @@ _INTERRUPTED = threading.Event()
 
 @contextlib.contextmanager
 def _ctrl_c_as_flag() -> Iterator[threading.Event]:
-    """Within the block, Ctrl-C (SIGINT) sets ``_INTERRUPTED`` instead of raising; the MIP
-    interrupt callback then stops HiGHS's search (an LP in progress, such as the root's,
-    finishes first), and the caller raises KeyboardInterrupt after the run. Only the main
+    """Within the block, Ctrl-C (SIGINT) sets ``_INTERRUPTED`` instead of raising; HiGHS's
+    interrupt callbacks (:meth:`LoadedModel._on_callback`) then stop the run, LP or MIP,
+    and the block raises KeyboardInterrupt as it ends. Only the main
     thread can take signals; elsewhere (the helper search, which stops when the main run
     does), or where Ctrl-C is ignored or handled by someone else (a background job of a
     shell script), the block changes nothing."""
@@ -144,6 +149,9 @@ def _ctrl_c_as_flag() -> Iterator[threading.Event]:
         yield _INTERRUPTED
     finally:
         signal.signal(signal.SIGINT, previous)
+    if _INTERRUPTED.is_set():
+        _INTERRUPTED.clear()  # a later run in this process (a test, say) starts unstopped
+        raise KeyboardInterrupt
 
 
 def _scheduler_for(threads: int) -> None:
@@ -194,7 +202,27 @@ class LoadedModel:
         self.start_objective: float | None = None
         self.lp_seconds: float | None = None  # [s] of the last rounding start's LP relaxation
         self.fixed_duals: np.ndarray | None = None  # row duals of the last _fixed_run(keep_duals=True)
+        self.stop: threading.Event | None = None  # set: every run of this instance stops soon
+        self._mip_cb: Callable[..., None] | None = None  # a plan's MIP callback (_callbacks)
+        self._listen()
         self.load_seconds = time.perf_counter() - t0
+
+    def _listen(self) -> None:
+        """Route HiGHS's callbacks of this instance through :meth:`_on_callback`."""
+        self.h.setCallback(self._on_callback, None)
+        for kind in _INTERRUPTS:
+            self.h.startCallback(kind)
+
+    def _on_callback(self, callback_type, message, data_out, data_in, user_data) -> None:  # noqa: ANN001
+        """Stop any run on Ctrl-C or when :attr:`stop` is set (the helper search, when the
+        main search ends); hand a MIP's callbacks on to the plan's (:meth:`_callbacks`)."""
+        if callback_type in _INTERRUPTS:
+            # set either way: HiGHS keeps the flag from an interrupted run into the next one
+            data_in.user_interrupt = _INTERRUPTED.is_set() or (self.stop is not None and self.stop.is_set())
+            if data_in.user_interrupt:
+                return
+        if self._mip_cb is not None and callback_type in _MIP_CALLBACKS:
+            self._mip_cb(callback_type, message, data_out, data_in, user_data)
 
     def spare(self) -> "LoadedModel":
         """A copy of this loaded model (rows added so far included) in a HiGHS instance of
@@ -206,6 +234,8 @@ class LoadedModel:
         other.h.passModel(self.h.getLp())
         other.threads = 1
         other._relaxed = False
+        other.stop, other._mip_cb = None, None
+        other._listen()
         return other
 
     def refresh(self) -> None:
@@ -240,10 +270,8 @@ class LoadedModel:
         if gap is not None:
             self.h.setOptionValue("mip_rel_gap", gap)
         _scheduler_for(self.threads)
-        with _ctrl_c_as_flag() as interrupted:
+        with _ctrl_c_as_flag():  # raises KeyboardInterrupt after a run stopped by Ctrl-C
             status = self.h.run()
-        if interrupted.is_set():
-            raise KeyboardInterrupt
         if status == highspy.HighsStatus.kError:
             raise SolveError(f"HiGHS refused to run (status {self.h.getModelStatus()}); see its log with output_flag")
 
@@ -535,7 +563,7 @@ class LoadedModel:
         helper: threading.Thread | None = None
         if options.beside and hint is None and len(self.int_cols) > 0:
             spare = self.spare()
-            interruptible(spare.h, best.stop)
+            spare.stop = best.stop
             helper = threading.Thread(target=helper_search, name="cogen-helper", daemon=True,
                                       args=(spare, best, t0 + options.time_limit,
                                             options.time_limit < QUICK_SWEEP_LIMIT))
@@ -639,8 +667,9 @@ class LoadedModel:
         it, the helper's schedules handed in and HiGHS's own handed out through ``best``.
         :meth:`_stop_callbacks` ends them."""
         kinds = _MIP_CALLBACKS
-        # the interrupt callback always: it also stops the run on Ctrl-C
-        wanted = [kinds[0]] + (list(kinds[1:]) if helper else [])
+        # the interrupt callback is always on (it also stops the run on Ctrl-C); the
+        # schedules go in and out only with a helper beside HiGHS
+        wanted = list(kinds[1:]) if helper else []
         last = [0.0]
         sent = [best.get()[2]]  # newest version HiGHS has; a start, if any, is already set
 
@@ -657,9 +686,6 @@ class LoadedModel:
                 if mine and mine == best.get()[2]:
                     sent[0] = max(sent[0], mine)
             else:
-                if _INTERRUPTED.is_set():
-                    data_in.user_interrupt = True
-                    return
                 now = time.perf_counter()
                 if progress is not None and now - last[0] >= 2.0:
                     last[0] = now
@@ -670,7 +696,7 @@ class LoadedModel:
                     else:
                         progress(f"solving: {f'best {p:,.0f}' if math.isfinite(p) else 'no schedule yet'}, {bound}")
 
-        self.h.setCallback(_cb, None)
+        self._mip_cb = _cb
         for k in wanted:
             self.h.startCallback(k)
 
@@ -687,8 +713,9 @@ class LoadedModel:
         return kept
 
     def _stop_callbacks(self) -> None:
-        for k in _MIP_CALLBACKS:
+        for k in _MIP_CALLBACKS[1:]:
             self.h.stopCallback(k)
+        self._mip_cb = None
 
 
 def solve(sm: SiteModel, options: SolveOptions = SolveOptions(), progress: Progress | None = None) -> SolveReport:

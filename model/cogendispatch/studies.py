@@ -401,9 +401,19 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
 # ------------------------------------------------------------------ parallel runs
 
 def _scenario_job(args: tuple[Any, ...]) -> ScenarioResult:
-    cfg, ps, options, window, lookahead, build, queue = args
-    cb = (lambda i, n: queue.put((ps.name, i, n))) if queue is not None else None
-    return rolling_horizon(cfg, ps, options, window, lookahead, build, cb)
+    """One scenario in a worker process. ``stop`` (an event of the parent's manager, whose
+    process ignores Ctrl-C) set: the study was interrupted, so a scenario still queued does
+    not start and a running one ends after its current window."""
+    cfg, ps, options, window, lookahead, build, queue, stop = args
+
+    def on_window(i: int, n: int) -> None:
+        if stop.is_set():
+            raise KeyboardInterrupt
+        if queue is not None:
+            queue.put((ps.name, i, n))
+
+    on_window(0, 1)
+    return rolling_horizon(cfg, ps, options, window, lookahead, build, on_window)
 
 
 def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: SolveOptions,
@@ -420,8 +430,8 @@ def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: Solve
         from distributed import Client
 
         with Client(cluster) as client:
-            futs = client.map(_scenario_job, [(cfg, ps, opts, window, lookahead, build, None) for ps in scenarios],
-                              pure=False)
+            futs = client.map(_scenario_job, [(cfg, ps, opts, window, lookahead, build, None, _NEVER)
+                                              for ps in scenarios], pure=False)
             out = client.gather(futs)
         if progress:
             for ps in scenarios:
@@ -435,13 +445,32 @@ def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: Solve
     ctx = mp.get_context("spawn")
     with ctx.Manager() as manager:
         queue = manager.Queue() if progress else None
+        stop = manager.Event()
         with ProcessPoolExecutor(max_workers=n_workers, mp_context=ctx) as pool:
-            futs = [pool.submit(_scenario_job, (cfg, ps, opts, window, lookahead, build, queue)) for ps in scenarios]
-            while not all(f.done() for f in futs):
-                _drain(queue, progress)
-                time.sleep(0.2)
+            futs = [pool.submit(_scenario_job, (cfg, ps, opts, window, lookahead, build, queue, stop))
+                    for ps in scenarios]
+            try:
+                while not all(f.done() for f in futs):
+                    _drain(queue, progress)
+                    time.sleep(0.2)
+            except BaseException:
+                # Ctrl-C (or an error here): scenarios not yet started are dropped and running
+                # ones end after their window, instead of the queue running to its end
+                stop.set()
+                pool.shutdown(wait=False, cancel_futures=True)
+                raise
             _drain(queue, progress)
             return [f.result() for f in futs]
+
+
+class _Never:
+    """A stop event that is never set (a Dask cluster's workers are stopped by Dask)."""
+
+    def is_set(self) -> bool:
+        return False
+
+
+_NEVER = _Never()
 
 
 def _drain(queue: Any, progress: Callable[[str, int, int], None] | None) -> None:
