@@ -201,6 +201,9 @@ def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  #
     pr = pd.read_csv(out / "prices.csv").set_index("balance")
     adv = json.loads((out / "advice.json").read_text())
     assert set(pr.index) == {"HP", "MP", "LP", "power"} and pr.loc["power", "unit"] == "EUR/MWh"
+    drv = pd.read_csv(out / "drivers.csv")  # money columns name the currency, as the prices' unit column does
+    assert {"cost_on_steam_EUR", "saving_EUR", "flip_import_price_EUR_MWh", "marginal_estimate_EUR_MWh"} <= set(drv.columns)
+    assert (drv.saving_EUR >= 0).all()
     capsys.readouterr()
     assert main(["verify", str(out)]) == 2  # an advice folder is not a plan
     assert "holds advice results; verify re-checks a plan folder's schedule" in capsys.readouterr().err

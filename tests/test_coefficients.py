@@ -60,6 +60,33 @@ def test_turbine_sections_reproduce_cengel_example_10_8():
     assert 0.95 < r < 1.0
 
 
+def test_condenser_table_gives_the_heat_of_each_exhaust_by_cengel_example_10_8():
+    """Heat a condensing exhaust brings to the condenser per t/h: (h6 - h_f) / 3600 [MW per
+    t/h]. Cengel & Boles Example 10-8: h6 2073.0 kJ/kg (published); h_f at 5 kPa 137.75 kJ/kg
+    (Cengel & Boles Table A-5, from memory). Part (c) sends 3 kg/s to the condenser:
+    3 * (2073.0 - 137.75) = 5806 kW rejected (0.5 %, as the example's other states)."""
+    cfg = _example_10_8_site()
+    cond = coefficient_tables(cfg)["condensers"].set_index("condenser").loc["C"]
+    assert cond["turbine"] == "T" and cond["section"] == 2
+    assert cond["hotwell_h_kJ_kg"] == pytest.approx(137.75, rel=5e-3)
+    assert cond["saturation_T_C"] == pytest.approx(32.87, abs=0.05)  # Table A-5, 5 kPa (from memory)
+    assert 3.0 * 3.6 * cond["heat_MW_per_t_h"] == pytest.approx(5.806, rel=5e-3)
+    # the flow at which the 100 MW cooling capacity is reached
+    assert cond["exhaust_t_h_at_capacity"] * cond["heat_MW_per_t_h"] == pytest.approx(100.0, rel=1e-12)
+
+
+def test_inspect_tables_show_fuels_and_grid_as_read():
+    cfg = load_site(DEMO_DIR / "saltmarsh_refinery.toml")
+    tabs = coefficient_tables(cfg)
+    fuels = tabs["fuels"].set_index("fuel")
+    for f in cfg.fuels:
+        assert fuels.loc[f.id, "price_EUR_GJ"] == f.price and fuels.loc[f.id, "co2_t_GJ"] == f.co2_factor
+    assert fuels.loc["RFG", "burned_by"] == " ".join(b.id for b in cfg.boilers if "RFG" in b.fuels)
+    g = tabs["grid"].iloc[0]
+    assert (g.max_import_MW, g.max_export_MW, g.min_import_MW) == (cfg.grid.max_import, cfg.grid.max_export,
+                                                                   cfg.grid.min_import)
+
+
 def test_turbine_section_power_formula_by_hand():
     # 42 bar(a)/400 degC to 12 bar(a) at 78 %: P = m dh_s eta / 3600 (hand calculation)
     cfg = site(header=[{"id": "HP", "pressure": "42 bar(a)", "temperature": "400 degC"},
@@ -216,6 +243,7 @@ def test_inspect_fits_the_terminal_without_cutting_a_number(width: int, monkeypa
     # the wet gas compressor's and the air blower's duty [kW], and B4's curve note, whole
     assert "3,500" in text and "5,000" in text and "convex hull, up to 0.002 % below the curve" in text
     assert "vents" in text and "V-LP" in text  # every unit read is shown, vents too
+    assert "condensers" in text and "COND TG1/2" in text and "fuels" in text and "max_import_MW" in text
 
 
 def test_deaerator_table_gives_the_steam_each_water_stream_needs():

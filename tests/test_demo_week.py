@@ -42,6 +42,10 @@ def test_outputs_written_with_the_documented_keys(week: Path) -> None:
     assert s["cost_total"] == pytest.approx(s["objective"], rel=1e-6)
     assert Path(s["site"]) == SITE and Path(s["series"]) == SERIES
     assert s["diagnosis"] == []
+    # costs.csv: one column per category, named with the currency, summing to the objective
+    cost = pd.read_csv(week / "costs.csv", index_col="time")
+    assert sorted(cost.columns) == sorted(f"{k}_{s['currency']}" for k in s["cost"])
+    assert float(cost.to_numpy().sum()) == pytest.approx(s["objective"], rel=1e-6)
 
 
 def test_every_header_and_power_balance_closes(week: Path) -> None:

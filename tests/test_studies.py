@@ -195,7 +195,8 @@ def test_cli_study_writes_the_outputs(tmp_path, capsys) -> None:  # noqa: ANN001
     assert rc == 0
     table = pd.read_csv(out / "scenarios.csv")
     assert table.scenario.tolist() == ["base", "'=cheap power"]  # quoted: never a spreadsheet formula
-    assert table.cost_import.iloc[1] < table.cost_import.iloc[0]
+    assert table.cost_import_EUR.iloc[1] < table.cost_import_EUR.iloc[0]  # money columns name the currency
+    assert [c for c in table.columns if c.startswith("cost_") and not c.endswith("_EUR")] == []
     assert (table.largest_window_gap >= 0).all() and (table.largest_window_gap < 0.05).all()
     # driver hours only for machines with a choice (the demo's WGC is steam-only, FANS motor-only)
     on_steam = {c.removeprefix("machine_hours_on_steam_") for c in table.columns if c.startswith("machine_hours_on_steam_")}

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pytest
@@ -195,6 +196,11 @@ def test_cli_verify_updates_a_plan_folder(tmp_path, capsys) -> None:  # noqa: AN
     assert main(["plan", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--out", str(out), "--quiet"]) == 0
     s = json.loads((out / "summary.json").read_text())
     assert "within 1 %" in s["verify"]["verdict"] and "baseline" in s
+    # re-checked from the files, the plan's own check comes out the same to the last digit
+    first = {f: (out / f).read_bytes() for f in ("verify.csv", "verify_sections.csv")}
+    assert main(["verify", str(out)]) == 0
+    assert {f: (out / f).read_bytes() for f in first} == first
+    assert json.loads((out / "summary.json").read_text())["verify"] == s["verify"]
     (out / "verify.csv").unlink()
     assert main(["verify", str(out)]) == 0
     assert (out / "verify.csv").is_file()
@@ -226,3 +232,7 @@ def test_willans_heat_in_a_back_pressure_exhaust_by_hand() -> None:
     by_hand = 0.3 / 0.96 * 3600.0 / (st.headers["LP"].h - st.h_feedwater)
     assert v.hourly["LP_exhaust_water_t_h"].to_numpy() == pytest.approx([by_hand, by_hand], rel=1e-6)
     assert "Willans loss" in v.verdict and "LP" in v.verdict
+    # the verdict's parts add up to the imbalance it names first
+    imb, water, rest = (float(x) for x in re.findall(r"([+-]\d+\.\d+) t/h", v.verdict)[:3])
+    assert imb == pytest.approx(water + rest, abs=0.011)
+    assert water == pytest.approx(round(by_hand, 2), abs=0.011)

@@ -21,7 +21,7 @@ from rich.text import Text
 from rich.table import Table
 
 from .errors import InputError, SolveError
-from .outputs import atomic_dir, json_text, write_csv, write_json
+from .outputs import atomic_dir, json_text, with_money_units, write_csv, write_json
 from .plan import SAFETY_NOTE, run_plan
 from .site import BuildOptions
 from .solve import SolveOptions
@@ -109,7 +109,7 @@ def build_parser() -> argparse.ArgumentParser:
     ins = sub.add_parser("inspect", help="validate a site file and print the linear coefficients it yields",
                          description="Validate a site file and print header states and each unit's linear "
                          "coefficients (fuel per tonne, turbine kW per t/h and steam rates, drive steam "
-                         "rates, letdown water ratios, deaerator steam ratio).")
+                         "rates, letdown water ratios, deaerator steam ratio, condenser heat per t/h of exhaust) and the fuels and grid limits as read.")
     ins.add_argument("site", help="site file (TOML)")
     ins.add_argument("--csv", metavar="DIR", help="also write each table as CSV into the folder DIR (created, or replaced if an earlier inspect wrote it)")
 
@@ -337,7 +337,10 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                                     for h, v in a.prices.items()]
                                    + [{"balance": "power", "price": a.power_price, "unit": f"{cfg.site.currency}/MWh",
                                        "set_by": a.power_reason}]), dd / "prices.csv", index=False)
-            write_csv(a.drivers, dd / "drivers.csv", index=False)
+            write_csv(with_money_units(a.drivers, {"cost_on_steam": cur, "cost_on_motor": cur, "saving": cur,
+                                                   "flip_import_price": f"{cur}/MWh",
+                                                   "marginal_estimate": f"{cur}/MWh"}),
+                      dd / "drivers.csv", index=False)
             # marker so a later run may replace this folder
             write_json({"kind": "advice", "time": a.time}, dd / "summary.json")
         atomic_dir(args.out, write, "advice")
@@ -382,9 +385,14 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
     def slug(k: int, name: str) -> str:
         return f"{k + 1:02d}_" + (re.sub(r"[^A-Za-z0-9_.-]+", "_", name).strip("_.")[:40] or "scenario")
 
+    cur = cfg.site.currency
+    # the files name the currency in every money column, as in a plan's costs.csv
+    money = {c: cur for c in table.columns if c.startswith("cost_")}
+    table_out, monthly_out = with_money_units(table, money), with_money_units(monthly, money)
+
     def write(d: Path) -> None:
-        write_csv(table, d / "scenarios.csv", index=False)
-        write_csv(monthly, d / "monthly.csv", index=False)
+        write_csv(table_out, d / "scenarios.csv", index=False)
+        write_csv(monthly_out, d / "monthly.csv", index=False)
         (d / "schedules").mkdir()
         for k, r in enumerate(results):
             r.schedule.to_parquet(d / "schedules" / f"{slug(k, r.name)}.parquet")
@@ -399,16 +407,18 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
 
     atomic_dir(args.out, write, "study")
     if args.json:
-        print(json_text({"scenarios": table.to_dict(orient="records"),
+        print(json_text({"currency": cur, "scenarios": table_out.to_dict(orient="records"),
                          "diagnosis": {r.name: r.diagnosis for r in results}}))
         return EXIT_SHORT if any(r.shortfall_hours for r in results) else EXIT_OK
-    cur = cfg.site.currency
     cols = [c for c in table.columns if c.startswith("cost_")] + ["fuel_GJ", "import_MWh", "export_MWh", "co2_t",
                                                                   "boiler_starts", "shortfall_hours"]
     comp = table.set_index("scenario")[cols].T
     first = comp.columns[0]
     for c in comp.columns[1:]:
         comp[f"{c} - {first}"] = comp[c] - comp[first]
+    money_rows = [q for q in comp.index if q.startswith("cost_")]
+    # money in whole currency units, as in the plan's table (+ 0.0: no "-0")
+    comp.loc[money_rows] = comp.loc[money_rows].astype(float).round() + 0.0
     comp.insert(0, "quantity", [q.replace("cost_", f"cost [{cur}] ") for q in comp.index])
     _table(out, f"Scenarios over {base.hours} h ({secs:.0f} s)", comp.reset_index(drop=True).astype(object))
     gaps = ", ".join(f"{n} {100 * g:.2f} %" if g == g else f"{n} none proven"
@@ -485,7 +495,11 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
             _table(out, name, df)
         else:  # one column per unit, one row per quantity: fits a terminal
             key = df.columns[0]
-            label = df[key].astype(str) + (("/" + df["section"].astype(str)) if "section" in df else "")
+            label = df[key].astype(str)
+            if "turbine" in df and key != "turbine":  # a condenser's row per turbine exhausting into it
+                label = label + " " + df["turbine"].astype(str)
+            if "section" in df:
+                label = label + "/" + df["section"].astype("Int64").astype(str)
             wide = df.drop(columns=[key]).T
             wide.columns = label.tolist()
             wide.insert(0, "quantity", wide.index)

@@ -81,12 +81,52 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
     letdowns = pd.DataFrame(lrows)
 
     # vents: what the site file gives, so a planner can see they were read
-    vents = pd.DataFrame([{"vent": v.id, "header": v.header, "max_flow_t_h": v.max_flow, "cost_per_t": v.cost}
+    vents = pd.DataFrame([{"vent": v.id, "header": v.header, "max_flow_t_h": v.max_flow, f"cost_{cfg.site.currency}_t": v.cost}
                           for v in cfg.vents])
 
     deaerator = _deaerator_table(cfg, st)
     return {"headers": hdr, "boilers": boilers, "turbines": turbines, "drives": drives,
-            "letdowns": letdowns, "vents": vents, "deaerator": deaerator}
+            "letdowns": letdowns, "vents": vents, "deaerator": deaerator,
+            "condensers": _condenser_table(cfg, st), "fuels": _fuel_table(cfg), "grid": _grid_table(cfg)}
+
+
+def _condenser_table(cfg: SiteConfig, st: SiteStates) -> pd.DataFrame:
+    """One row per turbine section exhausting into each condenser: the heat each t/h of
+    that exhaust brings, (h_exhaust - h_f) / 3600 [MW per t/h], with h_f the saturated
+    liquid at condenser pressure (IAPWS-IF97), and the exhaust flow at which the cooling
+    capacity is reached, as the model's cooling row has it."""
+    rows = []
+    for c in cfg.condensers:
+        sat = state_px(c.pressure, 0.0)
+        base = {"condenser": c.id, "pressure_bar_a": c.pressure, "saturation_T_C": sat.T,
+                "hotwell_h_kJ_kg": sat.h, "cooling_capacity_MW": c.cooling_capacity,
+                "ejector_steam_t_h": c.ejector_steam, "ejector_header": c.ejector_header}
+        users = [(tg.id, k + 1, sec) for tg in cfg.turbogenerators
+                 for k, sec in enumerate(turbine_mod.coefficients(tg, st).sections)
+                 if sec.to_condenser and sec.to == c.id]
+        for tg_id, k, sec in users:
+            per = (sec.outlet.h - sat.h) / 3600.0
+            rows.append({**base, "turbine": tg_id, "section": k, "exhaust_h_kJ_kg": sec.outlet.h,
+                         "heat_MW_per_t_h": per, "exhaust_t_h_at_capacity": c.cooling_capacity / per})
+        if not users:
+            rows.append(base)
+    return pd.DataFrame(rows)
+
+
+def _fuel_table(cfg: SiteConfig) -> pd.DataFrame:
+    """The fuels as read: default price [currency/GJ], CO2 factor [t/GJ], supply limit
+    [GJ/h], and which boilers burn each."""
+    cur = cfg.site.currency
+    return pd.DataFrame([{"fuel": f.id, f"price_{cur}_GJ": f.price, "co2_t_GJ": f.co2_factor,
+                          "max_supply_GJ_h": f.max_supply,
+                          "burned_by": " ".join(b.id for b in cfg.boilers if f.id in b.fuels)} for f in cfg.fuels])
+
+
+def _grid_table(cfg: SiteConfig) -> pd.DataFrame:
+    """The grid connection's limits as read [MW]."""
+    g = cfg.grid
+    return pd.DataFrame([{"connection": "grid", "max_import_MW": g.max_import, "max_export_MW": g.max_export,
+                          "min_import_MW": g.min_import}])
 
 
 def _deaerator_table(cfg: SiteConfig, st: SiteStates) -> pd.DataFrame:

@@ -105,9 +105,38 @@ def quote_formulas(df: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
+def with_money_units(df: pd.DataFrame, units: dict[str, str]) -> pd.DataFrame:
+    """``df`` with each money column of ``units`` named ``<column>_<unit>`` (e.g.
+    ``fuel_EUR``, ``flip_import_price_EUR_MWh``), as every other file column carries its
+    unit of measure; the other columns as they are."""
+    return df.rename(columns={c: f"{c}_{u.replace('/', '_')}" for c, u in units.items() if u and c in df.columns})
+
+
+def without_money_unit(df: pd.DataFrame, currency: str) -> pd.DataFrame:
+    """``df`` with the ``_<currency>`` ending taken off its column names (a file read back
+    for a report; a folder written before the columns carried it reads as it is)."""
+    end = f"_{currency}"
+    return df.rename(columns={c: c[: -len(end)] for c in df.columns
+                              if currency and isinstance(c, str) and c.endswith(end)})
+
+
+FLOAT_FORMAT = "%.12g"  # the CSV files' numbers: 12 significant digits
+
+
 def write_csv(df: pd.DataFrame, path: Path, index: bool = True) -> None:
     """CSV with text cells that could be read as formulas quoted."""
-    quote_formulas(df).to_csv(path, index=index, float_format="%.12g")
+    quote_formulas(df).to_csv(path, index=index, float_format=FLOAT_FORMAT)
+
+
+def as_written(df: pd.DataFrame) -> pd.DataFrame:
+    """``df`` with its float columns as :func:`write_csv` writes them (12 significant
+    digits), so that a check made now and a later check of the file read back agree to the
+    last digit."""
+    out = df.copy()
+    for c in out.columns:
+        if pd.api.types.is_float_dtype(out[c]):
+            out[c] = [float(FLOAT_FORMAT % v) for v in out[c].to_numpy()]
+    return out
 
 
 def _strict(obj: object) -> object:

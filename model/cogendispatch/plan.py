@@ -11,7 +11,7 @@ import pandas as pd
 
 from .baseline import NoBaselineError, practice_baseline, savings
 from .errors import SolveError
-from .outputs import atomic_dir, check_out_dir, output_kind, write_csv, write_json
+from .outputs import as_written, atomic_dir, check_out_dir, output_kind, with_money_units, write_csv, write_json
 from .plant.load import load_site
 from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
@@ -102,7 +102,9 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     prices = hourly_prices(lm, lm.schedule) if lm.schedule is not None else None
     rep.seconds["prices"] = time.perf_counter() - t1
     say("re-checking the schedule with IAPWS-IF97 physics")
-    ver = verify_schedule(cfg, series, res.schedule, moisture_limit)
+    # the schedule as schedule.csv will hold it: `cogen verify` on the folder then finds
+    # the same figures to the last digit instead of rewriting them with 1e-10 changes
+    ver = verify_schedule(cfg, series, as_written(res.schedule), moisture_limit)
     summary = summary_dict(rep, res, cfg, series, str(site_path), str(series_path))
     summary["verify"] = ver.summary()
     say(f"verification: {ver.verdict}")
@@ -183,7 +185,8 @@ def write_plan_files(run: PlanRun, d: Path) -> None:
     write_csv(res.schedule, d / "schedule.csv")
     write_csv(res.balances, d / "balances.csv", index=False)
     write_csv(res.power, d / "power.csv", index=False)
-    write_csv(res.hourly_cost, d / "costs.csv")
+    cur = str(run.summary.get("currency", ""))
+    write_csv(with_money_units(res.hourly_cost, {c: cur for c in res.hourly_cost.columns}), d / "costs.csv")
     if run.verification is not None:
         write_csv(run.verification.hourly, d / "verify.csv")
         write_csv(run.verification.sections, d / "verify_sections.csv", index=False)

@@ -224,10 +224,12 @@ def _mass_note(cfg: SiteConfig, hourly: pd.DataFrame) -> str:
     t = col.abs().idxmax()
     if abs(col[t]) < MASS_CLOSE:
         return f"; header mass balances close within {MASS_CLOSE:g} t/h"
-    note = f"; header mass balances close within {abs(col[t]):.2f} t/h ({worst.id}"
-    part = hourly.loc[t, f"{worst.id}_exhaust_water_t_h"]
+    note = f"; largest header mass imbalance {col[t]:+.2f} t/h ({worst.id} at {t}"
+    part = float(hourly.loc[t, f"{worst.id}_exhaust_water_t_h"])
     if abs(part) >= 0.5 * abs(col[t]) and any(tg.no_load_loss > 0 for tg in cfg.turbogenerators):
-        note += (f"; turbine exhausts left hotter by the Willans loss, which the linear model lets leave "
-                 f"the cycle, take {part:+.2f} t/h more desuperheating water")
+        # the parts named so that they add up to the figure before them
+        note += (f": {part:+.2f} t/h of desuperheating water for turbine exhausts left hotter by the "
+                 f"Willans loss, which the linear model lets leave the cycle, and {col[t] - part:+.2f} t/h "
+                 "from the rest")
     return note + ")"
 

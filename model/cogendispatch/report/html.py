@@ -9,6 +9,7 @@ from pathlib import Path
 import pandas as pd
 
 from . import plots
+from ..outputs import without_money_unit
 from ..units import convert
 
 T_H_TO_KLB_H = 1.0 / convert(1.0, "klb/h", "mass_flow")  # [klb/h per t/h]
@@ -71,7 +72,8 @@ def plan_report(d: Path, units: Units = Units()) -> str:
     sched = pd.read_csv(d / "schedule.csv", index_col="time", parse_dates=["time"])
     bal = pd.read_csv(d / "balances.csv", parse_dates=["time"])
     pw = pd.read_csv(d / "power.csv", parse_dates=["time"])
-    cost = pd.read_csv(d / "costs.csv", index_col="time", parse_dates=["time"])
+    cost = without_money_unit(pd.read_csv(d / "costs.csv", index_col="time", parse_dates=["time"]),
+                              str(s.get("currency", "")))
     cur = escape(str(s.get("currency", "")))
     sec = s.get("seconds", {})
     meta = (f"{escape(s.get('site_name', ''))} &middot; {s['hours']} h from {escape(str(s.get('first_hour')))} &middot; "
@@ -160,8 +162,8 @@ def plan_report(d: Path, units: Units = Units()) -> str:
 def study_report(d: Path, units: Units = Units()) -> str:
     """The study page, built from the files of a study folder."""
     s = json.loads((d / "summary.json").read_text(encoding="utf-8"))
-    table = pd.read_csv(d / "scenarios.csv")
-    monthly = pd.read_csv(d / "monthly.csv")
+    table = without_money_unit(pd.read_csv(d / "scenarios.csv"), str(s.get("currency", "")))
+    monthly = without_money_unit(pd.read_csv(d / "monthly.csv"), str(s.get("currency", "")))
     costs = table.set_index("scenario")[[c for c in table.columns if c.startswith("cost_") and c != "cost_total"]]
     costs.columns = [c[5:] for c in costs.columns]
     cur = escape(str(s.get("currency", "currency")))
