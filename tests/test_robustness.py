@@ -358,3 +358,29 @@ def test_ctrl_c_stops_a_study_without_running_its_queued_scenarios(tmp_path, ctr
     assert proc.returncode == 130
     assert waited < 10.0
     assert not out.exists()
+
+
+def test_a_silent_highs_step_gets_a_progress_note(tmp_path, monkeypatch) -> None:  # noqa: ANN001
+    """HiGHS calls back between its steps, not within its sub-searches (up to 36 s on the
+    demo week): after QUIET_NOTE s without a call back the plan says it is still at work;
+    a call back resets the count."""
+    from cogendispatch import solve as solve_mod
+    from cogendispatch.plant.load import load_site
+    from cogendispatch.plant.series import load_series
+
+    site, ser = _files(tmp_path)
+    cfg = load_site(site)
+    lm = solve_mod.LoadedModel(build_site_model(cfg, load_series(ser, cfg)))
+    monkeypatch.setattr(solve_mod, "QUIET_NOTE", 1.0)
+    said: list[str] = []
+    with lm._quiet_notes(said.append):
+        time.sleep(2.6)  # a silent step
+    assert len(said) in (1, 2) and said[0].startswith("still solving: no word from HiGHS for")
+    said.clear()
+    with lm._quiet_notes(said.append):
+        for _ in range(5):  # HiGHS calling back every 0.5 s: nothing to say
+            time.sleep(0.5)
+            lm.last_callback = time.perf_counter()
+    assert said == []
+    lm._run(10.0)  # a run calls back (the MIP interrupt, simplex iterations): the clock moves
+    assert time.perf_counter() - lm.last_callback < 1.0

@@ -34,6 +34,10 @@ Progress = Callable[[str], None]
 SEARCH_SHARE_MAX = 30.0  # [s] most of a plan's time limit held back for HiGHS's own search
 SEARCH_LP_TIMES = 2.5  # held back at least this many times the LP relaxation's time [-]
 QUICK_LIMIT = 10.0  # [s] below this, a solve from a guessed start adds no reserve rows
+# [s] of silence from HiGHS after which the plan says it is still at work: HiGHS calls back
+# between its steps but not within its own sub-searches (sub-MIPs) or an LP, which on the
+# demo week ran 7 to 36 s (measured here)
+QUIET_NOTE = 10.0
 HINT_FREE_HOURS = 6  # [h] first hours a guessed start leaves free to join the initial state (ramps)
 # HiGHS's options for the main branch and bound. No restart: on the demo week HiGHS restarts
 # once, after its root cuts, when under 1 % of the columns are fixed, and then solves the
@@ -203,6 +207,7 @@ class LoadedModel:
         self.lp_seconds: float | None = None  # [s] of the last rounding start's LP relaxation
         self.fixed_duals: np.ndarray | None = None  # row duals of the last _fixed_run(keep_duals=True)
         self.stop: threading.Event | None = None  # set: every run of this instance stops soon
+        self.last_callback = time.perf_counter()  # [perf_counter s] of HiGHS's last call back
         self._mip_cb: Callable[..., None] | None = None  # a plan's MIP callback (_callbacks)
         self._listen()
         self.load_seconds = time.perf_counter() - t0
@@ -216,6 +221,7 @@ class LoadedModel:
     def _on_callback(self, callback_type, message, data_out, data_in, user_data) -> None:  # noqa: ANN001
         """Stop any run on Ctrl-C or when :attr:`stop` is set (the helper search, when the
         main search ends); hand a MIP's callbacks on to the plan's (:meth:`_callbacks`)."""
+        self.last_callback = time.perf_counter()
         if callback_type in _INTERRUPTS:
             # set either way: HiGHS keeps the flag from an interrupted run into the next one
             data_in.user_interrupt = _INTERRUPTED.is_set() or (self.stop is not None and self.stop.is_set())
@@ -582,7 +588,8 @@ class LoadedModel:
             self._callbacks(best, progress, helper=helper is not None)
             # with a start in hand the search may get as little as is left; without one, 1 s
             remaining = max(0.1 if start is not None else 1.0, options.time_limit - (time.perf_counter() - t0))
-            self._run(remaining, gap=options.gap)
+            with self._quiet_notes(progress):
+                self._run(remaining, gap=options.gap)
             if helper is not None and best.get()[0] is None and self.h.getInfo().primal_solution_status != 2:
                 # a short limit ran out before any schedule: let the helper finish its start,
                 # as the one-thread path would (its LP may take the whole limit)
@@ -661,6 +668,35 @@ class LoadedModel:
                 progress(f"improving the start ({start_obj:,.0f}) unit by unit")
             start, start_obj = self.improve(start, start_obj, budget)
         return start, start_obj
+
+    @contextlib.contextmanager
+    def _quiet_notes(self, progress: Progress | None) -> Iterator[None]:
+        """While the block runs, a line through ``progress`` each time HiGHS has been silent
+        for :data:`QUIET_NOTE` s, so a long sub-search does not look like a hang."""
+        if progress is None:
+            yield
+            return
+        done = threading.Event()
+        self.last_callback = time.perf_counter()
+
+        def watch() -> None:
+            said = 0.0
+            while not done.wait(1.0):
+                now = time.perf_counter()
+                quiet = now - self.last_callback
+                if quiet >= QUIET_NOTE and now - said >= QUIET_NOTE:
+                    said = now
+                    progress(f"still solving: no word from HiGHS for {quiet:.0f} s (it reports between its "
+                             "steps, not within one of its sub-searches or an LP; Ctrl-C takes effect when "
+                             "the step ends)")
+
+        watcher = threading.Thread(target=watch, name="cogen-quiet-notes", daemon=True)
+        watcher.start()
+        try:
+            yield
+        finally:
+            done.set()
+            watcher.join()
 
     def _callbacks(self, best: Incumbent, progress: Progress | None, helper: bool = False) -> None:
         """HiGHS's MIP callbacks for one run: progress every 2 s; with a ``helper`` beside
