@@ -150,7 +150,7 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
     for kind, items in tables.items():
         for k, item in enumerate(items):
             if item.id in seen:
-                bad(f"[[{kind}]] #{k + 1} > id", f"duplicated id '{item.id}' (also a {seen[item.id]})")
+                bad(f"[[{kind}]] #{k + 1} (id '{item.id}') > id", f"duplicated id '{item.id}' (also a {seen[item.id]})")
             else:
                 seen[item.id] = kind
 
@@ -158,8 +158,12 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
     condensers = {c.id: c for c in cfg.condensers}
     fuels = {f.id: f for f in cfg.fuels}
 
+    # a unit named as the reader of the file names it (see _location): its table, its place
+    # among the tables of that kind, and its id
+    place = {(kind, item.id): k for kind, items in tables.items() for k, item in enumerate(items)}
+
     def where(kind: str, uid: str, key: str) -> str:
-        return f"[[{kind}]] '{uid}' > {key}"
+        return f"[[{kind}]] #{place[(kind, uid)] + 1} (id '{uid}') > {key}"
 
     def need_header(kind: str, uid: str, key: str, ref: str) -> bool:
         if ref not in headers:
@@ -211,7 +215,7 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
             continue
         p_prev = headers[t.inlet].pressure
         for k, sec in enumerate(t.sections):
-            key = f"section #{k + 1} > to"
+            key = f"[[section]] #{k + 1} > to"
             last = k == len(t.sections) - 1
             if sec.to in headers:
                 p_to = headers[sec.to].pressure
@@ -229,15 +233,15 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                     f"'{sec.to}' at {p_to:.2f} bar(a) is not below the previous point at {p_prev:.2f} bar(a): steam cannot expand upwards")
             p_prev = p_to
             if sec.efficiency is None and t.envelope is None:
-                bad(where("turbogenerator", t.id, f"section #{k + 1} > efficiency"),
+                bad(where("turbogenerator", t.id, f"[[section]] #{k + 1} > efficiency"),
                     "required unless the turbine gives an 'envelope'")
             if last and sec.max_extraction is not None:
-                bad(where("turbogenerator", t.id, f"section #{k + 1} > max_extraction"), "the last section exhausts; use max_flow")
+                bad(where("turbogenerator", t.id, f"[[section]] #{k + 1} > max_extraction"), "the last section exhausts; use max_flow")
             if sec.max_extraction is not None and sec.min_extraction > sec.max_extraction:
-                bad(where("turbogenerator", t.id, f"section #{k + 1} > min_extraction"),
+                bad(where("turbogenerator", t.id, f"[[section]] #{k + 1} > min_extraction"),
                     f"min_extraction {sec.min_extraction:g} t/h exceeds max_extraction {sec.max_extraction:g} t/h")
             if sec.max_flow is not None and sec.min_flow > sec.max_flow:
-                bad(where("turbogenerator", t.id, f"section #{k + 1} > min_flow"),
+                bad(where("turbogenerator", t.id, f"[[section]] #{k + 1} > min_flow"),
                     f"min_flow {sec.min_flow:g} t/h exceeds max_flow {sec.max_flow:g} t/h")
         if t.min_throttle > t.max_throttle:
             bad(where("turbogenerator", t.id, "min_throttle"), f"min_throttle {t.min_throttle:g} t/h exceeds max_throttle {t.max_throttle:g} t/h")
@@ -255,7 +259,7 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                         f"'{key}' is not an extraction of this turbine (extractions: {', '.join(sorted(extr)) or 'none'})")
             for k, sec in enumerate(t.sections):
                 if sec.efficiency is not None:
-                    bad(where("turbogenerator", t.id, f"section #{k + 1} > efficiency"),
+                    bad(where("turbogenerator", t.id, f"[[section]] #{k + 1} > efficiency"),
                         "not used with an 'envelope', which sets the power and so the exhaust states: give one or the other")
             _check_envelope_work(t, {**{c: v.pressure for c, v in condensers.items()},
                                      **{hid: v.pressure for hid, v in headers.items()}}, headers, bad, where)
