@@ -373,3 +373,36 @@ def test_a_what_if_price_never_imports_and_exports_at_once() -> None:
     assert min(imp, exp) < 1e-6, (imp, exp)
     a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(price_import=0.0))
     assert a.what_if["cost"] == pytest.approx(st.cost, rel=1e-9)
+
+
+def test_driver_history_counts_hours_since_the_last_change() -> None:
+    """Hours a machine has kept its driver before the hour, from the plan's rows (joined
+    to the site file's state before the horizon when it never changed), and the hours the
+    minimum time between changes still holds it (HCFP 8 h, AIRB 24 h in the demo)."""
+    import pandas as pd
+
+    from cogendispatch.cli import _driver_change
+    from cogendispatch.decisions import driver_history
+    from cogendispatch.plant.load import load_site
+    from conftest import DEMO_DIR
+
+    cfg = load_site(DEMO_DIR / "saltmarsh_refinery.toml")
+    cfg = cfg.model_copy(update={"drives": [d.model_copy(update={"initial_on_steam": 0, "initial_hours_since_switch": 3.0})
+                                            if d.id == "AIRB" else d for d in cfg.drives]})
+    hcfp = [0] * 5 + [1] * 20  # HCFP to steam at hour 5
+    sched = pd.DataFrame({"HCFP.on_steam": hcfp, "AIRB.on_steam": [0] * 25})
+    h = driver_history(cfg, 9, sched)
+    assert (h["HCFP"].before, h["HCFP"].hours, h["HCFP"].held_for()) == (1, 4.0, 4)  # hours 5 to 8
+    assert driver_history(cfg, 13, sched)["HCFP"].held_for() == 0  # 8 h served
+    # AIRB on motor since the plan began, 3 h before it (site file): 9 + 3 h of its 24
+    assert (h["AIRB"].hours, h["AIRB"].held_for()) == (12.0, 12)
+    # HCFP has no driver before the plan in the demo site: only the plan's hours count
+    assert driver_history(cfg, 3, sched)["HCFP"].hours == 3.0
+    # the first hour: the site file alone; without a plan a later hour is unknown
+    assert driver_history(cfg, 0, None)["AIRB"].held_for() == 21 and "HCFP" not in driver_history(cfg, 0, None)
+    assert driver_history(cfg, 9, None) == {}
+    row = {"better": "motor", "count": 1, "on_steam_hour_before": 1, "switch_held_h": 4.0}
+    assert _driver_change(pd.Series(row), "?") == "not allowed for 4 h"
+    assert _driver_change(pd.Series({**row, "better": "steam"}), "?") == "none needed (held 4 h)"
+    assert _driver_change(pd.Series({**row, "switch_held_h": 0.0}), "?") == "allowed"
+    assert _driver_change(pd.Series({**row, "switch_held_h": float("nan")}), "?") == "?"

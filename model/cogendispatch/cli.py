@@ -309,6 +309,9 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
         given = ", as given (before the what-if below)" if a.what_if else ""
         _table(out, f"Marginal prices at {a.time} (hour cost {a.cost:,.0f} {cur}{given})", pr)
         if not a.drivers.empty:
+            # why a machine's drivers before the hour may be unknown
+            unknown = ("unknown (give --plan)" if args.plan is None and a.time != str(series.time[0])
+                       else "unknown (no driver before the first hour in the site file)")
             dt = a.drivers[["machine", "now_on_steam", "cost_on_steam", "cost_on_motor", "saving", "better",
                             "flip_import_price", "marginal_estimate"]].copy()
             # a choice that leaves demand or the reserve short is priced by a penalty: say so
@@ -319,8 +322,10 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                                             r[f"{drv}_reserve_short_t_h"] > 1e-4)) if hit]
                 if marks:
                     dt.loc[i, "better"] = f"{r['better']} ({'; '.join(marks)}: the saving includes its penalty)"
+                dt.loc[i, "change"] = _driver_change(r, unknown)
             dt.columns = ["machine", "now on steam", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
-                          f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", f"marginal estimate [{cur}/MWh]"]
+                          f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", f"marginal estimate [{cur}/MWh]",
+                          "driver change (minimum time between changes)"]
             _table(out, "Turbine or motor" + (" (hour as given)" if a.what_if else ""),
                    dt.astype(object).where(dt.notna(), "none in range"))
         if a.what_if:
@@ -350,6 +355,19 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
             err.print(f"[bold red]not met:[/bold red] {escape(a.reasons[h])}", highlight=False)
         return EXIT_SHORT
     return EXIT_OK
+
+
+def _driver_change(r: pd.Series, unknown: str) -> str:
+    """Whether the site's minimum time between driver changes allows the better driver
+    this hour, from the driver table's row ``r``; ``unknown`` when the drivers before the
+    hour are not known."""
+    held, before = r["switch_held_h"], r["on_steam_hour_before"]
+    if held != held or before is None or before != before:  # NaN: no history before the hour
+        return unknown
+    needs = (r["better"] == "steam" and before < r["count"]) or (r["better"] == "motor" and before > 0)
+    if held <= 0:
+        return "allowed"
+    return f"not allowed for {held:.0f} h" if needs else f"none needed (held {held:.0f} h)"
 
 
 def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:

@@ -14,6 +14,7 @@ the model is built and loaded once per hour of advice.
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
@@ -238,19 +239,69 @@ def hour_index(series: Series, at: str, path: str) -> int:
     return int(hits[0])
 
 
+@dataclass(frozen=True)
+class DriverHistory:
+    """A dual-driver machine's drivers before the hour: ``before`` machines on steam in the
+    hour before, for ``hours`` [h] (since the last change; may include the site file's
+    ``initial_hours_since_switch``), and ``min_hours`` [h] between changes."""
+
+    before: int
+    hours: float
+    min_hours: int
+
+    def held_for(self) -> int:
+        """Hours [h] before a change from ``before`` is allowed (0: it may change now)."""
+        return 0 if self.hours >= self.min_hours else int(math.ceil(self.min_hours - self.hours - 1e-9))
+
+
+def driver_history(cfg: SiteConfig, index: int, sched: pd.DataFrame | None) -> dict[str, DriverHistory]:
+    """Each dual-driver machine's drivers before hour ``index``: from the plan's schedule
+    rows before that hour (``sched``, the plan starting at the series' first hour), joined
+    to the site file's state before the horizon; for the first hour, from the site file
+    alone. Machines whose history is unknown (a later hour without a plan, or no initial
+    driver in the site file) are left out."""
+    from .equipment.common import whole_hours
+
+    out: dict[str, DriverHistory] = {}
+    for d in cfg.drives:
+        if d.steam_turbine is None or d.motor is None:
+            continue
+        L = whole_hours(d.min_hours_between_switches)
+        init = d.initial_on_steam
+        if index == 0:
+            if init is not None:
+                out[d.id] = DriverHistory(init, d.initial_hours_since_switch, L)
+            continue
+        if sched is None or f"{d.id}.on_steam" not in sched:
+            continue
+        v = sched[f"{d.id}.on_steam"].to_numpy()[:index].round().astype(int)
+        last = int(v[-1])
+        n = len(v) - (int(np.flatnonzero(v != last)[-1]) + 1 if (v != last).any() else 0)
+        if n == len(v):  # the same since the plan began: add the time before it, if known
+            if init is None:  # unknown before the plan: only its own hours count
+                n_before = 0.0
+            else:
+                n_before = d.initial_hours_since_switch if init == last else 0.0
+            out[d.id] = DriverHistory(last, n + n_before, L)
+        else:
+            out[d.id] = DriverHistory(last, float(n), L)
+    return out
+
+
 def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | None,
-                build: BuildOptions = BuildOptions()) -> tuple[dict[str, int], dict[str, int] | None]:
-    """On/off states to hold (and the plan's drivers) at hour ``index``.
+                build: BuildOptions = BuildOptions()
+                ) -> tuple[dict[str, int], dict[str, int] | None, dict[str, DriverHistory]]:
+    """On/off states to hold, the plan's drivers and the drivers' history at hour ``index``.
 
     From ``plan_dir/schedule.csv`` when given; otherwise from the hour optimised alone with
-    the site file's initial states.
+    the site file's initial states (the drivers' history then known for the first hour only).
     """
     units = [u.id for u in (*cfg.boilers, *cfg.turbogenerators)]
     if plan_dir is None:
         hm = HourModel(cfg, series, index, {u.id: int(u.initial_on) for u in (*cfg.boilers, *cfg.turbogenerators)},
                        build)
         st = hm.solve(hold="none")
-        return st.on, None
+        return st.on, None, driver_history(cfg, index, None)
     path = Path(plan_dir) / "schedule.csv"
     try:
         sched = pd.read_csv(path, index_col="time", parse_dates=["time"])
@@ -271,7 +322,8 @@ def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | Non
                          "was it made for another site?")
     on = {u: int(round(float(row[f"{u}.on"]))) for u in units}
     drivers = {d.id: int(round(float(row[f"{d.id}.on_steam"]))) for d in cfg.drives if f"{d.id}.on_steam" in row}
-    return on, drivers
+    pos = int(idx.get_loc(t))
+    return on, drivers, driver_history(cfg, index, sched.iloc[pos - index:pos] if pos >= index else None)
 
 
 def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
@@ -359,11 +411,14 @@ def marginal_flip_estimate(cfg: SiteConfig, d: Drive, prices: dict[str, float],
 
 
 def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
-                 tol: float = 0.5) -> pd.DataFrame:
+                 history: dict[str, DriverHistory] | None = None, tol: float = 0.5) -> pd.DataFrame:
     """One row per dual-driver machine: cost of the hour on steam and on motor (full
     re-solves), the saving, the import price at which the answer flips (bracketing and
     bisection to ``tol`` [currency/MWh], each step two full re-solves) and the marginal
-    estimate beside it. Sorted by saving."""
+    estimate beside it; with the machine's ``history``, the driver of the hour before and
+    ``switch_held_h``, the hours before the site's minimum time between driver changes
+    allows a change from it (0: allowed now; NaN: history unknown). Sorted by saving."""
+    history = history or {}
     rows = []
     p0 = hm.base_import
     for d in hm.cfg.drives:
@@ -382,6 +437,8 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
             "marginal_estimate": est,
             "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
             "steam_reserve_short_t_h": on_steam.reserve_short, "motor_reserve_short_t_h": on_motor.reserve_short,
+            "on_steam_hour_before": history[d.id].before if d.id in history else None,
+            "switch_held_h": float(history[d.id].held_for()) if d.id in history else float("nan"),
         })
     df = pd.DataFrame(rows)
     if not df.empty:
@@ -485,7 +542,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
 
     t0 = _time.perf_counter()
     i = hour_index(series, at, series_path)
-    held, plan_drivers = held_states(cfg, series, i, plan_dir, build)
+    held, plan_drivers, history = held_states(cfg, series, i, plan_dir, build)
     _check_what_if(cfg, what_if)
     if allow_starts and what_if is not None and what_if.trip:
         raise InputError(None, "--allow-starts", "does not go with --trip: after a trip no other unit can "
@@ -495,7 +552,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     prices, power_price, x = hm.marginal_prices()
     reasons, pw_reason = price_reasons(hm, x)
     now = plan_drivers if plan_drivers is not None else base.on_steam
-    drivers = driver_table(hm, now, prices)
+    drivers = driver_table(hm, now, prices, history)
     wi = None
     if what_if is not None and not what_if.empty():
         # the change is measured against the hour as held; the what-if holds it too unless
