@@ -230,7 +230,7 @@ def test_advice_never_replaces_a_plan_folder(tmp_path, capsys) -> None:  # noqa:
     before = _digest(plan)
     rc = main(["advise", str(site), "--series", str(ser), "--at", "2027-03-01T05:00", "--out", str(plan)])
     err = capsys.readouterr().err
-    assert rc == 2 and "holds cogendispatch plan results, which advice results would replace" in err
+    assert rc == 2 and "holds a plan from cogendispatch, which advice would replace" in err
     assert _digest(plan) == before
 
 
@@ -406,3 +406,19 @@ def test_driver_history_counts_hours_since_the_last_change() -> None:
     assert _driver_change(pd.Series({**row, "better": "steam"}), "?") == "none needed (held 4 h)"
     assert _driver_change(pd.Series({**row, "switch_held_h": 0.0}), "?") == "allowed"
     assert _driver_change(pd.Series({**row, "switch_held_h": float("nan")}), "?") == "?"
+
+
+def test_what_if_names_a_surplus_nothing_can_take(tmp_path, capsys) -> None:  # noqa: ANN001
+    """500 t/h pushed into the LP header (a negative demand) is more than the vent and
+    every user can take: the what-if names the surplus, not only the penalty it costs."""
+    import json
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1] / "plant_configs"
+    rc = main(["advise", str(root / "saltmarsh_refinery.toml"), "--series", str(root / "saltmarsh_week.csv"),
+               "--at", "2027-01-05T10:00", "--demand", "LP=-500", "--json"])
+    assert rc == 0  # a question, not the plant's state (README)
+    wi = json.loads(capsys.readouterr().out)["what_if"]
+    assert wi["surplus"] is True
+    line = next(c for c in wi["changes"] if "LP header SURPLUS" in c)
+    assert float(line.split("SURPLUS ")[1].split(" ")[0]) > 100.0

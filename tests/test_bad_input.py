@@ -79,6 +79,10 @@ SITE_CASES = [
     # --- keys
     pytest.param(sub("blowdown = 0.02", "blowdwn = 0.02"),
                  ["[[boiler]] #4 (id 'B4') > blowdwn", "unknown key"], id="unknown-key"),
+    pytest.param(sub("[reserve]", "[reserv]"),
+                 ["[reserv]: unknown table (tables: boiler, condenser, deaerator", "reserve, site"], id="unknown-table"),
+    pytest.param(sub('currency = "EUR"', "currency = 5"),
+                 ["[site] > currency", "5 is not text in quotes"], id="top-table-named-as-in-toml"),
     pytest.param(sub('max_steam = "60 t/h"\n', ""),
                  ["[[boiler]] #4 (id 'B4') > max_steam", "required key is missing"], id="missing-required-key"),
     pytest.param(lambda t: re.sub(r"(?ms)^\[grid\]$.*?(?=^\[reserve\]$)", "", t),
@@ -205,12 +209,34 @@ def test_bad_site_is_refused(edit: Edit, expected: list[str], demo_site: Path, t
     _assert_refused(rc, capsys, demo_site.name, expected, tmp_path / "out")
 
 
+def test_a_duplicated_id_is_reported_alone(demo_site: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """Two headers called HP: the references to HP are not checked against the wrong one
+    (that once added a false steam-rate error for a drive from HP to LP)."""
+    demo_site.write_text(sub('id = "MP"', 'id = "HP"')(demo_site.read_text(encoding="utf-8")), encoding="utf-8")
+    rc = main(["inspect", str(demo_site)])
+    err = capsys.readouterr().err
+    assert rc == 2 and "[[header]] #2 (id 'HP') > id: duplicated id 'HP' (also a header)" in err
+    assert "steam_rate" not in err and "unknown header" not in err
+
+
 def test_bad_site_is_refused_by_plan_before_writing(demo_site: Path, demo_series: Path, tmp_path: Path,
                                                     capsys: pytest.CaptureFixture[str]) -> None:
     demo_site.write_text(sub('max_steam = "120 t/h"', 'max_steam = "120 bar"')(demo_site.read_text()))
     out = tmp_path / "out"
     rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out)])
     _assert_refused(rc, capsys, demo_site.name, ["[[boiler]] #1 (id 'B1') > max_steam"], out)
+
+
+def test_a_workbook_whose_first_sheet_is_not_the_series_names_that_sheet(demo_series: Path, demo_site: Path,
+                                                                         tmp_path: Path,
+                                                                         capsys: pytest.CaptureFixture[str]) -> None:
+    book = tmp_path / "series.xlsx"
+    with pd.ExcelWriter(book) as w:
+        pd.DataFrame({"note": ["read me first"]}).to_excel(w, sheet_name="README", index=False)
+        pd.read_csv(demo_series, dtype=str).to_excel(w, sheet_name="hours", index=False)
+    out = tmp_path / "out"
+    rc = main(["plan", str(demo_site), "--series", str(book), "--out", str(out)])
+    _assert_refused(rc, capsys, book.name, ["missing column 'time'", "first sheet, 'README'"], out)
 
 
 def test_excel_cells_are_named_as_typed(demo_site: Path, demo_series: Path, tmp_path: Path,
@@ -317,10 +343,10 @@ SERIES_CASES = [
     pytest.param(cell(3, LOAD, ""), [f"row 5, column '{LOAD}'", "empty cell"], id="empty-cell"),
     pytest.param(cell(2, IMPORT, "nan"), [f"row 4, column '{IMPORT}'", "'nan' is not a finite number"], id="nan-text"),
     pytest.param(cell(2, IMPORT, "inf"), [f"row 4, column '{IMPORT}'", "not a finite number"], id="inf-text"),
-    pytest.param(cell(10, LOAD, "-5"), ["row 12, column 'load'", "must not be negative"], id="negative-load"),
+    pytest.param(cell(10, LOAD, "-5"), [f"row 12, column '{LOAD}'", "must not be negative"], id="negative-load"),
     pytest.param(cell(4, LP, "1e300"), [f"row 6, column '{LP}'", "beyond any plant"], id="huge-cell"),
     pytest.param(add_column("duty:FANS [kW]", "300", row=3, row_value="-10"),
-                 ["row 5, column 'duty:FANS'", "must not be negative"], id="negative-duty"),
+                 ["row 5, column 'duty:FANS [kW]'", "must not be negative"], id="negative-duty"),
     # --- columns
     pytest.param(lambda df: df.drop(columns=LOAD), ["header row", "site electric load", "load [MW]"],
                  id="missing-load-column"),
@@ -339,8 +365,11 @@ SERIES_CASES = [
                  ["column 'price:fuel:COAL [per GJ]'", "unknown fuel 'COAL'"], id="price-unknown-fuel"),
     pytest.param(add_column("duty:XYZ [kW]", "100"), ["column 'duty:XYZ [kW]'", "unknown drive 'XYZ'"],
                  id="duty-unknown-drive"),
-    pytest.param(add_column("load [kW]", "30000"), ["column 'load [kW]'", "duplicated column"],
-                 id="duplicated-column"),
+    pytest.param(add_column("load [kW]", "30000"), ["column 'load [kW]'", f"a second column for what '{LOAD}' gives"],
+                 id="second-column-for-the-same"),
+    # the same heading twice: named as written, not as the reader renames it ('load [MW].1')
+    pytest.param(lambda df: (df.insert(len(df.columns), LOAD, df[LOAD], allow_duplicates=True), df)[1],
+                 ["header row", f"column '{LOAD}' appears twice"], id="repeated-heading"),
     pytest.param(lambda df: df.iloc[:0], ["no rows"], id="header-only"),
 ]
 
@@ -359,6 +388,8 @@ def test_bad_series_is_refused(edit: Frame, expected: list[str], demo_site: Path
     pytest.param("missing.csv", None, ["file not found"], id="missing-file"),
     pytest.param("empty.csv", lambda p: p.write_bytes(b""), ["cannot read the table"], id="empty-file"),
     pytest.param("folder", lambda p: p.mkdir(), ["is a folder; give the series file"], id="a-folder"),
+    pytest.param("text.xlsx", lambda p: p.write_text("time,load [MW]\n"),
+                 ["cannot be read as an Excel workbook", "save it again"], id="not-a-workbook"),
 ])
 def test_unreadable_series_is_refused(name: str, make: Callable[[Path], object] | None, expected: list[str],
                                       demo_site: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
@@ -517,4 +548,10 @@ def test_inspect_csv_writes_a_folder_it_may_replace(demo_site: Path, tmp_path: P
     f = tmp_path / "taken.csv"
     f.write_text("x\n")
     assert main(["inspect", str(demo_site), "--csv", str(f)]) == 2
-    assert "exists and is not a folder" in capsys.readouterr().err and f.read_text() == "x\n"
+    err = capsys.readouterr().err
+    assert "--csv: exists and is not a folder" in err and "--out" not in err and f.read_text() == "x\n"
+    other = tmp_path / "other"
+    other.mkdir()
+    (other / "notes.txt").write_text("mine")
+    assert main(["inspect", str(demo_site), "--csv", str(other)]) == 2
+    assert "--csv: is a non-empty folder" in capsys.readouterr().err

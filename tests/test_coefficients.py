@@ -82,6 +82,15 @@ def test_inspect_tables_show_fuels_and_grid_as_read():
     for f in cfg.fuels:
         assert fuels.loc[f.id, "price_EUR_GJ"] == f.price and fuels.loc[f.id, "co2_t_GJ"] == f.co2_factor
     assert fuels.loc["RFG", "burned_by"] == " ".join(b.id for b in cfg.boilers if "RFG" in b.fuels)
+    # what a planner checks a coefficient against: the headers a drive turbine works between,
+    # a set's throttle range and rating, a letdown's range
+    drv = tabs["drives"].set_index("drive")
+    airb = next(d for d in cfg.drives if d.id == "AIRB")
+    assert (drv.loc["AIRB", "inlet"], drv.loc["AIRB", "exhaust"]) == (airb.steam_turbine.inlet, airb.steam_turbine.exhaust)
+    tg2 = next(t for t in cfg.turbogenerators if t.id == "TG2")
+    first = tabs["turbines"].set_index(["turbine", "section"]).loc[("TG2", 1)]
+    assert (first.max_throttle_t_h, first.generator_rating_MW) == (tg2.max_throttle, tg2.generator_rating)
+    assert tabs["letdowns"].max_flow_t_h.tolist() == [ld.max_flow for ld in cfg.letdowns]
     g = tabs["grid"].iloc[0]
     assert (g.max_import_MW, g.max_export_MW, g.min_import_MW) == (cfg.grid.max_import, cfg.grid.max_export,
                                                                    cfg.grid.min_import)

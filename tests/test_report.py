@@ -66,7 +66,12 @@ def test_workbook_reads_back_like_the_csv_files(plan_dir: Path) -> None:
                                   pd.read_csv(plan_dir / "power.csv").drop(columns="time"), check_dtype=False)
     s = json.loads((plan_dir / "summary.json").read_text())
     summ = xl["summary"].set_index("quantity")["value"]
-    assert float(summ["objective"]) == pytest.approx(s["objective"])
+    cur = s["currency"]
+    assert float(summ[f"objective_{cur}"]) == pytest.approx(s["objective"])
+    # every money row names the currency, and the categories add up to the total
+    assert [q for q in summ.index if q.startswith("cost_") and not q.endswith(f"_{cur}")] == []
+    parts = [float(summ[f"cost_{k}_{cur}"]) for k in s["cost"]]
+    assert sum(parts) == pytest.approx(float(summ[f"cost_total_{cur}"]))
     wb = load_workbook(plan_dir / "plan.xlsx")
     assert wb["schedule"].freeze_panes == "B2"
     assert any(c.number_format == "#,##0.000" for row in wb["schedule"].iter_rows(min_row=2) for c in row)

@@ -384,3 +384,17 @@ def test_a_silent_highs_step_gets_a_progress_note(tmp_path, monkeypatch) -> None
     assert said == []
     lm._run(10.0)  # a run calls back (the MIP interrupt, simplex iterations): the clock moves
     assert time.perf_counter() - lm.last_callback < 1.0
+
+
+def test_ctrl_c_while_starting_exits_quietly(tmp_path) -> None:  # noqa: ANN001
+    """Ctrl-C during the command's start-up imports (about a second) exits 130 with one line
+    and no traceback, as Ctrl-C later does; it once printed a traceback through scipy."""
+    code = "from cogendispatch.entry import run; run()"
+    proc = subprocess.Popen([sys.executable, "-c", code, "inspect", str(ROOT / "plant_configs/saltmarsh_refinery.toml")],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            preexec_fn=_default_sigint_in_child)
+    time.sleep(0.3)  # inside the imports (pandas, Pyomo, HiGHS take a second or more)
+    proc.send_signal(signal.SIGINT)
+    out, err = proc.communicate(timeout=60)
+    assert proc.returncode == 130, (out, err)
+    assert "Traceback" not in err and "interrupted" in err

@@ -225,6 +225,13 @@ def test_study_reports_shortfalls_like_a_plan(capsys) -> None:  # noqa: ANN001
     # the peak straddles a window edge: each window names its short headers, with dates
     assert r.diagnosis and all("header short" in d and "2027-03-01 1" in d for d in r.diagnosis)
     assert any("binding in hour" in d and "at its" in d for d in r.diagnosis)
+    # hours counted in the whole series (10 to 12), not from each window's start
+    import re
+    covered = set()
+    for d in r.diagnosis:
+        for a, b in re.findall(r"\bhours? (\d+)(?:-(\d+))? \(", d):
+            covered |= set(range(int(a), int(b or a) + 1))
+    assert covered == {10, 11, 12}
 
 
 def test_round_off_is_no_shortfall_hour() -> None:

@@ -529,7 +529,7 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
             # the marker lets a later inspect replace this folder and nothing else
             write_json({"kind": "coefficients", "site": str(Path(args.site).resolve())}, tmp / "summary.json")
 
-        atomic_dir(args.csv, write, kind="coefficients")
+        atomic_dir(args.csv, write, kind="coefficients", option="--csv")
     return EXIT_OK
 
 
@@ -568,7 +568,7 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
         status = (f"optimal within the {100 * args.gap:g} % gap asked" if s["status"] == "optimal" and s["gap"] > 1e-9
                   else s["status"])
         out.print(f"status {status}, gap {100 * s['gap']:.3f} %, cost {s['objective']:,.0f} {cur}, "
-                  f"bound {s['bound']:,.0f}; fuel {s['fuel_total_GJ'] * u.ke:,.0f} {u.energy}, "
+                  f"bound {s['bound']:,.0f} {cur}; fuel {s['fuel_total_GJ'] * u.ke:,.0f} {u.energy}, "
                   f"import {s['import_MWh']:,.0f} MWh, export {s['export_MWh']:,.0f} MWh, CO2 {s['co2_t']:,.0f} t")
         out.print(f"time: build {sec['build']:.2f} s, load {sec['load']:.2f} s, start {sec['start']:.2f} s, "
                   f"solve {sec['solve']:.2f} s, total {sec['total']:.2f} s; schedule found by {s['found_by']}")

@@ -33,7 +33,7 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
         for load, eta in zip(b.efficiency_curve.load, b.efficiency_curve.efficiency):
             s = load * b.max_steam
             f = s * co.heat_per_t / eta
-            brows.append({"boiler": b.id, "load": load, "steam_t_h": s, "efficiency": eta, "fuel_GJ_h": f,
+            brows.append({"boiler": b.id, "load_fraction": load, "steam_t_h": s, "efficiency": eta, "fuel_GJ_h": f,
                           "fuel_GJ_per_t": f / s, "model_fuel_GJ_h": boiler_mod.fuel_at(co, s),
                           "heat_to_steam_GJ_per_t": co.heat_per_t, "curve": curve})
     boilers = pd.DataFrame(brows)
@@ -47,7 +47,9 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
         loss = tg.no_load_loss if tg.envelope is None else tg.envelope.no_load
         for k, sec in enumerate(co.sections):
             arrival = None if sec.to_condenser else st.arrival_ratio(sec.outlet.h, sec.to)
-            trows.append({"turbine": tg.id, "kind": co.kind, "section": k + 1, "to": sec.to,
+            limits = ({"min_throttle_t_h": tg.min_throttle, "max_throttle_t_h": tg.max_throttle,
+                       "generator_rating_MW": tg.generator_rating} if k == 0 else {})
+            trows.append({"turbine": tg.id, "kind": co.kind, "section": k + 1, "to": sec.to, **limits,
                           "p_out_bar_a": sec.p_out, "isentropic_drop_kJ_kg": sec.drop_s,
                           "efficiency": sec.efficiency, "shaft_kW_per_t_h": 1000 * sec.mw_per_tph,
                           "shaft_steam_rate_kg_kWh": sec.steam_rate,
@@ -60,8 +62,11 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
     drows = []
     for d in cfg.drives:
         co = drive_mod.coefficients(d, st)
+        st_ = d.steam_turbine
         row = {"drive": d.id, "count": d.count, "duty_kW": 1000 * d.duty,
                "drivers": "steam+motor" if co.dual else ("steam" if co.steam_rate else "motor"),
+               "inlet": st_.inlet if st_ else None, "exhaust": st_.exhaust if st_ else None,
+               "min_h_between_changes": d.min_hours_between_switches if co.dual else None,
                "steam_rate_kg_kWh": co.steam_rate, "efficiency": co.efficiency,
                "steam_t_h_per_machine": (co.steam_rate * d.duty) if co.steam_rate else None,
                "exhaust_h_kJ_kg": co.exhaust_h,
@@ -75,7 +80,8 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
     for ld in cfg.letdowns:
         r = outlet_ratio(ld, st)
         out = state_pT(st.headers[ld.to].p, st.headers[ld.to].T) if st.headers[ld.to].superheat > 0 else st.headers[ld.to]
-        lrows.append({"letdown": ld.id, "from": ld.source, "to": ld.to, "outlet_t_per_t": r,
+        lrows.append({"letdown": ld.id, "from": ld.source, "to": ld.to, "min_flow_t_h": ld.min_flow,
+                      "max_flow_t_h": ld.max_flow, "outlet_t_per_t": r,
                       "water_t_per_t": r - 1.0, "valve_outlet_h_kJ_kg": st.headers[ld.source].h,
                       "header_h_kJ_kg": out.h})
     letdowns = pd.DataFrame(lrows)

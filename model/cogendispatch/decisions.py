@@ -63,6 +63,8 @@ class HourState:
     short: dict[str, float]
     power_short: float
     reserve_short: float = 0.0  # [t/h] of the one-boiler-trip reserve not kept
+    surplus: dict[str, float] = field(default_factory=dict)  # [t/h] steam no unit can take, per header
+    power_surplus: float = 0.0  # [MW] generation beyond load and the export limit
     penalty: float = 0.0  # [currency] the hour's "penalty" cost: every slack at its price
 
 
@@ -185,6 +187,8 @@ class HourModel:
             vent={vt.id: v(self.blocks[vt.id].flow[0]) for vt in self.cfg.vents},
             short={hh.id: v(m.steam_short[hh.id, 0]) for hh in self.cfg.headers},
             power_short=v(m.power_short[0]),
+            surplus={hh.id: v(m.steam_surplus[hh.id, 0]) for hh in self.cfg.headers},
+            power_surplus=v(m.power_surplus[0]),
             reserve_short=v(m.reserve_short[0]) if m.component("reserve_short") is not None else 0.0,
             penalty=sum(price * v(var) for var, price in self.penalty_terms),
         )
@@ -511,8 +515,13 @@ def what_if_changes(base: HourState, new: HourState) -> list[str]:
     for h, s in new.short.items():
         if s > 1e-4:
             out.append(f"{h} header SHORT {s:.2f} t/h")
+    for h, s in new.surplus.items():
+        if s > 1e-4:
+            out.append(f"{h} header SURPLUS {s:.2f} t/h that nothing can take")
     if new.power_short > 1e-4:
         out.append(f"electric bus SHORT {new.power_short:.2f} MW")
+    if new.power_surplus > 1e-4:
+        out.append(f"electric bus SURPLUS {new.power_surplus:.2f} MW beyond load and export")
     return out
 
 
@@ -577,6 +586,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
               "changes": notes + what_if_changes(base_free, new),
               "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4,
+              "surplus": any(s > 1e-4 for s in new.surplus.values()) or new.power_surplus > 1e-4,
               "reserve_short_t_h": new.reserve_short,
               "penalty_change": new.penalty - base_free.penalty,
               "asked": {**asdict(what_if), "allow_starts": allow_starts}}

@@ -27,34 +27,39 @@ def output_kind(d: Path) -> str | None:
     return str(summary.get("kind", "plan")) if isinstance(summary, dict) else None
 
 
-def check_out_dir(out: Path, kind: str = "plan") -> None:
+# what each kind of output folder holds, in the messages about it
+_KIND_WORDS = {"plan": "a plan", "study": "a study", "advice": "advice", "coefficients": "inspect tables"}
+
+
+def check_out_dir(out: Path, kind: str = "plan", option: str = "--out") -> None:
     """Refuse, before any work, a folder that is not an earlier cogendispatch output of the
     same ``kind`` (a plan is never replaced by one hour's advice) or that cannot be written:
     the results go into a temporary folder beside it, so one is made and removed again in
-    the nearest folder that exists."""
+    the nearest folder that exists. Messages name the folder as the ``option`` that gave it."""
     if out.exists() and not out.is_dir():
-        raise InputError(out, "--out", "exists and is not a folder")
+        raise InputError(out, option, "exists and is not a folder")
     if out.is_dir() and any(out.iterdir()):
         held = output_kind(out)
         if held is None:
-            raise InputError(out, "--out", "is a non-empty folder that does not hold cogendispatch results; "
+            raise InputError(out, option, "is a non-empty folder that does not hold cogendispatch results; "
                              "choose a new or empty folder (nothing was written)")
         if held != kind:
-            raise InputError(out, "--out", f"holds cogendispatch {held} results, which {kind} results would "
-                             "replace; choose another folder (nothing was written)")
+            raise InputError(out, option, f"holds {_KIND_WORDS.get(held, held)} from cogendispatch, which "
+                             f"{_KIND_WORDS.get(kind, kind)} would replace; choose another folder (nothing was written)")
     base = out.parent
     while not base.exists() and base != base.parent:
         base = base.parent
     if not base.is_dir():
-        raise InputError(out, "--out", f"cannot be made: '{base}' is not a folder (nothing was written)")
+        raise InputError(out, option, f"cannot be made: '{base}' is not a folder (nothing was written)")
     try:
         os.rmdir(tempfile.mkdtemp(prefix=f".{out.name}.probe-", dir=base))
     except OSError as exc:
-        raise InputError(out, "--out", f"cannot be written in '{base}': {exc.strerror or exc} "
+        raise InputError(out, option, f"cannot be written in '{base}': {exc.strerror or exc} "
                          "(nothing was written)") from None
 
 
-def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan") -> Path:
+def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan",
+               option: str = "--out") -> Path:
     """Call ``write(tmp)`` to fill a temporary folder, then put it in place of ``out`` (an
     earlier output of the same ``kind``, see :func:`check_out_dir`).
 
@@ -62,12 +67,12 @@ def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan
     renames on the same file system.
     """
     out = Path(out).resolve()
-    check_out_dir(out, kind)
+    check_out_dir(out, kind, option)
     try:
         out.parent.mkdir(parents=True, exist_ok=True)
         tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
     except OSError as exc:
-        raise InputError(out, "--out", f"cannot be written: {exc.strerror or exc} (nothing was written)") from None
+        raise InputError(out, option, f"cannot be written: {exc.strerror or exc} (nothing was written)") from None
     # mkdtemp makes the folder private (0700); results are for the whole team, so it gets
     # the mode any new folder would get under the user's umask
     mask = os.umask(0)

@@ -222,10 +222,11 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False, header: str | Non
     return out
 
 
-def diagnose(sm: SiteModel, upto: int | None = None) -> list[str]:
+def diagnose(sm: SiteModel, upto: int | None = None, first: int = 0) -> list[str]:
     """Name each header (or the electric bus, or the reserve) that is short, when, by how
     much, and the equipment limits binding at the worst hour; only hours before ``upto``
-    when given (a rolling window's committed part)."""
+    when given (a rolling window's committed part). Hours are numbered from ``first``
+    (a window's first hour in the whole series), as the user counts them."""
     m, ctx = sm.model, sm.ctx
     hours, time = ctx.hours[:upto], ctx.series.time
     msgs = []
@@ -236,14 +237,14 @@ def diagnose(sm: SiteModel, upto: int | None = None) -> list[str]:
             peak = values[a:b + 1].max()
             worst = a + int(np.argmax(values[a:b + 1]))
             if a == b:
-                span = f"hour {a} ({time[a]:%Y-%m-%d %H:%M})"
+                span = f"hour {first + a} ({time[a]:%Y-%m-%d %H:%M})"
             else:
-                span = f"hours {a}-{b} ({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M})"
+                span = f"hours {first + a}-{first + b} ({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M})"
             msg = f"{what} {peak:.2f} {unit} at most in {span}; {hint}"
             if limits:
                 bind = binding_limits(sm, worst, power, header)
                 if bind:
-                    msg += f"; binding in hour {worst}: " + ", ".join(bind)
+                    msg += f"; binding in hour {first + worst}: " + ", ".join(bind)
             msgs.append(msg)
 
     for h in ctx.cfg.headers:

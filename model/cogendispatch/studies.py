@@ -218,7 +218,7 @@ class ScenarioResult:
     hourly_cost: pd.DataFrame
     shortfall_hours: int
     windows: list[WindowReport] = field(default_factory=list)
-    diagnosis: list[str] = field(default_factory=list)  # as for a plan; hours counted per window
+    diagnosis: list[str] = field(default_factory=list)  # as for a plan; hours of the whole series
 
 
 def carry_states(cfg: SiteConfig, sched: pd.DataFrame, prev: SiteConfig) -> SiteConfig:
@@ -304,7 +304,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
         last_lm, last_x = lm, lm.schedule
         # the schedule and costs only: a study writes no balances
         schedule, hourly = schedule_frame(sm), cost_frame(sm)
-        diagnosis += diagnose(sm, keep)
+        diagnosis += diagnose(sm, keep, first=s0)
         sched = schedule.iloc[:keep]
         scheds.append(sched)
         costs.append(hourly.iloc[:keep])

@@ -20,7 +20,8 @@ _TABLE_NAMES = {
 
 
 def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
-    """Turn a pydantic error location into 'boiler 'B2' (2nd [[boiler]]) > max_steam'."""
+    """Turn a pydantic error location into "[[boiler]] #2 (id 'B2') > max_steam" or
+    "[grid] > max_import"."""
     parts: list[str] = []
     node = raw
     i = 0
@@ -45,8 +46,10 @@ def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
             node = item
             i += 2
             continue
-        parts.append(name)
-        node = node.get(name, node.get(key)) if isinstance(node, dict) else None
+        child = node.get(name, node.get(key)) if isinstance(node, dict) else None
+        # a table at the top of the file as TOML writes it ([site], [grid]); a key as it is
+        parts.append(f"[{name}]" if i == 0 and isinstance(child, dict) else name)
+        node = child
         i += 1
     return " > ".join(parts) if parts else "(top level)"
 
@@ -71,7 +74,10 @@ def validation_problems(path: Path, raw: dict[str, Any], err: ValidationError) -
         loc = tuple(x for x in e["loc"] if not (isinstance(x, str) and x.startswith("function-")))
         msg = e["msg"]
         kind, ctx, given = e["type"], e.get("ctx") or {}, e.get("input")
-        if kind == "extra_forbidden":
+        if kind == "extra_forbidden" and len(loc) == 1 and isinstance(given, (dict, list)):
+            known = ", ".join(sorted(f.alias or name for name, f in SiteConfig.model_fields.items()))
+            msg = f"unknown table (tables: {known})"
+        elif kind == "extra_forbidden":
             msg = "unknown key (check the spelling; the project's plant_configs/ folder has a complete example)"
         elif kind == "missing" and len(loc) == 1 and loc[0] in _TOP_TABLES:
             msg = _TOP_TABLES[str(loc[0])]
@@ -153,6 +159,8 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                 bad(f"[[{kind}]] #{k + 1} (id '{item.id}') > id", f"duplicated id '{item.id}' (also a {seen[item.id]})")
             else:
                 seen[item.id] = kind
+    if problems:  # references to a duplicated id would be checked against the wrong unit
+        return problems
 
     headers = {h.id: h for h in cfg.headers}
     condensers = {c.id: c for c in cfg.condensers}

@@ -66,11 +66,28 @@ _KIND = {
 
 
 def _read_table(path: Path) -> pd.DataFrame:
+    """The table's cells as typed (strings); an Excel workbook's first sheet, whose name
+    is kept in ``attrs["sheet"]``."""
+    excel = path.suffix.lower() in (".xlsx", ".xlsm", ".xls")
     try:
-        if path.suffix.lower() in (".xlsx", ".xlsm", ".xls"):
+        if excel:
+            try:
+                book = pd.ExcelFile(path)
+            except (FileNotFoundError, IsADirectoryError):
+                raise
+            except Exception as exc:  # noqa: BLE001  the reader's own words would not help here
+                raise InputError(path, "", f"cannot be read as an Excel workbook ({type(exc).__name__}); save it "
+                                 "again from the spreadsheet as .xlsx, or as CSV") from None
+            sheet = str(book.sheet_names[0])
             # cells as typed: pandas would turn 'n/a', 'NA' and blanks alike into NaN
-            return pd.read_excel(path, dtype=str, sheet_name=0, na_filter=False)
-        return pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+            raw = pd.read_excel(book, sheet_name=sheet, dtype=str, na_filter=False)
+            first = pd.read_excel(book, sheet_name=sheet, header=None, nrows=1, dtype=str, na_filter=False)
+            raw.attrs["sheet"] = sheet
+        else:
+            raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+            first = pd.read_csv(path, header=None, nrows=1, dtype=str, keep_default_na=False, skipinitialspace=True)
+    except InputError:
+        raise
     except FileNotFoundError:
         raise InputError(path, "", "file not found") from None
     except IsADirectoryError:
@@ -78,6 +95,12 @@ def _read_table(path: Path) -> pd.DataFrame:
     except Exception as exc:  # parser errors from pandas/openpyxl come in many types
         why = " ".join(str(exc).split())  # parser messages carry line breaks
         raise InputError(path, "", f"cannot read the table ({type(exc).__name__}: {why})") from None
+    # the reader renames a repeated heading ('load [MW].1'): name the heading as written
+    names = [str(x).strip() for x in (first.iloc[0] if len(first) else [])]
+    repeated = [n for i, n in enumerate(names) if n and n in names[:i]]
+    if repeated:
+        raise InputError(path, "header row", f"column '{repeated[0]}' appears twice")
+    return raw
 
 
 def load_series(path: str | Path, site: SiteConfig) -> Series:
@@ -104,13 +127,16 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
         raise InputError(path, "", "no rows")
     cols = [str(c) for c in raw.columns]
     if "time" not in cols:
-        raise InputError(path, "header row", "missing column 'time'")
+        sheet = raw.attrs.get("sheet")
+        where = f" (read from the workbook's first sheet, '{sheet}': the series must be the first sheet)" if sheet else ""
+        raise InputError(path, "header row", "missing column 'time'" + where)
     time = _parse_time(raw["time"], path)
 
     headers = {h.id for h in site.headers}
     fuels = {f.id for f in site.fuels}
     drives = {d.id for d in site.drives}
     values: dict[tuple[str, str], pd.Series] = {}
+    written: dict[tuple[str, str], str] = {}  # each column's heading as written, for messages
     for col in cols:
         if col == "time":
             continue
@@ -138,8 +164,9 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
             raise InputError(path, f"column '{col}'", str(exc)) from None
         key = (kind, ref)
         if key in values:
-            raise InputError(path, f"column '{col}'", "duplicated column")
+            raise InputError(path, f"column '{col}'", f"a second column for what '{written[key]}' gives")
         values[key] = _numeric(raw[col], path, col) * scale + offset
+        written[key] = col
 
     n = len(time)
     idx = time
@@ -159,7 +186,8 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
     load = col_or("load", "", None, "the site electric load, e.g. 'load [MW]'")
     if (load < 0).any():
         row = int(np.argmax(load.to_numpy() < 0))
-        raise InputError(path, f"row {row + 2}, column 'load'", "the site electric load must not be negative")
+        raise InputError(path, f"row {row + 2}, column '{written[('load', '')]}'",
+                         "the site electric load must not be negative")
     price_import = col_or("price:import", "", None, "the import price, e.g. 'price:import [per MWh]'")
     price_export = col_or("price:export", "", 0.0, "")
     fuel_price = pd.DataFrame({f.id: col_or("price:fuel", f.id, f.price, "") for f in site.fuels}, index=idx)
@@ -168,7 +196,8 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
     for d in site.drives:
         if (duty[d.id] < 0).any():
             row = int(np.argmax(duty[d.id].to_numpy() < 0))
-            raise InputError(path, f"row {row + 2}, column 'duty:{d.id}'", "duty must not be negative")
+            raise InputError(path, f"row {row + 2}, column '{written.get(('duty', d.id), 'duty:' + d.id)}'",
+                             "duty must not be negative")
     return Series(time=idx, demand=demand, load=load, price_import=price_import, price_export=price_export,
                   fuel_price=fuel_price, co2_price=co2, duty=duty, source=str(path))
 

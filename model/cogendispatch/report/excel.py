@@ -43,11 +43,17 @@ def _read(path: Path, index: str | None = None) -> pd.DataFrame:
 def write_plan_xlsx(d: Path, path: Path) -> None:
     """plan.xlsx from a plan folder's files."""
     s = json.loads((d / "summary.json").read_text(encoding="utf-8"))
+    cur = s.get("currency", "")
+    money = f"_{cur}" if cur else ""  # money named with its currency, as in the CSV files
+    base = s.get("baseline", {})
     summary = pd.DataFrame(
-        [("status", s["status"]), ("objective", s["objective"]), ("bound", s["bound"]), ("gap", s["gap"]),
-         ("currency", s.get("currency", "")), ("hours", s["hours"]), ("fuel_total_GJ", s["fuel_total_GJ"]),
+        [("status", s["status"]), (f"objective{money}", s["objective"]), (f"bound{money}", s["bound"]),
+         ("gap", s["gap"]), ("currency", cur), ("hours", s["hours"]), ("fuel_total_GJ", s["fuel_total_GJ"]),
          ("import_MWh", s["import_MWh"]), ("export_MWh", s["export_MWh"]), ("co2_t", s["co2_t"])]
-        + [(f"cost_{k}", v) for k, v in s["cost"].items()]
+        + [(f"cost_{k}{money}", v) for k, v in s["cost"].items()]
+        + [(f"cost_total{money}", s.get("cost_total", sum(s["cost"].values())))]
+        + ([(f"baseline_cost_total{money}", base["cost_total"]),
+            (f"saving_total{money}", base["saving"]["total"]["saving"])] if "saving" in base else [])
         + ([("verification", s["verify"]["verdict"])] if "verify" in s else []),
         columns=["quantity", "value"])
     drivers = pd.DataFrame([{"machine": k, "machine_hours_on_steam_h": v["steam"], "machine_hours_on_motor_h": v["motor"]}

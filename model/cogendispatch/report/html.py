@@ -179,7 +179,11 @@ def study_report(d: Path, units: Units = Units()) -> str:
     cols = ["scenario", "cost_total", "fuel_GJ", "import_MWh", "export_MWh", "co2_t", "boiler_starts", "shortfall_hours"]
     tab = table[[c for c in cols if c in table]].copy()
     if "fuel_GJ" in tab:
-        tab[f"fuel [{units.energy}]"] = tab.pop("fuel_GJ") * units.ke
+        tab["fuel_GJ"] = tab["fuel_GJ"] * units.ke
+    # one style of heading, with the unit in brackets, as the page's other tables
+    tab = tab.rename(columns={"cost_total": f"cost [{cur}]", "fuel_GJ": f"fuel [{units.energy}]",
+                              "import_MWh": "import [MWh]", "export_MWh": "export [MWh]", "co2_t": "CO2 [t]",
+                              "boiler_starts": "boiler starts", "shortfall_hours": "hours short"})
     body.append("<h2>Totals</h2>" + _table(tab))
     meta = f"{len(table)} scenario(s), {float(s.get('seconds', 0)):.0f} s"
     return _page("Budget study", meta, body, s.get("note", ""))
