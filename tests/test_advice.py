@@ -201,6 +201,10 @@ def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  #
     pr = pd.read_csv(out / "prices.csv").set_index("balance")
     adv = json.loads((out / "advice.json").read_text())
     assert set(pr.index) == {"HP", "MP", "LP", "power"} and pr.loc["power", "unit"] == "EUR/MWh"
+    # the plan's columns (time, set_by "cost" or a penalty), the reason in words beside them
+    assert list(pr.columns) == ["time", "price", "unit", "set_by", "reason"]
+    assert set(pr.set_by) <= {"cost", "shortfall penalty", "surplus penalty", "reserve penalty"}
+    assert pr.loc["power", "reason"].startswith("grid import")
     drv = pd.read_csv(out / "drivers.csv")  # money columns name the currency, as the prices' unit column does
     assert {"cost_on_steam_EUR", "saving_EUR", "flip_import_price_EUR_MWh", "marginal_estimate_EUR_MWh"} <= set(drv.columns)
     assert (drv.saving_EUR >= 0).all()
@@ -265,6 +269,7 @@ def test_advice_on_a_plan_made_from_another_series_says_so(tmp_path, capsys) -> 
     (["--at", "2027-01-05T10:00", "--price", "import=90 per t"], "--price"),
     (["--at", "2027-01-05T10:00", "--demand", "LP=+20", "--demand", "LP=+5"], "given twice"),
     (["--at", "2027-01-05T10:00", "--force", "CWP=steam", "--force", "CWP=motor"], "given twice"),
+    (["--at", "2027-01-05T10:00", "--trip", "TG1", "--trip", "TG1"], "--trip: 'TG1' is given twice"),
 ])
 def test_cli_advise_bad_options_exit_2(args: list[str], where: str, capsys) -> None:  # noqa: ANN001
     from pathlib import Path

@@ -84,6 +84,9 @@ def test_us_units_and_rebuild(plan_dir: Path, tmp_path: Path) -> None:
     html = (d / "report.html").read_text()
     assert "klb/h" in html and "Header balances [klb/h]" in html
     assert main(["report", str(tmp_path)]) == 2  # not a plan or study folder
+    # rebuilt from the same files, the page is the same file (no random ids in its charts)
+    assert main(["report", str(d), "--units", "us"]) == 0
+    assert (d / "report.html").read_text() == html
     # the factors the page scales by: 1 lb = 0.45359237 kg exactly, 1 Btu_IT/lb = 2.326
     # kJ/kg exactly (NIST SP 811, App. B)
     from cogendispatch.report import Units

@@ -236,6 +236,9 @@ def what_if_from_args(args: argparse.Namespace) -> "WhatIf":
     """The what-if of ``cogen advise`` from its ``--force``/``--trip``/price/demand options."""
     from .decisions import WhatIf
 
+    twice = sorted({u for u in args.trip if args.trip.count(u) > 1})
+    if twice:
+        raise InputError(None, "--trip", f"'{twice[0]}' is given twice; give each once")
     w = WhatIf(force=dict(_pairs(args.force, "--force")), trip=list(args.trip))
     for k, v in _pairs(args.price, "--price"):
         if k == "import":
@@ -282,7 +285,7 @@ def _warn_other_inputs(plan: Path, site: Path, series: Path, err: Console) -> No
 
 def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     """``cogen advise``: one hour held as running, re-optimised; returns the exit code."""
-    from .decisions import advise
+    from .decisions import advise, price_category
     from .outputs import check_out_dir
     from .plant.load import load_site
     from .plant.series import load_series
@@ -306,7 +309,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                           + [{"balance": "power", "marginal price": a.power_price, "unit": f"{cur}/MWh",
                               "set by": a.power_reason.split(": ", 1)[1]}])
         # the prices and the driver table are the hour as given; the what-if is its own line
-        given = ", as given (before the what-if below)" if a.what_if else ""
+        given = " as given, before the what-if below" if a.what_if else ""
         _table(out, f"Marginal prices at {a.time} (hour cost {a.cost:,.0f} {cur}{given})", pr)
         if not a.drivers.empty:
             # why a machine's drivers before the hour may be unknown
@@ -323,6 +326,11 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                 if marks:
                     dt.loc[i, "better"] = f"{r['better']} ({'; '.join(marks)}: the saving includes its penalty)"
                 dt.loc[i, "change"] = _driver_change(r, unknown)
+            # money per hour to a tenth, prices to a tenth: one precision a column
+            for c in ("saving", "flip_import_price", "marginal_estimate"):
+                dt[c] = dt[c].astype(float).round(1)
+            for c in ("cost_on_steam", "cost_on_motor"):
+                dt[c] = dt[c].astype(float).round()
             dt.columns = ["machine", "now on steam", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
                           f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", f"marginal estimate [{cur}/MWh]",
                           "driver change (minimum time between changes)"]
@@ -337,11 +345,13 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     if args.out:
         def write(dd: Path) -> None:
             write_json(d, dd / "advice.json")
-            # the same long form as a plan's prices.csv: steam per header [per t], power [per MWh]
-            write_csv(pd.DataFrame([{"balance": h, "price": v, "unit": f"{cfg.site.currency}/t", "set_by": a.reasons[h]}
-                                    for h, v in a.prices.items()]
-                                   + [{"balance": "power", "price": a.power_price, "unit": f"{cfg.site.currency}/MWh",
-                                       "set_by": a.power_reason}]), dd / "prices.csv", index=False)
+            # the same long form as a plan's prices.csv (steam per header [per t], power [per
+            # MWh], set_by "cost" or the penalty), with the reason in words beside it
+            rows = [(h, v, f"{cur}/t", a.reasons[h]) for h, v in a.prices.items()]
+            rows.append(("power", a.power_price, f"{cur}/MWh", a.power_reason))
+            write_csv(pd.DataFrame([{"time": a.time, "balance": b, "price": v, "unit": u,
+                                     "set_by": price_category(why), "reason": why.split(": ", 1)[-1]}
+                                    for b, v, u, why in rows]), dd / "prices.csv", index=False)
             write_csv(with_money_units(a.drivers, {"cost_on_steam": cur, "cost_on_motor": cur, "saving": cur,
                                                    "flip_import_price": f"{cur}/MWh",
                                                    "marginal_estimate": f"{cur}/MWh"}),
@@ -576,7 +586,7 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
             sv = s["baseline"]["saving"]
             bt = pd.DataFrame([{"category": k, f"practice [{cur}]": float(round(v["baseline"])),
                                 f"optimised [{cur}]": float(round(v["optimised"])), f"saving [{cur}]": float(round(v["saving"])),
-                                "saving [%]": v["saving_pct"]} for k, v in sv.items()])
+                                "saving [%]": round(v["saving_pct"], 1) + 0.0} for k, v in sv.items()])
             _table(out, "Against the practice baseline", bt)
             if s["baseline"]["diagnosis"]:
                 out.print(Text("the practice baseline itself leaves demand unmet: "

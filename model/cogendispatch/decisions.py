@@ -380,7 +380,11 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
                 if reason:
                     break
         out[hid] = reason or f"{hid}: no single unit is marginal (the units serving it sit at limits)"
-    if free(m.grid.imp[0], cfg.grid.min_import, cfg.grid.max_import):
+    if val(m.power_short[0]) > 1e-6:
+        pw = "power: short, priced at the shortfall penalty"
+    elif val(m.power_surplus[0]) > 1e-6:
+        pw = "power: surplus beyond load and export, priced at the surplus penalty"
+    elif free(m.grid.imp[0], cfg.grid.min_import, cfg.grid.max_import):
         pw = "power: grid import at the hour's import price"
     elif free(m.grid.exp[0], 0.0, cfg.grid.max_export):
         pw = "power: grid export at the hour's export price"
@@ -391,6 +395,15 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
                 pw = f"power: turbo-generator {tg.id} (the steam it takes, priced in its headers)"
                 break
     return out, pw
+
+
+def price_category(reason: str) -> str:
+    """What sets a price, in the words of a plan's ``prices.csv`` ``set_by`` column: "cost",
+    or the penalty that sets it ("shortfall penalty", "surplus penalty", "reserve penalty")."""
+    for kind in ("shortfall penalty", "surplus penalty"):
+        if kind in reason:
+            return kind
+    return "reserve penalty" if "reserve" in reason and "penalty" in reason else "cost"
 
 
 def marginal_flip_estimate(cfg: SiteConfig, d: Drive, prices: dict[str, float],

@@ -15,6 +15,8 @@ import pandas as pd  # noqa: E402
 plt.rcParams.update({
     "svg.fonttype": "none", "font.size": 9, "axes.spines.top": False, "axes.spines.right": False,
     "axes.grid": True, "grid.color": "#dfe3e8", "grid.linewidth": 0.6, "legend.frameon": False,
+    # clip-path ids from the content, not at random: a rebuilt page is the same file
+    "svg.hashsalt": "cogendispatch",
 })
 # our own palette: deep teal, ochre, slate, brick, moss, plum, sand, steel
 PALETTE = ["#1f6f78", "#d19a2e", "#5b6770", "#b5523b", "#6a8d3a", "#7d4e7e", "#c9b27c", "#4a7fb0",
