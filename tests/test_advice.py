@@ -381,9 +381,10 @@ def test_a_what_if_price_never_imports_and_exports_at_once() -> None:
 
 
 def test_driver_history_counts_hours_since_the_last_change() -> None:
-    """Hours a machine has kept its driver before the hour, from the plan's rows (joined
-    to the site file's state before the horizon when it never changed), and the hours the
-    minimum time between changes still holds it (HCFP 8 h, AIRB 24 h in the demo)."""
+    """Hours each machine position has kept its driver before the hour, from the plan's rows
+    (joined to the site file's state before the horizon when it never changed), and the hours
+    the minimum time between changes still holds a change (HCFP 8 h, AIRB 24 h, BFWP two
+    machines, 4 h, in the demo), as drive.py's per-position rows hold them."""
     import pandas as pd
 
     from cogendispatch.cli import _driver_change
@@ -392,25 +393,37 @@ def test_driver_history_counts_hours_since_the_last_change() -> None:
     from conftest import DEMO_DIR
 
     cfg = load_site(DEMO_DIR / "saltmarsh_refinery.toml")
-    cfg = cfg.model_copy(update={"drives": [d.model_copy(update={"initial_on_steam": 0, "initial_hours_since_switch": 3.0})
-                                            if d.id == "AIRB" else d for d in cfg.drives]})
-    hcfp = [0] * 5 + [1] * 20  # HCFP to steam at hour 5
-    sched = pd.DataFrame({"HCFP.on_steam": hcfp, "AIRB.on_steam": [0] * 25})
+    given = {"AIRB": 0, "BFWP": 2}  # drivers before the horizon, 3 h since the last change
+    cfg = cfg.model_copy(update={"drives": [d.model_copy(update={"initial_on_steam": given[d.id],
+                                                                 "initial_hours_since_switch": 3.0})
+                                            if d.id in given else d for d in cfg.drives]})
+    bfwp_L = next(d for d in cfg.drives if d.id == "BFWP").min_hours_between_switches
+    assert bfwp_L == 4.0
+    sched = pd.DataFrame({"HCFP.on_steam": [0] * 5 + [1] * 20,  # to steam at hour 5
+                          "AIRB.on_steam": [0] * 25,
+                          "BFWP.on_steam": [2] * 7 + [1] * 18})  # one of two to motor at hour 7
     h = driver_history(cfg, 9, sched)
-    assert (h["HCFP"].before, h["HCFP"].hours, h["HCFP"].held_for()) == (1, 4.0, 4)  # hours 5 to 8
-    assert driver_history(cfg, 13, sched)["HCFP"].held_for() == 0  # 8 h served
-    # AIRB on motor since the plan began, 3 h before it (site file): 9 + 3 h of its 24
-    assert (h["AIRB"].hours, h["AIRB"].held_for()) == (12.0, 12)
-    # HCFP has no driver before the plan in the demo site: only the plan's hours count
-    assert driver_history(cfg, 3, sched)["HCFP"].hours == 3.0
+    assert (h["HCFP"].before, h["HCFP"].positions) == (1, ((1, 4.0),))  # hours 5 to 8
+    assert (h["HCFP"].held_for(False), h["HCFP"].held_for(True)) == (4, 0)
+    assert driver_history(cfg, 13, sched)["HCFP"].held_for(False) == 0  # 8 h served
+    # AIRB on motor since the plan began, 3 h before it (site file): 12 h of its 24
+    assert (h["AIRB"].positions, h["AIRB"].held_for(True)) == (((0, 12.0),), 12)
+    # BFWP: the first machine on steam since before the plan (9 + 3 h), the second on motor
+    # for 2 h. All on motor: only the first must change, and it may; all on steam: the
+    # second must change, held 2 h more
+    assert h["BFWP"].positions == ((1, 12.0), (0, 2.0))
+    assert (h["BFWP"].held_for(False), h["BFWP"].held_for(True)) == (0, 2)
+    # HCFP has no driver before the plan: kept since the plan began, it is free to change,
+    # as the plan's rows take it
+    assert driver_history(cfg, 3, sched)["HCFP"].held_for(True) == 0
     # the first hour: the site file alone; without a plan a later hour is unknown
-    assert driver_history(cfg, 0, None)["AIRB"].held_for() == 21 and "HCFP" not in driver_history(cfg, 0, None)
+    assert driver_history(cfg, 0, None)["AIRB"].held_for(True) == 21 and "HCFP" not in driver_history(cfg, 0, None)
     assert driver_history(cfg, 9, None) == {}
-    row = {"better": "motor", "count": 1, "on_steam_hour_before": 1, "switch_held_h": 4.0}
+    row = {"better": "motor", "count": 1, "on_steam_hour_before": 1, "motor_held_h": 4.0, "steam_held_h": 0.0}
     assert _driver_change(pd.Series(row), "?") == "not allowed for 4 h"
-    assert _driver_change(pd.Series({**row, "better": "steam"}), "?") == "none needed (held 4 h)"
-    assert _driver_change(pd.Series({**row, "switch_held_h": 0.0}), "?") == "allowed"
-    assert _driver_change(pd.Series({**row, "switch_held_h": float("nan")}), "?") == "?"
+    assert _driver_change(pd.Series({**row, "better": "steam"}), "?") == "none needed"
+    assert _driver_change(pd.Series({**row, "motor_held_h": 0.0}), "?") == "allowed"
+    assert _driver_change(pd.Series({**row, "on_steam_hour_before": float("nan")}), "?") == "?"
 
 
 def test_what_if_names_a_surplus_nothing_can_take(tmp_path, capsys) -> None:  # noqa: ANN001
@@ -427,3 +440,16 @@ def test_what_if_names_a_surplus_nothing_can_take(tmp_path, capsys) -> None:  # 
     assert wi["surplus"] is True
     line = next(c for c in wi["changes"] if "LP header SURPLUS" in c)
     assert float(line.split("SURPLUS ")[1].split(" ")[0]) > 100.0
+
+
+def test_cli_advise_exits_3_when_the_bus_is_short(tmp_path, capsys) -> None:  # noqa: ANN001
+    """A load above the import limit and every generator: the hour as given leaves the bus
+    short, which is 'demand not met' (exit 3) as a header short is."""
+    from test_plan_small import TINY_TOML
+
+    (tmp_path / "site.toml").write_text(TINY_TOML)
+    (tmp_path / "s.csv").write_text("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n"
+                                    "2027-03-01T00:00,0,20,80,50\n")
+    rc = main(["advise", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--at", "2027-03-01T00:00"])
+    err = capsys.readouterr().err
+    assert rc == 3 and "not met:" in err and "power: short" in err

@@ -71,8 +71,8 @@ def test_condenser_table_gives_the_heat_of_each_exhaust_by_cengel_example_10_8()
     assert cond["hotwell_h_kJ_kg"] == pytest.approx(137.75, rel=5e-3)
     assert cond["saturation_T_C"] == pytest.approx(32.87, abs=0.05)  # Table A-5, 5 kPa (from memory)
     assert 3.0 * 3.6 * cond["heat_MW_per_t_h"] == pytest.approx(5.806, rel=5e-3)
-    # the flow at which the 100 MW cooling capacity is reached
-    assert cond["exhaust_t_h_at_capacity"] * cond["heat_MW_per_t_h"] == pytest.approx(100.0, rel=1e-12)
+    # the exhaust flow at which the 100 MW cooling capacity is reached, from the same states
+    assert cond["exhaust_t_h_at_capacity"] == pytest.approx(100.0 * 3600.0 / (2073.0 - 137.75), rel=5e-3)
 
 
 def test_inspect_tables_show_fuels_and_grid_as_read():

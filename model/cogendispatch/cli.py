@@ -331,7 +331,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                 dt[c] = dt[c].astype(float).round(1)
             for c in ("cost_on_steam", "cost_on_motor"):
                 dt[c] = dt[c].astype(float).round()
-            dt.columns = ["machine", "now on steam", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
+            dt.columns = ["machine", "machines on steam now", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
                           f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", f"marginal estimate [{cur}/MWh]",
                           "driver change (minimum time between changes)"]
             _table(out, "Turbine or motor" + (" (hour as given)" if a.what_if else ""),
@@ -349,8 +349,9 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
             # MWh], set_by "cost" or the penalty), with the reason in words beside it
             rows = [(h, v, f"{cur}/t", a.reasons[h]) for h, v in a.prices.items()]
             rows.append(("power", a.power_price, f"{cur}/MWh", a.power_reason))
+            reserve_short = any("steam reserve" in why and "short" in why for *_, why in rows)
             write_csv(pd.DataFrame([{"time": a.time, "balance": b, "price": v, "unit": u,
-                                     "set_by": price_category(why), "reason": why.split(": ", 1)[-1]}
+                                     "set_by": price_category(why, reserve_short), "reason": why.split(": ", 1)[-1]}
                                     for b, v, u, why in rows]), dd / "prices.csv", index=False)
             write_csv(with_money_units(a.drivers, {"cost_on_steam": cur, "cost_on_motor": cur, "saving": cur,
                                                    "flip_import_price": f"{cur}/MWh",
@@ -359,10 +360,11 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
             # marker so a later run may replace this folder
             write_json({"kind": "advice", "time": a.time}, dd / "summary.json")
         atomic_dir(args.out, write, "advice")
-    short = [h for h, r in a.reasons.items() if "short" in r]
+    # the hour as given: a header, the steam reserve (named in a header's reason) or the bus
+    short = [r for r in (*a.reasons.values(), a.power_reason) if "short" in r]
     if short:
-        for h in short:
-            err.print(f"[bold red]not met:[/bold red] {escape(a.reasons[h])}", highlight=False)
+        for r in short:
+            err.print(f"[bold red]not met:[/bold red] {escape(r)}", highlight=False)
         return EXIT_SHORT
     return EXIT_OK
 
@@ -371,13 +373,18 @@ def _driver_change(r: pd.Series, unknown: str) -> str:
     """Whether the site's minimum time between driver changes allows the better driver
     this hour, from the driver table's row ``r``; ``unknown`` when the drivers before the
     hour are not known."""
-    held, before = r["switch_held_h"], r["on_steam_hour_before"]
-    if held != held or before is None or before != before:  # NaN: no history before the hour
+    before = r["on_steam_hour_before"]
+    if before is None or before != before:  # NaN: no history before the hour
         return unknown
-    needs = (r["better"] == "steam" and before < r["count"]) or (r["better"] == "motor" and before > 0)
-    if held <= 0:
-        return "allowed"
-    return f"not allowed for {held:.0f} h" if needs else f"none needed (held {held:.0f} h)"
+    if r["better"] == "steam":
+        needs, held = before < r["count"], r["steam_held_h"]
+    elif r["better"] == "motor":
+        needs, held = before > 0, r["motor_held_h"]
+    else:
+        needs, held = False, 0.0
+    if not needs:
+        return "none needed"
+    return "allowed" if held <= 0 else f"not allowed for {held:.0f} h"
 
 
 def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
@@ -525,9 +532,9 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
             key = df.columns[0]
             label = df[key].astype(str)
             if "turbine" in df and key != "turbine":  # a condenser's row per turbine exhausting into it
-                label = label + " " + df["turbine"].astype(str)
+                label = label + df["turbine"].map(lambda v: f" {v}" if isinstance(v, str) else "")
             if "section" in df:
-                label = label + "/" + df["section"].astype("Int64").astype(str)
+                label = label + df["section"].map(lambda v: f"/{int(v)}" if v == v and v is not None else "")
             wide = df.drop(columns=[key]).T
             wide.columns = label.tolist()
             wide.insert(0, "quantity", wide.index)

@@ -245,25 +245,36 @@ def hour_index(series: Series, at: str, path: str) -> int:
 
 @dataclass(frozen=True)
 class DriverHistory:
-    """A dual-driver machine's drivers before the hour: ``before`` machines on steam in the
-    hour before, for ``hours`` [h] (since the last change; may include the site file's
-    ``initial_hours_since_switch``), and ``min_hours`` [h] between changes."""
+    """A dual-driver machine's drivers before the hour, position by position (position k is
+    on steam only if k - 1 is, drive.py): ``positions[k]`` = (1 on steam or 0 on motor in
+    the hour before, hours [h] it has kept that driver), and ``min_hours`` [h] between a
+    position's changes, as the plan's turn-on/turn-off rows hold them."""
 
-    before: int
-    hours: float
+    positions: tuple[tuple[int, float], ...]
     min_hours: int
 
-    def held_for(self) -> int:
-        """Hours [h] before a change from ``before`` is allowed (0: it may change now)."""
-        return 0 if self.hours >= self.min_hours else int(math.ceil(self.min_hours - self.hours - 1e-9))
+    @property
+    def before(self) -> int:
+        """Machines on steam in the hour before."""
+        return sum(state for state, _ in self.positions)
+
+    def held_for(self, steam: bool) -> int:
+        """Hours [h] before every machine may run on steam (``steam``) or on motor: the
+        longest that a position which must change is still held (0: allowed now)."""
+        if self.min_hours <= 1:
+            return 0
+        return max([int(math.ceil(self.min_hours - hours - 1e-9)) for state, hours in self.positions
+                    if state != int(steam) and hours < self.min_hours], default=0)
 
 
 def driver_history(cfg: SiteConfig, index: int, sched: pd.DataFrame | None) -> dict[str, DriverHistory]:
-    """Each dual-driver machine's drivers before hour ``index``: from the plan's schedule
-    rows before that hour (``sched``, the plan starting at the series' first hour), joined
-    to the site file's state before the horizon; for the first hour, from the site file
-    alone. Machines whose history is unknown (a later hour without a plan, or no initial
-    driver in the site file) are left out."""
+    """Each dual-driver machine's drivers before hour ``index`` of a plan: from the plan's
+    schedule rows before it (``sched``, starting at the plan's first hour) joined to the site
+    file's state before the horizon; for the first hour, from the site file alone. A driver
+    kept since the plan began with none given before it is free to change, as the plan's own
+    rows take it (their first hour counts no change). Machines whose drivers before the hour
+    are unknown (a later hour without a plan; the first hour with no driver in the site file)
+    are left out."""
     from .equipment.common import whole_hours
 
     out: dict[str, DriverHistory] = {}
@@ -274,21 +285,25 @@ def driver_history(cfg: SiteConfig, index: int, sched: pd.DataFrame | None) -> d
         init = d.initial_on_steam
         if index == 0:
             if init is not None:
-                out[d.id] = DriverHistory(init, d.initial_hours_since_switch, L)
+                out[d.id] = DriverHistory(tuple((int(k < init), d.initial_hours_since_switch) for k in range(d.count)),
+                                          L)
             continue
-        if sched is None or f"{d.id}.on_steam" not in sched:
+        if sched is None or f"{d.id}.on_steam" not in sched or len(sched) < index:
             continue
-        v = sched[f"{d.id}.on_steam"].to_numpy()[:index].round().astype(int)
-        last = int(v[-1])
-        n = len(v) - (int(np.flatnonzero(v != last)[-1]) + 1 if (v != last).any() else 0)
-        if n == len(v):  # the same since the plan began: add the time before it, if known
-            if init is None:  # unknown before the plan: only its own hours count
-                n_before = 0.0
-            else:
-                n_before = d.initial_hours_since_switch if init == last else 0.0
-            out[d.id] = DriverHistory(last, n + n_before, L)
-        else:
-            out[d.id] = DriverHistory(last, float(n), L)
+        count = sched[f"{d.id}.on_steam"].to_numpy()[:index].round().astype(int)
+        positions = []
+        for k in range(d.count):
+            v = (count > k).astype(int)  # position k's driver hour by hour
+            last = int(v[-1])
+            changed = np.flatnonzero(v != last)
+            n = float(len(v) - (changed[-1] + 1 if len(changed) else 0))
+            if not len(changed):  # kept since the plan began: add the time before it
+                if init is None:
+                    n = float("inf")
+                elif int(k < init) == last:
+                    n += d.initial_hours_since_switch
+            positions.append((last, n))
+        out[d.id] = DriverHistory(tuple(positions), L)
     return out
 
 
@@ -326,8 +341,8 @@ def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | Non
                          "was it made for another site?")
     on = {u: int(round(float(row[f"{u}.on"]))) for u in units}
     drivers = {d.id: int(round(float(row[f"{d.id}.on_steam"]))) for d in cfg.drives if f"{d.id}.on_steam" in row}
-    pos = int(idx.get_loc(t))
-    return on, drivers, driver_history(cfg, index, sched.iloc[pos - index:pos] if pos >= index else None)
+    pos = int(idx.get_loc(t))  # the plan's own hour: it may have begun before the series
+    return on, drivers, driver_history(cfg, pos, sched)
 
 
 def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
@@ -397,13 +412,14 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
     return out, pw
 
 
-def price_category(reason: str) -> str:
-    """What sets a price, in the words of a plan's ``prices.csv`` ``set_by`` column: "cost",
-    or the penalty that sets it ("shortfall penalty", "surplus penalty", "reserve penalty")."""
+def price_category(reason: str, reserve_short: bool = False) -> str:
+    """What sets a price, as a plan's ``prices.csv`` ``set_by`` says it (prices.py): the
+    balance's own shortfall or surplus penalty, else the reserve penalty when the hour's
+    steam reserve is short (it then reaches every balance), else "cost"."""
     for kind in ("shortfall penalty", "surplus penalty"):
         if kind in reason:
             return kind
-    return "reserve penalty" if "reserve" in reason and "penalty" in reason else "cost"
+    return "reserve penalty" if reserve_short else "cost"
 
 
 def marginal_flip_estimate(cfg: SiteConfig, d: Drive, prices: dict[str, float],
@@ -432,9 +448,10 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
     """One row per dual-driver machine: cost of the hour on steam and on motor (full
     re-solves), the saving, the import price at which the answer flips (bracketing and
     bisection to ``tol`` [currency/MWh], each step two full re-solves) and the marginal
-    estimate beside it; with the machine's ``history``, the driver of the hour before and
-    ``switch_held_h``, the hours before the site's minimum time between driver changes
-    allows a change from it (0: allowed now; NaN: history unknown). Sorted by saving."""
+    estimate beside it; with the machine's ``history``, the machines on steam in the hour
+    before and ``steam_held_h`` / ``motor_held_h``, the hours before the site's minimum time
+    between driver changes lets every machine run on steam / on motor (0: allowed now; NaN:
+    history unknown). Sorted by saving."""
     history = history or {}
     rows = []
     p0 = hm.base_import
@@ -455,7 +472,8 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
             "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
             "steam_reserve_short_t_h": on_steam.reserve_short, "motor_reserve_short_t_h": on_motor.reserve_short,
             "on_steam_hour_before": history[d.id].before if d.id in history else None,
-            "switch_held_h": float(history[d.id].held_for()) if d.id in history else float("nan"),
+            "steam_held_h": float(history[d.id].held_for(True)) if d.id in history else float("nan"),
+            "motor_held_h": float(history[d.id].held_for(False)) if d.id in history else float("nan"),
         })
     df = pd.DataFrame(rows)
     if not df.empty:

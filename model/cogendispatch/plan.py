@@ -149,7 +149,10 @@ def verify_plan_dir(out: str | Path, moisture_limit: float = MOISTURE_LIMIT) -> 
     cfg = load_site(site)
     series = load_series(series_path, cfg)
     try:
-        sched = pd.read_csv(d / "schedule.csv", index_col="time", parse_dates=["time"])
+        # each number exactly as written, so the re-check meets the plan's own check of the
+        # same digits (as_written); pandas 3 does so by default and deprecates the option
+        exact = {"float_precision": "round_trip"} if int(pd.__version__.split(".")[0]) < 3 else {}
+        sched = pd.read_csv(d / "schedule.csv", index_col="time", parse_dates=["time"], **exact)
     except (FileNotFoundError, ValueError) as exc:
         raise InputError(d / "schedule.csv", "", f"cannot read the schedule ({exc})") from None
     if len(sched) != series.hours:

@@ -16,6 +16,7 @@ import math
 import signal
 import threading
 import time
+import weakref
 from dataclasses import dataclass, field
 from typing import Callable, Iterator
 
@@ -153,8 +154,11 @@ def _ctrl_c_as_flag() -> Iterator[threading.Event]:
         yield _INTERRUPTED
     finally:
         signal.signal(signal.SIGINT, previous)
-    if _INTERRUPTED.is_set():
-        _INTERRUPTED.clear()  # a later run in this process (a test, say) starts unstopped
+        hit = _INTERRUPTED.is_set()
+        # cleared on every way out: a later run in this process (the helper's, a test's)
+        # starts unstopped
+        _INTERRUPTED.clear()
+    if hit:
         raise KeyboardInterrupt
 
 
@@ -213,8 +217,19 @@ class LoadedModel:
         self.load_seconds = time.perf_counter() - t0
 
     def _listen(self) -> None:
-        """Route HiGHS's callbacks of this instance through :meth:`_on_callback`."""
-        self.h.setCallback(self._on_callback, None)
+        """Route HiGHS's callbacks of this instance through :meth:`_on_callback`.
+
+        HiGHS holds the callback on the C++ side, out of the garbage collector's sight: it
+        must hold this model weakly, or each model (and its Pyomo model) lives as long as
+        its HiGHS instance, which it keeps alive itself."""
+        me = weakref.ref(self)
+
+        def relay(callback_type, message, data_out, data_in, user_data) -> None:  # noqa: ANN001
+            model = me()
+            if model is not None:
+                model._on_callback(callback_type, message, data_out, data_in, user_data)
+
+        self.h.setCallback(relay, None)
         for kind in _INTERRUPTS:
             self.h.startCallback(kind)
 

@@ -457,7 +457,10 @@ def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: Solve
                 # Ctrl-C (or an error here): scenarios not yet started are dropped and running
                 # ones end after their window, instead of the queue running to its end
                 stop.set()
-                pool.shutdown(wait=False, cancel_futures=True)
+                # and wait for the workers here: a second shutdown (leaving the block) no
+                # longer waits, and the manager must outlive them (queued calls unpickle
+                # its proxies)
+                pool.shutdown(wait=True, cancel_futures=True)
                 raise
             _drain(queue, progress)
             return [f.result() for f in futs]

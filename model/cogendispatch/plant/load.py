@@ -48,7 +48,11 @@ def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
             continue
         child = node.get(name, node.get(key)) if isinstance(node, dict) else None
         # a table at the top of the file as TOML writes it ([site], [grid]); a key as it is
-        parts.append(f"[{name}]" if i == 0 and isinstance(child, dict) else name)
+        if i == 0 and isinstance(child, dict):
+            name = f"[{name}]"
+        elif i == 0 and isinstance(child, list) and child and all(isinstance(x, dict) for x in child):
+            name = f"[[{name}]]"  # an array of tables, as TOML writes it
+        parts.append(name)
         node = child
         i += 1
     return " > ".join(parts) if parts else "(top level)"

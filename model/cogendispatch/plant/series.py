@@ -73,15 +73,16 @@ def _read_table(path: Path) -> pd.DataFrame:
         if excel:
             try:
                 book = pd.ExcelFile(path)
-            except (FileNotFoundError, IsADirectoryError):
+            except OSError:  # not found, a folder, no permission: said below as for a CSV
                 raise
             except Exception as exc:  # noqa: BLE001  the reader's own words would not help here
                 raise InputError(path, "", f"cannot be read as an Excel workbook ({type(exc).__name__}); save it "
                                  "again from the spreadsheet as .xlsx, or as CSV") from None
-            sheet = str(book.sheet_names[0])
-            # cells as typed: pandas would turn 'n/a', 'NA' and blanks alike into NaN
-            raw = pd.read_excel(book, sheet_name=sheet, dtype=str, na_filter=False)
-            first = pd.read_excel(book, sheet_name=sheet, header=None, nrows=1, dtype=str, na_filter=False)
+            with book:
+                sheet = str(book.sheet_names[0])
+                # cells as typed: pandas would turn 'n/a', 'NA' and blanks alike into NaN
+                raw = pd.read_excel(book, sheet_name=sheet, dtype=str, na_filter=False)
+                first = pd.read_excel(book, sheet_name=sheet, header=None, nrows=1, dtype=str, na_filter=False)
             raw.attrs["sheet"] = sheet
         else:
             raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
