@@ -172,7 +172,11 @@ def test_demo_scenario_file_loads_and_changes_what_it_says() -> None:
     cfg = load_site(root / "saltmarsh_refinery.toml")
     base = load_series(root / "saltmarsh_week.csv", cfg)
     sc = {s.name: s for s in load_scenarios(root / "saltmarsh_scenarios.toml", cfg, base)}
-    assert list(sc) == ["base", "gas +30 %", "import -20 % in January, carbon +20", "LP demand +10 %, B3 overhaul"]
+    assert list(sc) == ["base", "gas +30 %", "import -20 % in January, carbon +20", "LP demand +10 %, B3 overhaul",
+                        "import and export +50 %"]
+    tight = sc["import and export +50 %"].series
+    assert tight.price_import.to_numpy() == pytest.approx(1.5 * base.price_import.to_numpy())
+    assert tight.price_export.to_numpy() == pytest.approx(1.5 * base.price_export.to_numpy())
     assert sc["gas +30 %"].series.fuel_price["NG"].to_numpy() == pytest.approx(1.3 * base.fuel_price["NG"].to_numpy())
     assert sc["import -20 % in January, carbon +20"].series.co2_price.to_numpy() == pytest.approx(
         base.co2_price.to_numpy() + 20.0)
