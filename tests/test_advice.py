@@ -452,4 +452,20 @@ def test_cli_advise_exits_3_when_the_bus_is_short(tmp_path, capsys) -> None:  # 
                                     "2027-03-01T00:00,0,20,80,50\n")
     rc = main(["advise", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--at", "2027-03-01T00:00"])
     err = capsys.readouterr().err
-    assert rc == 3 and "not met:" in err and "power: short" in err
+    assert rc == 3 and "not met:" in err and "power: short" in err and " MW, priced" in err
+
+
+def test_a_turbo_generator_trip_keeps_the_steam_reserve() -> None:
+    """The reserve covers losing a running boiler: tripping a turbo-generator (or a unit
+    already off) leaves it in force, where it once was dropped and the hour looked cheaper."""
+    from cogendispatch.plant.load import load_site
+    from cogendispatch.plant.series import load_series
+    from conftest import DEMO_DIR
+
+    cfg = load_site(DEMO_DIR / "saltmarsh_refinery.toml")
+    ser = load_series(DEMO_DIR / "saltmarsh_week.csv", cfg)
+    a = advise(cfg, ser, "2027-01-05T10:00", "<demo>", what_if=WhatIf(trip=["TG1"]))
+    text = " ".join(a.what_if["changes"])
+    assert "reserve no longer kept" not in text
+    b = advise(cfg, ser, "2027-01-05T10:00", "<demo>", what_if=WhatIf(trip=["B1"]))
+    assert a.held["B1"] == 1 and "reserve no longer kept" in " ".join(b.what_if["changes"])

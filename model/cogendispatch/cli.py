@@ -362,6 +362,9 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
         atomic_dir(args.out, write, "advice")
     # the hour as given: a header, the steam reserve (named in a header's reason) or the bus
     short = [r for r in (*a.reasons.values(), a.power_reason) if "short" in r]
+    # the reserve is one for the site, though each header's price carries it: name it once
+    short = [r for r in short if "steam reserve" not in r] + [
+        "steam reserve: " + r.split(": ", 1)[1].split(";")[0] for r in short if "steam reserve" in r][:1]
     if short:
         for r in short:
             err.print(f"[bold red]not met:[/bold red] {escape(r)}", highlight=False)

@@ -128,10 +128,15 @@ class HourModel:
         if col is not None:
             self.h.changeColBounds(col, v, v)
 
+    def trips_a_boiler(self, w: WhatIf) -> bool:
+        """Whether ``w`` trips a boiler that is running in the hour as held."""
+        return any(self.held.get(b.id) == 1 for b in self.cfg.boilers if b.id in w.trip)
+
     def _apply(self, w: WhatIf, hold: str) -> None:
-        if w.trip and len(self.reserve_rows):
-            # after a trip the site is in the contingency the reserve was kept for: the
-            # remaining boilers may use all of their rating
+        if self.trips_a_boiler(w) and len(self.reserve_rows):
+            # after a running boiler's trip the site is in the contingency the reserve was
+            # kept for: the remaining boilers may use all of their rating (a turbo-generator's
+            # trip, or a unit already off, is not that contingency)
             n = len(self.reserve_rows)
             self.h.changeRowsBounds(n, self.reserve_rows, np.full(n, -highspy.kHighsInf), np.full(n, highspy.kHighsInf))
         for uid, c in self.on_col.items():
@@ -362,7 +367,7 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
     for hh in cfg.headers:
         hid = hh.id
         if val(m.steam_short[hid, 0]) > 1e-6:
-            out[hid] = f"{hid}: short, priced at the shortfall penalty"
+            out[hid] = f"{hid}: short {val(m.steam_short[hid, 0]):.2f} t/h, priced at the shortfall penalty"
             continue
         if val(m.steam_surplus[hid, 0]) > 1e-6:
             out[hid] = f"{hid}: surplus nothing can take, priced at the surplus penalty"
@@ -396,7 +401,7 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
                     break
         out[hid] = reason or f"{hid}: no single unit is marginal (the units serving it sit at limits)"
     if val(m.power_short[0]) > 1e-6:
-        pw = "power: short, priced at the shortfall penalty"
+        pw = f"power: short {val(m.power_short[0]):.2f} MW, priced at the shortfall penalty"
     elif val(m.power_surplus[0]) > 1e-6:
         pw = "power: surplus beyond load and export, priced at the surplus penalty"
     elif free(m.grid.imp[0], cfg.grid.min_import, cfg.grid.max_import):
@@ -600,7 +605,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         base_free = hm.solve(hold="all")
         new = hm.solve(what_if, hold="on" if allow_starts else "all")
         notes = [f"{u} was already off" for u in what_if.trip if held.get(u) == 0]
-        if what_if.trip and len(hm.reserve_rows):
+        if hm.trips_a_boiler(what_if) and len(hm.reserve_rows):
             notes.append("steam reserve no longer kept: the site is in the contingency it was kept for")
         reserve_change = cfg.penalties.reserve_shortfall * (new.reserve_short - base_free.reserve_short)
         if new.reserve_short > base_free.reserve_short + 1e-4:
