@@ -285,7 +285,7 @@ def _warn_other_inputs(plan: Path, site: Path, series: Path, err: Console) -> No
 
 def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     """``cogen advise``: one hour held as running, re-optimised; returns the exit code."""
-    from .decisions import advise, price_category
+    from .decisions import advise
     from .outputs import check_out_dir
     from .plant.load import load_site
     from .plant.series import load_series
@@ -349,9 +349,8 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
             # MWh], set_by "cost" or the penalty), with the reason in words beside it
             rows = [(h, v, f"{cur}/t", a.reasons[h]) for h, v in a.prices.items()]
             rows.append(("power", a.power_price, f"{cur}/MWh", a.power_reason))
-            reserve_short = any("steam reserve" in why and "short" in why for *_, why in rows)
             write_csv(pd.DataFrame([{"time": a.time, "balance": b, "price": v, "unit": u,
-                                     "set_by": price_category(why, reserve_short), "reason": why.split(": ", 1)[-1]}
+                                     "set_by": a.set_by[b], "reason": why.split(": ", 1)[-1]}
                                     for b, v, u, why in rows]), dd / "prices.csv", index=False)
             write_csv(with_money_units(a.drivers, {"cost_on_steam": cur, "cost_on_motor": cur, "saving": cur,
                                                    "flip_import_price": f"{cur}/MWh",
@@ -360,13 +359,8 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
             # marker so a later run may replace this folder
             write_json({"kind": "advice", "time": a.time}, dd / "summary.json")
         atomic_dir(args.out, write, "advice")
-    # the hour as given: a header, the steam reserve (named in a header's reason) or the bus
-    short = [r for r in (*a.reasons.values(), a.power_reason) if "short" in r]
-    # the reserve is one for the site, though each header's price carries it: name it once
-    short = [r for r in short if "steam reserve" not in r] + [
-        "steam reserve: " + r.split(": ", 1)[1].split(";")[0] for r in short if "steam reserve" in r][:1]
-    if short:
-        for r in short:
+    if a.not_met:  # the hour as given: a header, the bus or the steam reserve short
+        for r in a.not_met:
             err.print(f"[bold red]not met:[/bold red] {escape(r)}", highlight=False)
         return EXIT_SHORT
     return EXIT_OK

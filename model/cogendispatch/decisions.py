@@ -28,6 +28,7 @@ from .equipment.common import SiteStates
 from .errors import InputError
 from .plant.schema import Drive, SiteConfig
 from .plant.series import Series
+from .prices import set_by
 from .site import BuildOptions, SiteModel, build_site_model
 from .solve import LoadedModel
 
@@ -417,16 +418,6 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
     return out, pw
 
 
-def price_category(reason: str, reserve_short: bool = False) -> str:
-    """What sets a price, as a plan's ``prices.csv`` ``set_by`` says it (prices.py): the
-    balance's own shortfall or surplus penalty, else the reserve penalty when the hour's
-    steam reserve is short (it then reaches every balance), else "cost"."""
-    for kind in ("shortfall penalty", "surplus penalty"):
-        if kind in reason:
-            return kind
-    return "reserve penalty" if reserve_short else "cost"
-
-
 def marginal_flip_estimate(cfg: SiteConfig, d: Drive, prices: dict[str, float],
                            feedwater_price: float = 0.0) -> float | None:
     """Marginal estimate of the import price at which steam and motor cost the same [currency/MWh].
@@ -573,6 +564,8 @@ class Advice:
     drivers: pd.DataFrame
     what_if: dict[str, object] | None
     seconds: float
+    set_by: dict[str, str] = field(default_factory=dict)  # per balance, as a plan's prices.csv (prices.set_by)
+    not_met: list[str] = field(default_factory=list)  # the hour as given: what is short, one line each
 
 
 def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir: str | None = None,
@@ -596,6 +589,17 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     base = hm.solve()
     prices, power_price, x = hm.marginal_prices()
     reasons, pw_reason = price_reasons(hm, x)
+    m = hm.sm.model
+
+    def val(var) -> float:  # noqa: ANN001
+        c = hm.lm.col(var)
+        return float(var.value or 0.0) if c is None else float(x[c])
+
+    categories = {b: set_by(m, val, b, 0) for b in [*reasons, "power"]}
+    # the reserve is one for the site, though each header's price carries it: named once
+    not_met = [reasons[h] for h, v in base.short.items() if v > TOL] + \
+        ([pw_reason] if base.power_short > TOL else []) + \
+        ([f"steam reserve: the steam reserve is {base.reserve_short:.2f} t/h short"] if base.reserve_short > TOL else [])
     now = plan_drivers if plan_drivers is not None else base.on_steam
     drivers = driver_table(hm, now, prices, history)
     wi = None
@@ -627,7 +631,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
               "penalty_change": new.penalty - base_free.penalty,
               "asked": {**asdict(what_if), "allow_starts": allow_starts}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
-                  _time.perf_counter() - t0)
+                  _time.perf_counter() - t0, categories, not_met)
 
 
 def _check_what_if(cfg: SiteConfig, w: WhatIf | None) -> None:

@@ -17,13 +17,30 @@ the sensitivity of the optimal cost to the right-hand side).
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Callable
 
 import numpy as np
 import pandas as pd
+import pyomo.environ as pyo
 
 if TYPE_CHECKING:
     from .solve import LoadedModel
+
+
+def set_by(m: pyo.ConcreteModel, val: Callable[[pyo.Var], float], balance: str, t: int) -> str:
+    """What sets the price of ``balance`` (a header id or "power") in hour ``t``: "cost", or
+    the penalty it carries ("shortfall penalty", "surplus penalty", "reserve penalty"), when
+    it is no cost of steam or power. ``val`` gives a variable's value in the schedule."""
+    short, surplus = (m.power_short[t], m.power_surplus[t]) if balance == "power" else \
+        (m.steam_short[balance, t], m.steam_surplus[balance, t])
+    if val(short) > 1e-6:
+        return "shortfall penalty"
+    if val(surplus) > 1e-6:
+        return "surplus penalty"
+    reserve = m.component("reserve_short")
+    if reserve is not None and val(reserve[t]) > 1e-6:
+        return "reserve penalty"
+    return "cost"
 
 
 def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> pd.DataFrame | None:
@@ -55,21 +72,7 @@ def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> p
         c = lm.col(var)
         return float(var.value or 0.0) if c is None else float(x[c])
 
-    reserve = m.component("reserve_short")
-
-    def set_by(b: str, t: int) -> str:
-        """'cost', or the penalty a price carries: then it is no cost of steam or power."""
-        short, surplus = (m.power_short[t], m.power_surplus[t]) if b == "power" else \
-            (m.steam_short[b, t], m.steam_surplus[b, t])
-        if val(short) > 1e-6:
-            return "shortfall penalty"
-        if val(surplus) > 1e-6:
-            return "surplus penalty"
-        if reserve is not None and val(reserve[t]) > 1e-6:
-            return "reserve penalty"
-        return "cost"
-
     out = [{"time": time[t], "balance": b, "price": float(dual[r]) if r is not None else float("nan"),
-            "unit": f"{cur}/MWh" if b == "power" else f"{cur}/t", "set_by": set_by(b, t)}
+            "unit": f"{cur}/MWh" if b == "power" else f"{cur}/t", "set_by": set_by(m, val, b, t)}
            for (b, t), r in rows.items()]
     return pd.DataFrame(out).sort_values(["time", "balance"], kind="stable").reset_index(drop=True)
