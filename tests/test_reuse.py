@@ -126,7 +126,8 @@ def test_a_start_from_the_week_before_that_leaves_demand_unmet_gets_a_second_sol
     calls = []
     second = studies._second_opinion
     monkeypatch.setattr(studies, "_second_opinion", lambda *a: calls.append(1) or second(*a))
-    opts = SolveOptions(gap=1e-4, time_limit=0.2, warm_start=True)  # too short to repair the guess
+    # too short to repair the guess; without settling, which would repair it first
+    opts = SolveOptions(gap=1e-4, time_limit=0.2, warm_start=True, settle=False)
     r = rolling_horizon(cfg, PreparedScenario("base", ser, ()), opts, window=48, lookahead=24)
     assert calls and r.shortfall_hours == 0
     mono = solve(build_site_model(cfg, ser), FAST)
@@ -153,3 +154,16 @@ def test_a_guessed_driver_start_keeps_the_order_of_identical_machines(monkeypatc
     x = lm.commitment_start(lambda c: want.get(c, 0), 30.0, drivers=True)
     assert x is not None and all(r is not None for r in results)
     assert all(x[lm.col(blk.on_steam[1, t])] <= x[lm.col(blk.on_steam[0, t])] + 1e-9 for t in range(24))
+
+
+def test_a_start_from_the_week_before_that_leaves_demand_unmet_is_settled(monkeypatch) -> None:  # noqa: ANN001
+    # the same guess with settling on (the default): the hours around the shortfall are
+    # searched again with the slacks held at zero, and the windows meet the demand
+    cfg = _site()
+    ser = _two_weeks(cfg)
+    monkeypatch.setattr(LoadedModel, "guess_from", lambda self, earlier, x: (lambda c: 0))
+    opts = SolveOptions(gap=1e-4, time_limit=0.2, warm_start=True)
+    r = rolling_horizon(cfg, PreparedScenario("base", ser, ()), opts, window=48, lookahead=24)
+    assert r.shortfall_hours == 0
+    mono = solve(build_site_model(cfg, ser), FAST)
+    assert float(r.hourly_cost.to_numpy().sum()) == pytest.approx(mono.objective, rel=5e-3)

@@ -28,6 +28,7 @@ from pyomo.contrib.solver.solvers.highs import Highs
 from .beside import QUICK_SWEEP_LIMIT, Incumbent, helper_search
 from .equipment.common import CommitInfo, held_value, repair_commitment, whole_hours
 from .errors import SolveError
+from .results import TOL as SLACK_TOL
 from .site import SiteModel
 from .strengthen import add_reserve_rows
 
@@ -39,6 +40,9 @@ QUICK_LIMIT = 10.0  # [s] below this, a solve from a guessed start adds no reser
 # between its steps but not within its own sub-searches (sub-MIPs) or an LP, which on the
 # demo week ran 7 to 36 s (measured here)
 QUIET_NOTE = 10.0
+# [h] either side of a shortfall freed by LoadedModel.settle_shortfalls, widest last: the
+# site's longest minimum time (the demo's air blower keeps its driver 24 h) may need the wider
+SETTLE_PADS = (12, 24)
 HINT_FREE_HOURS = 6  # [h] first hours a guessed start leaves free to join the initial state (ramps)
 # HiGHS's options for the main branch and bound. No restart: on the demo week HiGHS restarts
 # once, after its root cuts, when under 1 % of the columns are fixed, and then solves the
@@ -57,6 +61,13 @@ BESIDE_HIGHS_OPTIONS: dict[str, float | bool] = {
 }
 
 
+def settle_limit(time_limit: float) -> float:
+    """[s] allowed to :meth:`LoadedModel.settle_shortfalls` after a search of
+    ``time_limit`` [s]: a quarter of it, at least 2 s (a study's windows get 1.5 s) and at
+    most 10 s."""
+    return min(10.0, max(2.0, time_limit / 4))
+
+
 @dataclass(frozen=True)
 class SolveOptions:
     """gap : relative MIP gap [-]; time_limit : [s]; threads : threads of the solve (with
@@ -66,7 +77,9 @@ class SolveOptions:
     without a guessed start keeps for HiGHS's own search rather than for improving the
     start (at least SEARCH_LP_TIMES times the LP relaxation's time, at most
     SEARCH_SHARE_MAX; 0 keeps nothing) [-]: a plan wants the proven bound that search
-    gives, a study window's schedule matters more than its bound."""
+    gives, a study window's schedule matters more than its bound; settle : look for a
+    schedule within the tolerance that meets every demand and the reserve when the one
+    found leaves a slack in use (:meth:`LoadedModel.settle_shortfalls`)."""
 
     gap: float = 1e-3
     time_limit: float = 120.0
@@ -74,6 +87,7 @@ class SolveOptions:
     warm_start: bool = True
     strengthen: bool = True
     search_share: float = 0.25
+    settle: bool = True
 
     @property
     def beside(self) -> bool:
@@ -534,6 +548,71 @@ class LoadedModel:
             self.h.changeColsBounds(len(hold), hold, self.col_lower[hold], self.col_upper[hold])
         return x, obj
 
+    def slack_cols(self, reserve: bool = True) -> np.ndarray:
+        """Columns of every balance slack (shortfalls and surpluses), and of the reserve's
+        shortfall unless ``reserve`` is False."""
+        m = self.sm.model
+        slacks = [m.steam_short, m.steam_surplus, m.power_short, m.power_surplus]
+        if reserve:
+            slacks.append(m.reserve_short)
+        cols = [self.col(v) for s in slacks for v in s.values()]
+        return np.array(sorted(c for c in cols if c is not None), dtype=np.int32)
+
+    def settle_shortfalls(self, x: np.ndarray, obj: float, bound: float, gap: float,
+                          time_limit: float) -> tuple[np.ndarray, float] | None:
+        """A schedule of the same quality or better with fewer shortfalls, when the schedule
+        ``x`` (objective ``obj``) leaves some slack in use; None when none is found.
+
+        A search stopped at a gap can keep a shortfall that costs less than the gap (a
+        few hundredths of a t/h of reserve at its price is a few hundred EUR; a week's
+        0.5 % is about 10 000 EUR): the schedule is then within the tolerance, but
+        reports the week short. Or, in a week that cannot hold its reserve, a short search
+        can end with the electric bus short too. Here the hours around the shortfalls are
+        freed (everything else held at ``x``, as in :meth:`improve_windows`), every slack
+        is held at zero there, and the schedule found is kept if it costs less than ``obj``
+        or lies within ``gap`` [-] of the proven ``bound``. Failing that, the same with
+        only the steam and power slacks held (the reserve may stay short), around the hours
+        they are in use. Window widths of :data:`SETTLE_PADS` hours either side are tried
+        in turn; the whole takes at most ``time_limit`` [s].
+        """
+        t_end = time.perf_counter() + time_limit
+        hours = self.col_hours()
+        for reserve in (True, False):
+            slacks = self.slack_cols(reserve)
+            short = slacks[x[slacks] > SLACK_TOL]
+            if len(short) == 0:
+                continue
+            short_hours = np.unique(hours[short])
+            for pad in SETTLE_PADS:
+                left = t_end - time.perf_counter()
+                if left < 0.3:
+                    return None
+                near = np.zeros(len(hours), dtype=bool)
+                for t in short_hours:
+                    near |= (hours >= t - pad) & (hours <= t + pad)
+                hold = np.flatnonzero((hours >= 0) & ~near).astype(np.int32)
+                vals = x[hold].copy()
+                ints = np.isin(hold, self.int_cols)
+                vals[ints] = np.round(vals[ints])
+                vals = np.clip(vals, self.col_lower[hold], self.col_upper[hold])
+                free_slacks = np.setdiff1d(slacks, hold).astype(np.int32)
+                cols = np.concatenate([hold, free_slacks])
+                vals = np.concatenate([vals, np.zeros(len(free_slacks))])
+                self.h.changeColsBounds(len(cols), cols, vals, vals)
+                try:
+                    self._run(left, gap=1e-4)
+                    info = self.h.getInfo()
+                    found = info.primal_solution_status == 2
+                    new_x = self.solution() if found else None
+                    new_obj = float(info.objective_function_value) if found else math.inf
+                finally:
+                    self.h.changeColsBounds(len(cols), cols, self.col_lower[cols], self.col_upper[cols])
+                if new_x is None:
+                    continue
+                if new_obj <= obj or (math.isfinite(bound) and new_obj - bound <= gap * abs(new_obj)):
+                    return new_x, new_obj
+        return None
+
     def improve(self, x: np.ndarray, obj: float, time_limit: float,
                 best: Incumbent | None = None) -> tuple[np.ndarray, float]:
         """Fix-and-optimise: free one committed unit's (then each pair's) on/off decisions,
@@ -643,6 +722,14 @@ class LoadedModel:
             if gap <= options.gap:
                 status = "optimal"
         found_by = best.source if has and bx is not None and bobj <= obj + 1e-9 * abs(obj) else "HiGHS"
+        if has and len(self.int_cols) and options.settle:
+            settled = self.settle_shortfalls(x, obj, bound, max(options.gap, gap), settle_limit(options.time_limit))
+            if settled is not None:
+                x, obj = settled
+                found_by = "shortfall settled"
+                gap = (obj - bound) / abs(obj) if math.isfinite(bound) and obj != 0 else float("inf")
+                status = "optimal" if gap <= options.gap else status
+            secs["solve"] = time.perf_counter() - t1
         if helper is not None:
             start_obj = best.first_start
         self.schedule = x
