@@ -90,6 +90,26 @@ def test_prices_and_break_even_match_the_hand_derivation() -> None:
         assert r2.better == better
 
 
+def test_a_marginal_estimate_from_penalty_prices_is_left_out_and_said_why() -> None:
+    """Beyond the boiler's 150 t/h the LP header goes short: its price is then the
+    shortfall penalty (project default, schema.Penalties), and an estimate of the driver's
+    break-even import price from it would be no price of steam (it came out at tens of
+    thousands per MWh). It is left out, and the note says which price a penalty sets; the
+    row is still there, with both full re-solves."""
+    cfg = _site(boiler=_boiler(), fuel=[{"id": "NG", "price": f"{FUEL} per GJ"}])
+    ser = series(cfg, 1, demand_HP=D_HP, demand_LP=200.0, price_import=100.0)
+    a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
+    assert a.set_by["LP"] == "shortfall penalty"
+    row = a.drivers.set_index("machine").loc["P1"]
+    assert row.marginal_estimate is None or row.marginal_estimate != row.marginal_estimate  # None / NaN
+    assert "marginal estimate left out: LP price set by the shortfall penalty" in row.note
+    assert np.isfinite(row.cost_on_steam) and np.isfinite(row.cost_on_motor)
+    # the same hour within the boiler's rating keeps its estimate and has no note
+    ok = advise(cfg, series(cfg, 1, demand_HP=D_HP, demand_LP=D_LP, price_import=100.0), str(ser.time[0]), "<tiny>")
+    row = ok.drivers.set_index("machine").loc["P1"]
+    assert row.marginal_estimate > 0 and row.note == ""
+
+
 def test_marginal_prices_equal_finite_differences() -> None:
     # a curved efficiency (operating between its load points) and a turbo-generator, so the
     # prices are not simply fuel per tonne
@@ -469,3 +489,15 @@ def test_a_turbo_generator_trip_keeps_the_steam_reserve() -> None:
     assert "reserve no longer kept" not in text
     b = advise(cfg, ser, "2027-01-05T10:00", "<demo>", what_if=WhatIf(trip=["B1"]))
     assert a.held["B1"] == 1 and "reserve no longer kept" in " ".join(b.what_if["changes"])
+
+
+def test_a_flip_at_a_zero_import_price_is_zero() -> None:
+    """Steam that costs nothing (its exhaust would be vented anyway) is better at any import
+    price above zero: the flip is 0, not the bisection's round-off (it read 5.7e-11)."""
+    from cogendispatch.decisions import _flip_price
+
+    class FreeSteam:  # the hour's cost on steam 0 (and an LP's round-off), on motor price x 2 MWh
+        def cost(self, w: WhatIf) -> float:
+            return 1e-9 if w.force["P1"] == "steam" else 2.0 * w.price_import
+
+    assert _flip_price(FreeSteam(), "P1", 100.0, -200.0, None, 0.5) == 0.0

@@ -334,8 +334,15 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
             dt.columns = ["machine", "machines on steam now", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
                           f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", f"marginal estimate [{cur}/MWh]",
                           "driver change (minimum time between changes)"]
-            _table(out, "Turbine or motor" + (" (hour as given)" if a.what_if else ""),
-                   dt.astype(object).where(dt.notna(), "none in range"))
+            dt = dt.astype(object)
+            dt[f"flips at import [{cur}/MWh]"] = dt[f"flips at import [{cur}/MWh]"].where(
+                dt[f"flips at import [{cur}/MWh]"].notna(), "none in range")
+            dt[f"marginal estimate [{cur}/MWh]"] = dt[f"marginal estimate [{cur}/MWh]"].where(
+                dt[f"marginal estimate [{cur}/MWh]"].notna(), "left out (a penalty sets a price)")
+            _table(out, "Turbine or motor" + (" (hour as given)" if a.what_if else ""), dt)
+            for note, machines in a.drivers.groupby("note", sort=False)["machine"]:
+                if note:  # machines with the same note on one line
+                    out.print(f"{', '.join(machines)}: {note}", highlight=False)
         if a.what_if:
             wi = a.what_if
             out.print(Text(f"what-if: hour cost {wi['cost']:,.0f} {cur} ({wi['change']:+,.0f} against "

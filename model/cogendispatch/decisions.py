@@ -440,14 +440,17 @@ def marginal_flip_estimate(cfg: SiteConfig, d: Drive, prices: dict[str, float],
 
 
 def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
-                 history: dict[str, DriverHistory] | None = None, tol: float = 0.5) -> pd.DataFrame:
+                 history: dict[str, DriverHistory] | None = None, tol: float = 0.5,
+                 price_set_by: dict[str, str] | None = None) -> pd.DataFrame:
     """One row per dual-driver machine: cost of the hour on steam and on motor (full
     re-solves), the saving, the import price at which the answer flips (bracketing and
     bisection to ``tol`` [currency/MWh], each step two full re-solves) and the marginal
     estimate beside it; with the machine's ``history``, the machines on steam in the hour
     before and ``steam_held_h`` / ``motor_held_h``, the hours before the site's minimum time
     between driver changes lets every machine run on steam / on motor (0: allowed now; NaN:
-    history unknown). Sorted by saving."""
+    history unknown). ``price_set_by`` (per balance, :func:`prices.set_by`) leaves out a
+    marginal estimate whose prices a penalty sets: it would be no price of steam. ``note``
+    says why a flip price or an estimate is missing. Sorted by saving."""
     history = history or {}
     rows = []
     p0 = hm.base_import
@@ -460,16 +463,26 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         d0 = c_steam - c_motor
         better = "steam" if d0 < -TOL else ("motor" if d0 > TOL else "either")
         est = marginal_flip_estimate(hm.cfg, d, prices, hm.feedwater_price)
+        flip = _flip_price(hm, d.id, p0, d0, est, tol)
+        notes = []
+        if flip is None:
+            notes.append(f"no flip between 0 and {max(20.0 * abs(p0), 1000.0):,.0f} {hm.cfg.site.currency}/MWh of import")
+        penalised = [f"{b} price set by the {why}" for b in (d.steam_turbine.inlet, d.steam_turbine.exhaust, "power")
+                     if (why := (price_set_by or {}).get(b, "cost")) != "cost"]
+        if est is not None and penalised:
+            est = None
+            notes.append("marginal estimate left out: " + ", ".join(dict.fromkeys(penalised)))
         rows.append({
             "machine": d.id, "count": d.count, "now_on_steam": now.get(d.id),
             "cost_on_steam": c_steam, "cost_on_motor": c_motor, "saving": abs(d0), "better": better,
-            "flip_import_price": _flip_price(hm, d.id, p0, d0, est, tol),
+            "flip_import_price": flip,
             "marginal_estimate": est,
             "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
             "steam_reserve_short_t_h": on_steam.reserve_short, "motor_reserve_short_t_h": on_motor.reserve_short,
             "on_steam_hour_before": history[d.id].before if d.id in history else None,
             "steam_held_h": float(history[d.id].held_for(True)) if d.id in history else float("nan"),
             "motor_held_h": float(history[d.id].held_for(False)) if d.id in history else float("nan"),
+            "note": "; ".join(notes),
         })
     df = pd.DataFrame(rows)
     if not df.empty:
@@ -518,8 +531,10 @@ def _flip_price(hm: HourModel, did: str, p0: float, d0: float, est: float | None
             b, fb = mid, fm
         else:
             a, fa = mid, fm
-    # linear interpolation inside the last bracket
-    return a + (b - a) * fa / (fa - fb) if fa != fb else 0.5 * (a + b)
+    # linear interpolation inside the last bracket; a flip within the tolerance of a zero
+    # import price is zero (the motor is better only when power is free)
+    p = a + (b - a) * fa / (fa - fb) if fa != fb else 0.5 * (a + b)
+    return 0.0 if p < tol else p
 
 
 def what_if_changes(base: HourState, new: HourState) -> list[str]:
@@ -601,7 +616,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         ([pw_reason] if base.power_short > TOL else []) + \
         ([f"steam reserve: the steam reserve is {base.reserve_short:.2f} t/h short"] if base.reserve_short > TOL else [])
     now = plan_drivers if plan_drivers is not None else base.on_steam
-    drivers = driver_table(hm, now, prices, history)
+    drivers = driver_table(hm, now, prices, history, price_set_by=categories)
     wi = None
     if what_if is not None and not what_if.empty():
         # the change is measured against the hour as held; the what-if holds it too unless
