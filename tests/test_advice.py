@@ -501,3 +501,27 @@ def test_a_flip_at_a_zero_import_price_is_zero() -> None:
             return 1e-9 if w.force["P1"] == "steam" else 2.0 * w.price_import
 
     assert _flip_price(FreeSteam(), "P1", 100.0, -200.0, None, 0.5) == 0.0
+
+
+def test_a_trip_that_frees_a_reserve_penalty_says_why_the_hour_is_cheaper() -> None:
+    """B1 (150 t/h) and B2, B3 (60 t/h each) run; the hour needs more steam than B2 and B3
+    can make together, so losing B1 could not be covered: the reserve is short before any
+    trip, and its penalty is in the hour's cost. Tripping B3 leaves B1 and B2 able to carry
+    the hour, and the reserve is dropped with the trip: the hour costs less by about that
+    penalty. The what-if must say so, not pass it off as a saving."""
+    boilers = [{"id": b, "header": "HP", "fuels": ["NG"], "max_steam": f"{mx} t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.05, 1.0], "efficiency": [0.85, 0.85]}, "initial_on": True}
+               for b, mx in (("B1", 150), ("B2", 60), ("B3", 60))]
+    cfg = site(boiler=boilers, reserve={"enabled": True, "cover": 1.0},
+               letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "300 t/h"}])
+    ser = series(cfg, 1, demand_LP=130.0)
+    a = advise(cfg, ser, str(ser.time[0]), "<tiny>", what_if=WhatIf(trip=["B3"]))
+    assert len(a.not_met) == 1 and a.not_met[0].startswith("steam reserve")  # the hour as given
+    wi = a.what_if
+    assert not wi["short"] and wi["reserve_short_t_h"] == 0.0
+    note = next(c for c in wi["changes"] if c.startswith("steam reserve no longer kept"))
+    assert wi["change"] < -1e4  # cheaper by about the penalty (10^4 per t/h, schema.Penalties)
+    less = float(note.split("costs ")[1].split(" less")[0].replace(",", ""))
+    freed = float(note.split("(")[1].split(" of it")[0].replace(",", ""))
+    assert less == pytest.approx(-wi["change"], abs=1.0)
+    assert freed == pytest.approx(-wi["penalty_change"], abs=1.0) and freed > 1e4

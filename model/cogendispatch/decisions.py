@@ -624,9 +624,17 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         base_free = hm.solve(hold="all")
         new = hm.solve(what_if, hold="on" if allow_starts else "all")
         notes = [f"{u} was already off" for u in what_if.trip if held.get(u) == 0]
-        if hm.trips_a_boiler(what_if) and len(hm.reserve_rows):
-            notes.append("steam reserve no longer kept: the site is in the contingency it was kept for")
         reserve_change = cfg.penalties.reserve_shortfall * (new.reserve_short - base_free.reserve_short)
+        if hm.trips_a_boiler(what_if) and len(hm.reserve_rows):
+            note = "steam reserve no longer kept: the site is in the contingency it was kept for"
+            if new.cost < base_free.cost - 1.0:
+                # a trip that makes the hour cheaper: the reserve's penalty (or the dispatch
+                # it constrained) is gone, which is no saving to plan for
+                freed = -reserve_change if reserve_change < -1.0 else 0.0
+                note += (f"; the hour costs {base_free.cost - new.cost:,.0f} less only because the reserve "
+                         "no longer counts" + (f" ({freed:,.0f} of it was the reserve's penalty, not money spent)"
+                                                if freed else ""))
+            notes.append(note)
         if new.reserve_short > base_free.reserve_short + 1e-4:
             idle = [b.id for b in cfg.boilers if new.on.get(b.id) == 0 and b.id not in what_if.trip]
             notes.append(f"steam reserve {new.reserve_short:.2f} t/h short (was {base_free.reserve_short:.2f}): "
