@@ -90,6 +90,14 @@ def test_inspect_tables_show_fuels_and_grid_as_read():
     tg2 = next(t for t in cfg.turbogenerators if t.id == "TG2")
     first = tabs["turbines"].set_index(["turbine", "section"]).loc[("TG2", 1)]
     assert (first.max_throttle_t_h, first.generator_rating_MW) == (tg2.max_throttle, tg2.generator_rating)
+    # and a condensing set's section limits: the extraction at the end of its first section,
+    # the condenser flow through its last (the minimum condenser flow)
+    tg1 = next(t for t in cfg.turbogenerators if t.id == "TG1")
+    secs = tabs["turbines"].set_index(["turbine", "section"])
+    s1, s2 = secs.loc[("TG1", 1)], secs.loc[("TG1", 2)]
+    assert (s1.min_extraction_t_h, s1.max_extraction_t_h) == (tg1.sections[0].min_extraction, tg1.sections[0].max_extraction)
+    assert (s2.min_flow_t_h, s2.max_flow_t_h) == (tg1.sections[1].min_flow, tg1.sections[1].max_flow)
+    assert s2.min_flow_t_h > 0 and s2.max_extraction_t_h != s2.max_extraction_t_h  # none after the last section
     assert tabs["letdowns"].max_flow_t_h.tolist() == [ld.max_flow for ld in cfg.letdowns]
     g = tabs["grid"].iloc[0]
     assert (g.max_import_MW, g.max_export_MW, g.min_import_MW) == (cfg.grid.max_import, cfg.grid.max_export,

@@ -49,6 +49,14 @@ def coefficient_tables(cfg: SiteConfig) -> dict[str, pd.DataFrame]:
             arrival = None if sec.to_condenser else st.arrival_ratio(sec.outlet.h, sec.to)
             limits = ({"min_throttle_t_h": tg.min_throttle, "max_throttle_t_h": tg.max_throttle,
                        "generator_rating_MW": tg.generator_rating} if k == 0 else {})
+            # the site file's limits on the flow through the section and on the extraction
+            # at its end (none after the last section: its flow is the exhaust's, e.g. the
+            # minimum condenser flow)
+            given = tg.sections[k]
+            last = k == len(co.sections) - 1
+            limits.update({"min_flow_t_h": given.min_flow, "max_flow_t_h": given.max_flow,
+                           "min_extraction_t_h": None if last else given.min_extraction,
+                           "max_extraction_t_h": None if last else given.max_extraction})
             trows.append({"turbine": tg.id, "kind": co.kind, "section": k + 1, "to": sec.to, **limits,
                           "p_out_bar_a": sec.p_out, "isentropic_drop_kJ_kg": sec.drop_s,
                           "efficiency": sec.efficiency, "shaft_kW_per_t_h": 1000 * sec.mw_per_tph,
