@@ -439,10 +439,10 @@ def test_driver_history_counts_hours_since_the_last_change() -> None:
     # the first hour: the site file alone; without a plan a later hour is unknown
     assert driver_history(cfg, 0, None)["AIRB"].held_for(True) == 21 and "HCFP" not in driver_history(cfg, 0, None)
     assert driver_history(cfg, 9, None) == {}
-    row = {"better": "motor", "count": 1, "on_steam_hour_before": 1, "motor_held_h": 4.0, "steam_held_h": 0.0}
+    row = {"better": "motor", "count": 1, "on_steam_hour_before": 1, "motor_blocked_h": 4.0, "steam_blocked_h": 0.0}
     assert _driver_change(pd.Series(row), "?") == "not allowed for 4 h"
     assert _driver_change(pd.Series({**row, "better": "steam"}), "?") == "none needed"
-    assert _driver_change(pd.Series({**row, "motor_held_h": 0.0}), "?") == "allowed"
+    assert _driver_change(pd.Series({**row, "motor_blocked_h": 0.0}), "?") == "allowed"
     assert _driver_change(pd.Series({**row, "on_steam_hour_before": float("nan")}), "?") == "?"
 
 

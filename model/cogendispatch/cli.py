@@ -381,9 +381,9 @@ def _driver_change(r: pd.Series, unknown: str) -> str:
     if before is None or before != before:  # NaN: no history before the hour
         return unknown
     if r["better"] == "steam":
-        needs, held = before < r["count"], r["steam_held_h"]
+        needs, held = before < r["count"], r["steam_blocked_h"]
     elif r["better"] == "motor":
-        needs, held = before > 0, r["motor_held_h"]
+        needs, held = before > 0, r["motor_blocked_h"]
     else:
         needs, held = False, 0.0
     if not needs:

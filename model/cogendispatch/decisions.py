@@ -446,7 +446,7 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
     re-solves), the saving, the import price at which the answer flips (bracketing and
     bisection to ``tol`` [currency/MWh], each step two full re-solves) and the marginal
     estimate beside it; with the machine's ``history``, the machines on steam in the hour
-    before and ``steam_held_h`` / ``motor_held_h``, the hours before the site's minimum time
+    before and ``steam_blocked_h`` / ``motor_blocked_h``, the hours before the site's minimum time
     between driver changes lets every machine run on steam / on motor (0: allowed now; NaN:
     history unknown). ``price_set_by`` (per balance, :func:`prices.set_by`) leaves out a
     marginal estimate whose prices a penalty sets: it would be no price of steam. ``note``
@@ -480,8 +480,8 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
             "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
             "steam_reserve_short_t_h": on_steam.reserve_short, "motor_reserve_short_t_h": on_motor.reserve_short,
             "on_steam_hour_before": history[d.id].before if d.id in history else None,
-            "steam_held_h": float(history[d.id].held_for(True)) if d.id in history else float("nan"),
-            "motor_held_h": float(history[d.id].held_for(False)) if d.id in history else float("nan"),
+            "steam_blocked_h": float(history[d.id].held_for(True)) if d.id in history else float("nan"),
+            "motor_blocked_h": float(history[d.id].held_for(False)) if d.id in history else float("nan"),
             "note": "; ".join(notes),
         })
     df = pd.DataFrame(rows)
