@@ -494,13 +494,13 @@ def test_a_turbo_generator_trip_keeps_the_steam_reserve() -> None:
 def test_a_flip_at_a_zero_import_price_is_zero() -> None:
     """Steam that costs nothing (its exhaust would be vented anyway) is better at any import
     price above zero: the flip is 0, not the bisection's round-off (it read 5.7e-11)."""
-    from cogendispatch.decisions import _flip_price
+    from cogendispatch.decisions import _flip_prices
 
     class FreeSteam:  # the hour's cost on steam 0 (and an LP's round-off), on motor price x 2 MWh
         def cost(self, w: WhatIf) -> float:
             return 1e-9 if w.force["P1"] == "steam" else 2.0 * w.price_import
 
-    assert _flip_price(FreeSteam(), "P1", 100.0, -200.0, None, 0.5) == 0.0
+    assert _flip_prices(FreeSteam(), "P1", 100.0, -200.0, None, 0.5) == (0.0, None)
 
 
 def test_a_trip_that_frees_a_reserve_penalty_says_why_the_hour_is_cheaper() -> None:
@@ -525,3 +525,21 @@ def test_a_trip_that_frees_a_reserve_penalty_says_why_the_hour_is_cheaper() -> N
     freed = float(note.split("(")[1].split(" of it")[0].replace(",", ""))
     assert less == pytest.approx(-wi["change"], abs=1.0)
     assert freed == pytest.approx(-wi["penalty_change"], abs=1.0) and freed > 1e4
+
+
+def test_a_difference_that_is_not_monotone_in_the_import_price_is_searched_both_ways() -> None:
+    """With the rest of the hour re-solved at each price, steam-minus-motor cost need not
+    fall as the import price rises (a turbo-generator's load moves with it). Here, made up:
+    the motor is better at the hour's 170 /MWh and from 120 to 680; steam is better below
+    120 and above 680. The nearest flip is 120 (below the hour's price); a search upwards
+    only, as this once was, found 680 alone."""
+    from cogendispatch.decisions import _flip_prices
+
+    class Hump:
+        def cost(self, w: WhatIf) -> float:
+            p = w.price_import
+            diff = (p - 120.0) if p < 300.0 else (500.0 - p) * 0.5 + 90.0  # 0 at 120 and at 680
+            return diff if w.force["P1"] == "steam" else 0.0
+
+    near, other = _flip_prices(Hump(), "P1", 170.0, 50.0, None, 0.5)
+    assert near == pytest.approx(120.0, abs=0.5) and other == pytest.approx(680.0, abs=0.5)

@@ -463,10 +463,14 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         d0 = c_steam - c_motor
         better = "steam" if d0 < -TOL else ("motor" if d0 > TOL else "either")
         est = marginal_flip_estimate(hm.cfg, d, prices, hm.feedwater_price)
-        flip = _flip_price(hm, d.id, p0, d0, est, tol)
+        flip, other = _flip_prices(hm, d.id, p0, d0, est, tol)
         notes = []
+        cur = hm.cfg.site.currency
         if flip is None:
-            notes.append(f"no flip between 0 and {max(20.0 * abs(p0), 1000.0):,.0f} {hm.cfg.site.currency}/MWh of import")
+            notes.append(f"no flip between 0 and {_search_top(p0):,.0f} {cur}/MWh of import")
+        elif other is not None:
+            notes.append(f"the answer also changes at {other:,.1f} {cur}/MWh of import, "
+                         f"{'above' if other > p0 else 'below'} the hour's {p0:,.1f}")
         penalised = [f"{b} price set by the {why}" for b in (d.steam_turbine.inlet, d.steam_turbine.exhaust, "power")
                      if (why := (price_set_by or {}).get(b, "cost")) != "cost"]
         if est is not None and penalised:
@@ -500,22 +504,48 @@ def _diff(hm: HourModel, did: str, price: float) -> float:
         hm.cost(WhatIf(force={did: "motor"}, price_import=price))
 
 
-def _flip_price(hm: HourModel, did: str, p0: float, d0: float, est: float | None, tol: float) -> float | None:
-    """Import price where steam and motor cost the same [currency/MWh], or None when no
-    price between 0 and 20 times the hour's price flips the answer.
+def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | None,
+                 tol: float) -> tuple[float | None, float | None]:
+    """Import prices where steam and motor cost the same [currency/MWh]: the nearest to the
+    hour's price ``p0`` and the first on the other side of it, each None when no price
+    between 0 and :func:`_search_top` flips the answer on that side.
 
-    A dearer import price favours steam, so the flip lies above the hour's price when the
-    motor is cheaper now and below it otherwise. The marginal estimate, when it lies on
-    that side, gives a narrow first bracket; otherwise the search steps out geometrically.
-    """
+    A dearer import price usually favours steam, but with the rest of the hour re-solved at
+    each price the difference need not be monotone: a turbo-generator's load and the
+    letdowns move with the import price, and with them what the machine's exhaust steam is
+    worth. So both sides are searched, stepping out geometrically from ``p0`` (the marginal
+    estimate ``est``, when it lies on a side, is that side's first step), then bisected to
+    ``tol`` [currency/MWh]. A flip between two steps that flips back before the next is
+    missed."""
     if abs(d0) <= TOL:
-        return p0
-    up = d0 > 0
-    hi_p = max(20.0 * abs(p0), 1000.0)
+        return p0, None
+    top = _search_top(p0)
+    found = []
+    for up in (True, False):
+        if not up and p0 <= 0.0:
+            continue
+        steps = [p0 * k for k in ((1.1, 1.25, 1.6, 2.5, 4.0, 8.0, 20.0) if up else (0.9, 0.75, 0.5, 0.25, 0.0))]
+        if up:
+            steps = [q for q in steps if q < top] + [top]
+        if est is not None and 0.0 <= est <= top and ((est > p0) if up else (est < p0)):
+            steps = [est * (1.02 if up else 0.98)] + [q for q in steps if (q > est if up else q < est)]
+        flip = _bracket_and_bisect(hm, did, p0, d0, steps, tol)
+        if flip is not None:
+            found.append(flip)
+    found.sort(key=lambda q: abs(q - p0))
+    return (found[0] if found else None), (found[1] if len(found) > 1 else None)
+
+
+def _search_top(p0: float) -> float:
+    """[currency/MWh] highest import price the flip search tries: 20 times the hour's."""
+    return max(20.0 * abs(p0), 1000.0)
+
+
+def _bracket_and_bisect(hm: HourModel, did: str, p0: float, d0: float, steps: list[float],
+                        tol: float) -> float | None:
+    """The first sign change of steam-minus-motor cost along ``steps`` from ``p0``,
+    bisected to ``tol`` and interpolated in its last bracket; None without one."""
     a, fa = p0, d0
-    steps = [p0 * k for k in ((1.25, 1.6, 2.5, 4.0, 8.0, 20.0) if up else (0.75, 0.5, 0.25, 0.0))]
-    if est is not None and 0.0 <= est <= hi_p and ((est > p0) if up else (est < p0)):
-        steps = [est * (1.02 if up else 0.98)] + [q for q in steps if (q > est if up else q < est)]
     for q in steps:
         fq = _diff(hm, did, q)
         if fq * fa <= 0:
