@@ -555,3 +555,21 @@ def test_inspect_csv_writes_a_folder_it_may_replace(demo_site: Path, tmp_path: P
     (other / "notes.txt").write_text("mine")
     assert main(["inspect", str(demo_site), "--csv", str(other)]) == 2
     assert "--csv: is a non-empty folder" in capsys.readouterr().err
+
+
+def test_a_run_never_deletes_a_file_it_did_not_write(demo_site: Path, tmp_path: Path,
+                                                     capsys: pytest.CaptureFixture[str]) -> None:
+    """An earlier output folder is replaced whole; a file the user put in it (notes beside a
+    plan) would go with it, so the run refuses, names the file and writes nothing."""
+    d = tmp_path / "coef"
+    assert main(["inspect", str(demo_site), "--csv", str(d)]) == 0
+    (d / "engineer_notes.txt").write_text("B3 burner check on Tuesday")
+    before = sorted(p.name for p in d.iterdir())
+    capsys.readouterr()
+    assert main(["inspect", str(demo_site), "--csv", str(d)]) == 2
+    err = capsys.readouterr().err
+    assert "engineer_notes.txt" in err and "did not write" in err
+    assert sorted(p.name for p in d.iterdir()) == before
+    assert (d / "engineer_notes.txt").read_text() == "B3 burner check on Tuesday"
+    (d / "engineer_notes.txt").unlink()  # moved away: the folder is replaced again
+    assert main(["inspect", str(demo_site), "--csv", str(d)]) == 0

@@ -15,6 +15,9 @@ import pandas as pd
 from .errors import InputError
 
 MARKER = "summary.json"  # a folder holding this was written by cogendispatch
+# the names a run wrote at the top of its folder; a later run of the same kind replaces the
+# folder only if it holds nothing else (a user's notes beside a plan would go with it)
+MANIFEST = ".cogendispatch-files"
 
 
 def output_kind(d: Path) -> str | None:
@@ -46,6 +49,12 @@ def check_out_dir(out: Path, kind: str = "plan", option: str = "--out") -> None:
         if held != kind:
             raise InputError(out, option, f"holds {_KIND_WORDS.get(held, held)} from cogendispatch, which "
                              f"{_KIND_WORDS.get(kind, kind)} would replace; choose another folder (nothing was written)")
+        foreign = _not_written_by_us(out)
+        if foreign:
+            shown = ", ".join(foreign[:5]) + (f" and {len(foreign) - 5} more" if len(foreign) > 5 else "")
+            raise InputError(out, option, f"holds {_KIND_WORDS.get(held, held)} from cogendispatch and also "
+                             f"{shown}, which cogendispatch did not write and replacing the folder would "
+                             "delete; move them or choose another folder (nothing was written)")
     base = out.parent
     while not base.exists() and base != base.parent:
         base = base.parent
@@ -56,6 +65,16 @@ def check_out_dir(out: Path, kind: str = "plan", option: str = "--out") -> None:
     except OSError as exc:
         raise InputError(out, option, f"cannot be written in '{base}': {exc.strerror or exc} "
                          "(nothing was written)") from None
+
+
+def _not_written_by_us(out: Path) -> list[str]:
+    """Names at the top of the output folder ``out`` that its run did not write, from its
+    manifest; none known for a folder written before the manifest was kept."""
+    try:
+        ours = set(json.loads((out / MANIFEST).read_text(encoding="utf-8")))
+    except (OSError, ValueError, TypeError):
+        return []
+    return sorted(p.name for p in out.iterdir() if p.name not in ours and p.name != MANIFEST)
 
 
 def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan",
@@ -80,6 +99,7 @@ def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan
     tmp.chmod(0o777 & ~mask)
     try:
         write(tmp)
+        (tmp / MANIFEST).write_text(json.dumps(sorted(p.name for p in tmp.iterdir())), encoding="utf-8")
         old = None
         if out.exists():
             old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
