@@ -269,3 +269,34 @@ def test_a_folder_given_as_scenario_file_is_refused(tmp_path) -> None:  # noqa: 
     cfg = _site()
     with pytest.raises(InputError, match="cannot be read"):
         load_scenarios(tmp_path, cfg, series(cfg, 24, demand_LP=50.0))
+
+
+def test_study_says_a_shortfall_may_be_the_searchs_when_a_window_stopped_early(tmp_path, capsys,
+                                                                              monkeypatch) -> None:  # noqa: ANN001
+    """As a plan does: when a window of a short scenario stopped before proving its
+    schedule, the study says the shortfall may be the search's rather than the site's. The
+    windows here are solved whole and then reported as stopped at the time limit."""
+    from cogendispatch.solve import LoadedModel
+    from test_plan_small import TINY_TOML
+
+    solve_mip = LoadedModel.solve_mip
+
+    def stopped(self, *a, **kw):  # noqa: ANN001, ANN002, ANN003, ANN202
+        rep = solve_mip(self, *a, **kw)
+        rep.status, rep.gap = "time limit", 0.183
+        return rep
+
+    (tmp_path / "site.toml").write_text(TINY_TOML)
+    (tmp_path / "s.csv").write_text("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n"
+                                    "2027-03-01T00:00,0,20,5,50\n2027-03-01T01:00,0,90,5,50\n2027-03-01T02:00,0,20,5,50\n")
+    sc = _scenario_file(tmp_path, '[[scenario]]\nname = "base"\n')
+    args = ["study", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--scenarios", str(sc),
+            "--window", "3", "--lookahead", "0", "--workers", "1", "--quiet"]
+    assert main([*args, "--out", str(tmp_path / "proven")]) == 3
+    err = capsys.readouterr().err
+    assert "LP header short" in err and "the search's rather than the site's" not in err
+    monkeypatch.setattr(LoadedModel, "solve_mip", stopped)
+    assert main([*args, "--out", str(tmp_path / "stopped")]) == 3
+    err = capsys.readouterr().err
+    assert "1 of 1 window(s) stopped before proving their schedule (largest gap 18.3 %)" in err
+    assert "the search's rather than the site's" in err

@@ -473,6 +473,13 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
                 err.print(Text(f"not met: scenario '{r.name}' has {r.shortfall_hours} hour(s) with a shortfall"))
                 for line in r.diagnosis:
                     err.print(Text(f"  {r.name}: {line}"))
+                open_ = [w for w in r.windows if w.status != "optimal"]
+                if open_:  # as for a plan: a search stopped early may have left the shortfall
+                    worst = max((w.gap for w in open_ if w.gap is not None), default=None)
+                    err.print(Text(f"  {r.name}: {len(open_)} of {len(r.windows)} window(s) stopped before proving "
+                                   "their schedule" + (f" (largest gap {100 * worst:.1f} %)" if worst is not None else "")
+                                   + "; some of the shortfall may be the search's rather than the site's: "
+                                   "try a longer --time-limit"))
         return EXIT_SHORT
     return EXIT_OK
 
