@@ -484,3 +484,24 @@ def test_ejectors_run_only_while_a_turbine_exhausts_into_the_condenser():
     assert (s["TGC.on"] == 0).all()
     assert s["V.flow_t_h"].iloc[0] > 2.0  # the surplus the ejectors could have taken
     assert (s["C.in_service"] == 0).all() and (s["C.ejector_t_h"].abs() < 1e-9).all()
+
+
+def test_a_stop_near_the_horizons_end_is_named_as_an_end_effect() -> None:
+    """A unit that runs from the plan's start and stops for good in its last day is named
+    (the plan sees no restart after its last hour); a stop earlier, a unit that runs to the
+    end, or one off from the start is not. A day is common practice, no published value."""
+    import pandas as pd
+
+    from cogendispatch.results import end_stops
+
+    cfg = site(turbogenerator=[TG])
+    t = pd.date_range("2027-01-04", periods=48, freq="h")
+
+    def sched(b1: list[int], tg: list[int]) -> pd.DataFrame:
+        return pd.DataFrame({"B1.on": b1, "TG.on": tg}, index=pd.Index(t, name="time"))
+
+    notes = end_stops(cfg, sched([1] * 48, [1] * 40 + [0] * 8))
+    assert len(notes) == 1 and notes[0].startswith("TG stops at 2027-01-05 16:00") and "(8 h)" in notes[0]
+    assert end_stops(cfg, sched([1] * 48, [1] * 20 + [0] * 28)) == []  # 28 h before the end: a real stop
+    assert end_stops(cfg, sched([1] * 48, [0] * 40 + [1] * 8)) == []  # runs at the end
+    assert end_stops(cfg, sched([1] * 48, [0] * 10 + [1] * 30 + [0] * 8)) == []  # off at the start

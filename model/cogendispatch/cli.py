@@ -611,6 +611,8 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                                + "; ".join(s["baseline"]["diagnosis"][:3])))
         elif "baseline_note" in s:
             out.print(Text(s["baseline_note"]))
+        for note in s.get("end_stops", []):
+            out.print(Text(f"end of horizon: {note}"))
         if "verify" in s:
             out.print(Text(f"verification: {s['verify']['verdict']}"))
         out.print(f"outputs in {Path(args.out).resolve()}")

@@ -17,7 +17,7 @@ from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
 from .prices import hourly_prices
 from .report import write_reports
-from .results import PlanResults, plan_results
+from .results import PlanResults, end_stops, plan_results
 from .site import BuildOptions, SiteModel, build_site_model
 from .solve import SolveOptions, SolveReport, solve_loaded
 from .verify import MOISTURE_LIMIT, Verification, verify_schedule
@@ -64,6 +64,7 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
         "running_hours": t["running_hours"],
         "drive_hours": t["drive_hours"],
         "diagnosis": res.diagnosis,
+        "end_stops": end_stops(cfg, res.schedule),
         "seconds": run_report.seconds,
         "hours": series.hours,
         "first_hour": str(series.time[0]),

@@ -290,3 +290,30 @@ def plan_results(sm: SiteModel) -> PlanResults:
                                "motor": float(sched[f"{d.id}.on_motor"].sum())} for d in cfg.drives},
     }
     return PlanResults(sched, bal, power, cost, totals, diagnose(sm))
+
+
+END_WINDOW_H = 24  # [h] a stop this close to the horizon's end is named by end_stops (common practice: a day)
+
+
+def end_stops(cfg: SiteConfig, schedule: pd.DataFrame, within: int = END_WINDOW_H) -> list[str]:
+    """Boilers and turbo-generators that run at the start of the plan and stop for good in
+    its last ``within`` hours [h]. The plan sees no hour after its last, so such a stop
+    saves running cost without the restart that would follow: an end-of-horizon effect, not
+    advice for the next week (rolling-horizon planning; see e.g. the look-ahead of a study)."""
+    notes = []
+    n = len(schedule)
+    for u in (*cfg.boilers, *cfg.turbogenerators):
+        col = f"{u.id}.on"
+        if col not in schedule:
+            continue
+        on = schedule[col].to_numpy() > 0.5
+        if n == 0 or not on[0] or on[-1]:
+            continue
+        last_on = int(np.flatnonzero(on)[-1])
+        stop = last_on + 1
+        if n - stop <= within:
+            notes.append(f"{u.id} stops at {schedule.index[stop]:%Y-%m-%d %H:%M} and stays off to the plan's end "
+                         f"({n - stop} h): the plan sees no hour after its last, so this stop pays no restart; "
+                         "if the site runs on, plan with the next day's series too and keep the first "
+                         f"{n} h")
+    return notes
