@@ -191,15 +191,19 @@ def _merit_loading(lm: LoadedModel, cfg: SiteConfig, merit: list, hours: list[in
     return x2, True
 
 
-def savings(optimised: dict[str, float], baseline: dict[str, float]) -> dict[str, dict[str, float]]:
-    """Saving of the optimised schedule against the baseline per cost category [currency and %]."""
-    out = {}
-    for cat in sorted(set(optimised) | set(baseline)):
+def savings(optimised: dict[str, float], baseline: dict[str, float]) -> dict[str, dict[str, float | None]]:
+    """Saving of the optimised schedule against the baseline per cost category [currency and
+    %], in the optimised schedule's category order (the plan's cost table), then total. The
+    per cent is None where the baseline spends nothing in the category: no share of it."""
+
+    def pct(b: float, o: float) -> float | None:
+        return 100.0 * (b - o) / abs(b) if abs(b) > 1e-9 else None
+
+    out: dict[str, dict[str, float | None]] = {}
+    for cat in [*optimised, *(c for c in baseline if c not in optimised)]:
         b, o = baseline.get(cat, 0.0), optimised.get(cat, 0.0)
-        out[cat] = {"baseline": b, "optimised": o, "saving": b - o,
-                    "saving_pct": 100.0 * (b - o) / abs(b) if abs(b) > 1e-9 else 0.0}
+        out[cat] = {"baseline": b, "optimised": o, "saving": b - o, "saving_pct": pct(b, o)}
     tb, to = sum(baseline.values()), sum(optimised.values())
-    out["total"] = {"baseline": tb, "optimised": to, "saving": tb - to,
-                    "saving_pct": 100.0 * (tb - to) / abs(tb) if abs(tb) > 1e-9 else 0.0}
+    out["total"] = {"baseline": tb, "optimised": to, "saving": tb - to, "saving_pct": pct(tb, to)}
     return out
 

@@ -604,7 +604,8 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
             sv = s["baseline"]["saving"]
             bt = pd.DataFrame([{"category": k, f"practice [{cur}]": float(round(v["baseline"])),
                                 f"optimised [{cur}]": float(round(v["optimised"])), f"saving [{cur}]": float(round(v["saving"])),
-                                "saving [%]": round(v["saving_pct"], 1) + 0.0} for k, v in sv.items()])
+                                "saving [%]": "n/a" if v["saving_pct"] is None else round(v["saving_pct"], 1) + 0.0}
+                               for k, v in sv.items()])
             _table(out, "Against the practice baseline", bt)
             if s["baseline"]["diagnosis"]:
                 out.print(Text("the practice baseline itself leaves demand unmet: "

@@ -91,7 +91,7 @@ def plan_report(d: Path, units: Units = Units()) -> str:
         body.append("<h2>Against the practice baseline</h2>" + _table(pd.DataFrame(
             [{"category": k, f"practice [{s.get('currency', '')}]": v["baseline"],
               f"optimised [{s.get('currency', '')}]": v["optimised"], f"saving [{s.get('currency', '')}]": v["saving"],
-              "saving [%]": v["saving_pct"]} for k, v in sv.items()])))
+              "saving [%]": "n/a" if v["saving_pct"] is None else v["saving_pct"]} for k, v in sv.items()])))
         if s["baseline"].get("diagnosis"):
             body.append("<p class='bad'>The practice baseline itself leaves demand or the steam reserve unmet, "
                         "and its cost carries the penalties for that, so the saving above is not all money: "
