@@ -277,10 +277,15 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                                      **{hid: v.pressure for hid, v in headers.items()}}, headers, bad, where)
         if t.fixed_throttle is not None and not (t.min_throttle <= t.fixed_throttle <= t.max_throttle):
             bad(where("turbogenerator", t.id, "fixed_throttle"), "must lie between min_throttle and max_throttle")
+        if t.min_up < 1 or t.min_down < 1:  # the model's time step is the hour
+            bad(where("turbogenerator", t.id, "min_up"), "min_up and min_down must be at least 1 h")
 
     for d in cfg.drives:
         if d.duty <= 0:
             bad(where("drive", d.id, "duty"), "must be positive")
+        if d.min_hours_between_switches < 1:
+            bad(where("drive", d.id, "min_hours_between_switches"),
+                "must be at least 1 h (the model's time step; 1 h lets the driver change every hour)")
         st = d.steam_turbine
         if st is not None:
             ok = need_header("drive", d.id, "steam_turbine > inlet", st.inlet)
