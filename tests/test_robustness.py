@@ -421,3 +421,16 @@ def test_a_loaded_model_is_freed_when_dropped(tmp_path) -> None:  # noqa: ANN001
     del lm, spare
     gc.collect()
     assert [r() for r in refs] == [None, None, None]
+
+
+def test_files_hold_no_negative_zeros(tmp_path) -> None:  # noqa: ANN001
+    """An outflow of nothing (a boiler off, a motor idle) is written 0, not -0, and the
+    schedule as written (outputs.as_written, what a plan verifies) agrees with the file."""
+    import pandas as pd
+
+    from cogendispatch.outputs import as_written, write_csv
+
+    df = pd.DataFrame({"term": ["B3 steam", "BFWP motors"], "flow_t_h": [-0.0, -1.5]})
+    write_csv(df, tmp_path / "b.csv", index=False)
+    assert (tmp_path / "b.csv").read_text().splitlines()[1:] == ["B3 steam,0", "BFWP motors,-1.5"]
+    assert str(as_written(df).flow_t_h.iloc[0]) == "0.0"

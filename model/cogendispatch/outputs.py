@@ -149,8 +149,13 @@ FLOAT_FORMAT = "%.12g"  # the CSV files' numbers: 12 significant digits
 
 
 def write_csv(df: pd.DataFrame, path: Path, index: bool = True) -> None:
-    """CSV with text cells that could be read as formulas quoted."""
-    quote_formulas(df).to_csv(path, index=index, float_format=FLOAT_FORMAT)
+    """CSV with text cells that could be read as formulas quoted, and no negative zeros (an
+    outflow of nothing reads 0, not -0)."""
+    out = quote_formulas(df)
+    floats = [c for c in out.columns if pd.api.types.is_float_dtype(out[c])]
+    if floats:
+        out[floats] = out[floats] + 0.0  # -0.0 + 0.0 is 0.0 (out is already a copy)
+    out.to_csv(path, index=index, float_format=FLOAT_FORMAT)
 
 
 def as_written(df: pd.DataFrame) -> pd.DataFrame:
@@ -160,7 +165,7 @@ def as_written(df: pd.DataFrame) -> pd.DataFrame:
     out = df.copy()
     for c in out.columns:
         if pd.api.types.is_float_dtype(out[c]):
-            out[c] = [float(FLOAT_FORMAT % v) for v in out[c].to_numpy()]
+            out[c] = [float(FLOAT_FORMAT % v) + 0.0 for v in out[c].to_numpy()]
     return out
 
 
