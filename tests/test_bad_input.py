@@ -324,7 +324,7 @@ def with_offset(first: int, suffix: str) -> Frame:
 SERIES_CASES = [
     # --- time column
     pytest.param(lambda df: df.drop(index=4).reset_index(drop=True),
-                 ["row 6, column 'time'", "missing hour"], id="missing-hour"),
+                 ["row 6, column 'time'", "missing hour", "every hour needs a row"], id="missing-hour"),
     pytest.param(lambda df: df.assign(time=df["time"].where(df.index != 5, df.loc[4, "time"])),
                  ["row 7, column 'time'", "duplicated hour"], id="duplicated-hour"),
     pytest.param(swap_rows(5, 6), ["row 8, column 'time'", "time order"], id="unordered-rows"),
@@ -580,3 +580,21 @@ def test_a_run_never_deletes_a_file_it_did_not_write(demo_site: Path, tmp_path: 
     assert (d / "engineer_notes.txt").read_text() == "B3 burner check on Tuesday"
     (d / "engineer_notes.txt").unlink()  # moved away: the folder is replaced again
     assert main(["inspect", str(demo_site), "--csv", str(d)]) == 0
+
+
+def test_a_missing_hour_when_clocks_change_suggests_utc_offsets() -> None:
+    """One hour missing in late March (a European spring-forward night) is most likely local
+    time; in January (the demo week, above) the message does not guess so."""
+    import pandas as pd
+
+    from cogendispatch.errors import InputError
+    from cogendispatch.plant.series import parse_series
+    from tiny import site
+
+    cfg = site()
+    times = [t for t in pd.date_range("2027-03-28 00:00", periods=5, freq="h") if t.hour != 2]
+    df = pd.DataFrame({"time": [str(t) for t in times], "demand:HP [t/h]": "0", "demand:LP [t/h]": "10",
+                       "load [MW]": "5", "price:import [per MWh]": "50"})
+    with pytest.raises(InputError) as exc:
+        parse_series(df, cfg, "<march>")
+    assert "1 missing hour(s) before 2027-03-28 03:00:00" in str(exc.value) and "daylight-saving" in str(exc.value)

@@ -259,8 +259,12 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
                 raise InputError(path, f"row {row}, column 'time'",
                                  f"{text.iloc[i + 1]} is before the previous row ({prev}): rows must be in time order")
             slash = text.str.contains("/").any()
+            # one hour missing in a month when clocks change (March/April, September to
+            # November, either hemisphere) is most likely the local spring-forward hour
+            clocks = d == 2 and parsed[i].month in (3, 4, 9, 10, 11)
             hint = ("dates with '/' are read month first (01/03/2027 is 3 January): write 2027-03-01" if slash
-                    else "a daylight-saving gap? give UTC offsets")
+                    else "a daylight-saving gap? give UTC offsets" if clocks
+                    else "every hour needs a row")
             if d > 1 and d == round(d):
                 raise InputError(path, f"row {row}, column 'time'",
                                  f"{d - 1:g} missing hour(s) before {text.iloc[i + 1]} ({prev}); {hint}")
