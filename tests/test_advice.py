@@ -543,3 +543,20 @@ def test_a_difference_that_is_not_monotone_in_the_import_price_is_searched_both_
 
     near, other = _flip_prices(Hump(), "P1", 170.0, 50.0, None, 0.5)
     assert near == pytest.approx(120.0, abs=0.5) and other == pytest.approx(680.0, abs=0.5)
+
+
+def test_a_what_if_names_a_driver_change_the_minimum_time_does_not_allow() -> None:
+    """The hour's re-solve does not hold the minimum time between driver changes (that is
+    the plan's, across hours): a what-if that moves a machine's driver says when the change
+    is not yet allowed, from the drivers of the hour before."""
+    from types import SimpleNamespace
+
+    from cogendispatch.decisions import DriverHistory, _blocked_changes
+
+    history = {"AIRB": DriverHistory(((0, 12.0),), 24),  # on motor for 12 h of its 24
+               "HCFP": DriverHistory(((1, 9.0),), 8)}  # on steam for 9 h of its 8: free
+    base = SimpleNamespace(on_steam={"AIRB": 0, "HCFP": 1, "CWP": 0})
+    new = SimpleNamespace(on_steam={"AIRB": 1, "HCFP": 0, "CWP": 1})  # CWP: no history, not judged
+    lines = _blocked_changes(base, new, history)
+    assert lines == ["AIRB: 0 -> 1 machine(s) on steam against the hour before is not allowed for 12 h "
+                     "by the minimum time between driver changes (24 h)"]

@@ -677,7 +677,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
             notes.append(f"{slack_change:,.0f} of the change is the penalty for steam or power the site "
                          "cannot supply or take, not money spent")
         wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
-              "changes": notes + what_if_changes(base_free, new),
+              "changes": notes + what_if_changes(base_free, new) + _blocked_changes(base_free, new, history),
               "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4,
               "surplus": any(s > 1e-4 for s in new.surplus.values()) or new.power_surplus > 1e-4,
               "reserve_short_t_h": new.reserve_short,
@@ -685,6 +685,23 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
               "asked": {**asdict(what_if), "allow_starts": allow_starts}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
                   _time.perf_counter() - t0, categories, not_met)
+
+
+def _blocked_changes(base: HourState, new: HourState, history: dict[str, DriverHistory]) -> list[str]:
+    """A line for each driver change of a what-if that the site's minimum time between
+    driver changes does not allow this hour, counted from the drivers of the hour before
+    (``history``; machines with no known history are not judged). The hour's re-solve
+    itself does not hold that minimum time: it is the plan's, across hours."""
+    out = []
+    for did, n in new.on_steam.items():
+        h = history.get(did)
+        if h is None or n == base.on_steam.get(did) or n == h.before:
+            continue
+        wait = h.held_for(n > h.before)
+        if wait > 0:
+            out.append(f"{did}: {h.before} -> {n} machine(s) on steam against the hour before is not allowed for "
+                       f"{wait} h by the minimum time between driver changes ({h.min_hours} h)")
+    return out
 
 
 def _check_what_if(cfg: SiteConfig, w: WhatIf | None) -> None:
