@@ -260,6 +260,8 @@ def test_inspect_fits_the_terminal_without_cutting_a_number(width: int, monkeypa
     # the wet gas compressor's and the air blower's duty [kW], and B4's curve note, whole
     assert "3,500" in text and "5,000" in text and "convex hull, up to 0.002 % below the curve" in text
     assert "vents" in text and "V-LP" in text  # every unit read is shown, vents too
+    # the ratios whose names do not say it all are explained, once each
+    assert text.count("header_t_per_t: t/h that reach the header") == 1 and text.count("outlet_t_per_t: ") == 1
     assert "condensers" in text and "COND TG1/2" in text and "fuels" in text and "max_import_MW" in text
 
 

@@ -525,6 +525,15 @@ def _table(console: Console, title: str, df: pd.DataFrame) -> None:
         console.print(t)
 
 
+# the quantities of `cogen inspect` whose names do not say it all
+_INSPECT_TERMS = {
+    "header_t_per_t": "t/h that reach the header per t/h of exhaust: above 1, desuperheater water added to "
+                      "bring a hotter exhaust to header temperature; below 1, a colder or wetter exhaust gives up "
+                      "drain (README, 'Header balances')",
+    "outlet_t_per_t": "t/h that leave the desuperheater per t/h through the valve (valve flow plus water)",
+}
+
+
 def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
     """``cogen inspect``: validate a site and print its linear coefficients; returns the exit code."""
     from .coefficients import coefficient_tables
@@ -534,6 +543,7 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
     tables = coefficient_tables(cfg)
     out.print(f"[bold]{escape(cfg.site.name)}[/bold]: valid ({len(cfg.headers)} headers, {len(cfg.boilers)} boilers, "
               f"{len(cfg.turbogenerators)} turbo-generators, {sum(d.count for d in cfg.drives)} driven machines)")
+    explained: set[str] = set()
     for name, df in tables.items():
         if df.empty:
             continue
@@ -550,6 +560,10 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
             wide.columns = label.tolist()
             wide.insert(0, "quantity", wide.index)
             _table(out, name, wide.reset_index(drop=True).astype(object))
+        for col, meaning in _INSPECT_TERMS.items():
+            if col in df and col not in explained:  # once, under the first table that has it
+                explained.add(col)
+                out.print(Text(f"  {col}: {meaning}"), style="dim")
     if args.csv:
         def write(tmp: Path) -> None:
             for name, df in tables.items():
