@@ -98,3 +98,28 @@ def test_a_needless_bus_shortfall_is_settled_while_the_reserve_stays_short() -> 
     assert new_x[lm.col(m.reserve_short[1])] > 10.0
     assert new_obj == pytest.approx(rep.objective, rel=1e-6)
     assert _bounds_restored(lm)
+
+
+def test_a_week_that_cannot_hold_its_reserve_gets_a_cheaper_schedule_around_it() -> None:
+    """One boiler can hold no reserve (cover 1): every hour is short of it whatever the
+    schedule, and neither settling level can zero it. A schedule that also vents 10 t/h in
+    hour 1 (made by holding the vent open, a worse but consistent schedule) is searched
+    again around the shortfall from itself, and the cheaper schedule, venting nothing, is
+    kept."""
+    cfg = site(boiler=[_boiler("B1", True)], reserve={"enabled": True, "cover": 1.0})
+    sm = build_site_model(cfg, series(cfg, 3, demand_LP=30.0, load=5.0))
+    best = LoadedModel(sm).solve_mip(EXACT)
+    lm = LoadedModel(sm)
+    vent = next(c for v, c in zip(lm.vars, lm.cols) if v.name == "vent_V.flow[1]")
+    lm.h.changeColsBounds(1, np.array([vent], dtype=np.int32), np.array([10.0]), np.array([100.0]))
+    # no reserve rows: they would be derived with the vent held open, and stay behind it
+    worse = lm.solve_mip(SolveOptions(gap=1e-6, time_limit=30, settle=False, strengthen=False))
+    lm.h.changeColsBounds(1, np.array([vent], dtype=np.int32), lm.col_lower[[vent]], lm.col_upper[[vent]])
+    x = lm.schedule.copy()
+    assert x[vent] == pytest.approx(10.0) and worse.objective > best.objective + 1.0
+    settled = lm.settle_shortfalls(x, worse.objective, worse.bound, 1e-6, 10.0)
+    assert settled is not None
+    new_x, new_obj = settled
+    assert new_x[vent] < 1e-6 and new_obj == pytest.approx(best.objective, rel=1e-6)
+    assert new_x[lm.col(sm.model.reserve_short[1])] > 10.0  # still short: it cannot be held
+    assert _bounds_restored(lm)

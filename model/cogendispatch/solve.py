@@ -560,7 +560,7 @@ class LoadedModel:
 
     def settle_shortfalls(self, x: np.ndarray, obj: float, bound: float, gap: float,
                           time_limit: float) -> tuple[np.ndarray, float] | None:
-        """A schedule of the same quality or better with fewer shortfalls, when the schedule
+        """A schedule of the same quality or better with fewer shortfalls (or a cheaper one), when the schedule
         ``x`` (objective ``obj``) leaves some slack in use; None when none is found.
 
         A search stopped at a gap can keep a shortfall that costs less than the gap (a
@@ -572,21 +572,31 @@ class LoadedModel:
         is held at zero there, and the schedule found is kept if it costs less than ``obj``
         or lies within ``gap`` [-] of the proven ``bound``. Failing that, the same with
         only the steam and power slacks held (the reserve may stay short), around the hours
-        they are in use. Window widths of :data:`SETTLE_PADS` hours either side are tried
-        in turn; the whole takes at most ``time_limit`` [s].
+        they are in use; failing that too (a week that cannot meet everything), the hours
+        around the shortfalls are searched again with no slack held, from ``x``, and a
+        cheaper schedule is kept. Window widths of :data:`SETTLE_PADS` hours either side are
+        tried in turn; the whole takes at most ``time_limit`` [s].
         """
         t_end = time.perf_counter() + time_limit
         hours = self.col_hours()
-        for reserve in (True, False):
-            slacks = self.slack_cols(reserve)
-            short = slacks[x[slacks] > SLACK_TOL]
+        every = self.slack_cols()
+        if not (x[every] > SLACK_TOL).any():
+            return None
+        empty = np.zeros(0, dtype=np.int32)
+        # (slacks held at zero near the shortfall, whether only a cheaper schedule will do)
+        levels = [(every, False), (self.slack_cols(reserve=False), False), (empty, True)]
+        settled: tuple[np.ndarray, float] | None = None
+        for held_slacks, cheaper_only in levels:
+            # the last level holds none: it searches around whatever is still in use
+            watched = held_slacks if len(held_slacks) else every
+            short = watched[x[watched] > SLACK_TOL]
             if len(short) == 0:
                 continue
             short_hours = np.unique(hours[short])
             for pad in SETTLE_PADS:
                 left = t_end - time.perf_counter()
                 if left < 0.3:
-                    return None
+                    return settled
                 near = np.zeros(len(hours), dtype=bool)
                 for t in short_hours:
                     near |= (hours >= t - pad) & (hours <= t + pad)
@@ -595,11 +605,13 @@ class LoadedModel:
                 ints = np.isin(hold, self.int_cols)
                 vals[ints] = np.round(vals[ints])
                 vals = np.clip(vals, self.col_lower[hold], self.col_upper[hold])
-                free_slacks = np.setdiff1d(slacks, hold).astype(np.int32)
-                cols = np.concatenate([hold, free_slacks])
-                vals = np.concatenate([vals, np.zeros(len(free_slacks))])
+                zeroed = np.setdiff1d(held_slacks, hold).astype(np.int32)
+                cols = np.concatenate([hold, zeroed])
+                vals = np.concatenate([vals, np.zeros(len(zeroed))])
                 self.h.changeColsBounds(len(cols), cols, vals, vals)
                 try:
+                    if cheaper_only:  # x itself is a schedule of this search: start from it
+                        self._set_start(x)
                     self._run(left, gap=1e-4)
                     info = self.h.getInfo()
                     found = info.primal_solution_status == 2
@@ -609,9 +621,17 @@ class LoadedModel:
                     self.h.changeColsBounds(len(cols), cols, self.col_lower[cols], self.col_upper[cols])
                 if new_x is None:
                     continue
-                if new_obj <= obj or (math.isfinite(bound) and new_obj - bound <= gap * abs(new_obj)):
-                    return new_x, new_obj
-        return None
+                if cheaper_only:
+                    ok = new_obj < obj - 1e-6 * abs(obj)
+                else:
+                    ok = new_obj <= obj or (math.isfinite(bound) and new_obj - bound <= gap * abs(new_obj))
+                if ok:  # the next level starts from this schedule
+                    x, obj = new_x, new_obj
+                    settled = (x, obj)
+                    break
+            if settled is not None and held_slacks is every:
+                return settled  # nothing left in use
+        return settled
 
     def improve(self, x: np.ndarray, obj: float, time_limit: float,
                 best: Incumbent | None = None) -> tuple[np.ndarray, float]:
