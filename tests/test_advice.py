@@ -560,3 +560,32 @@ def test_a_what_if_names_a_driver_change_the_minimum_time_does_not_allow() -> No
     lines = _blocked_changes(base, new, history)
     assert lines == ["AIRB: 0 -> 1 machine(s) on steam against the hour before is not allowed for 12 h "
                      "by the minimum time between driver changes (24 h)"]
+
+
+def test_a_flip_below_a_negative_import_price_is_found() -> None:
+    """An hour paid to take power (import at -20 /MWh) whose answer flips at -50: the search
+    goes below a negative price, and a negative flip is not read as zero."""
+    from cogendispatch.decisions import _flip_prices
+
+    class Linear:  # steam minus motor = price + 50: motor better above -50
+        def cost(self, w: WhatIf) -> float:
+            return w.price_import + 50.0 if w.force["P1"] == "steam" else 0.0
+
+    near, other = _flip_prices(Linear(), "P1", -20.0, 30.0, None, 0.5)
+    assert near == pytest.approx(-50.0, abs=0.5) and other is None
+
+
+def test_a_trip_note_names_the_penalty_as_part_of_a_dispatch_change() -> None:
+    """Tripping a poor boiler held at its minimum load saves its fuel as well as the reserve
+    penalty; the note then says how much was penalty and does not claim it all was."""
+    boilers = [{"id": b, "header": "HP", "fuels": ["NG"], "max_steam": f"{mx} t/h", "min_steam": f"{mn} t/h",
+                "efficiency_curve": {"load": [0.05, 1.0], "efficiency": [eta, eta]}, "initial_on": True}
+               for b, mx, mn, eta in (("B1", 150, 10, 0.9), ("B2", 60, 10, 0.9), ("B3", 60, 30, 0.6))]
+    cfg = site(boiler=boilers, reserve={"enabled": True, "cover": 1.0},
+               letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "300 t/h"}])
+    ser = series(cfg, 1, demand_LP=130.0)
+    wi = advise(cfg, ser, str(ser.time[0]), "<tiny>", what_if=WhatIf(trip=["B3"])).what_if
+    note = next(c for c in wi["changes"] if c.startswith("steam reserve no longer kept"))
+    assert "only because" not in note and "of which" in note and "the rest the dispatch" in note
+    freed = float(note.split("of which ")[1].split(" was")[0].replace(",", ""))
+    assert freed == pytest.approx(-wi["penalty_change"], abs=1.0) and -wi["change"] > freed + 10.0

@@ -467,7 +467,8 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         notes = []
         cur = hm.cfg.site.currency
         if flip is None:
-            notes.append(f"no flip between 0 and {_search_top(p0):,.0f} {cur}/MWh of import")
+            lo, hi = _search_range(p0)
+            notes.append(f"no flip between {lo:,.0f} and {hi:,.0f} {cur}/MWh of import")
         elif other is not None:
             notes.append(f"the answer also changes at {other:,.1f} {cur}/MWh of import, "
                          f"{'above' if other > p0 else 'below'} the hour's {p0:,.1f}")
@@ -508,7 +509,7 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
                  tol: float) -> tuple[float | None, float | None]:
     """Import prices where steam and motor cost the same [currency/MWh]: the nearest to the
     hour's price ``p0`` and the first on the other side of it, each None when no price
-    between 0 and :func:`_search_top` flips the answer on that side.
+    in :func:`_search_range` flips the answer on that side.
 
     A dearer import price usually favours steam, but with the rest of the hour re-solved at
     each price the difference need not be monotone: a turbo-generator's load and the
@@ -519,16 +520,14 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
     missed."""
     if abs(d0) <= TOL:
         return p0, None
-    top = _search_top(p0)
+    bottom, top = _search_range(p0)
     found = []
     for up in (True, False):
-        if not up and p0 <= 0.0:
-            continue
-        steps = [p0 * k for k in ((1.1, 1.25, 1.6, 2.5, 4.0, 8.0, 20.0) if up else (0.9, 0.75, 0.5, 0.25, 0.0))]
-        if up:
-            steps = [q for q in steps if q < top] + [top]
-        if est is not None and 0.0 <= est <= top and ((est > p0) if up else (est < p0)):
-            steps = [est * (1.02 if up else 0.98)] + [q for q in steps if (q > est if up else q < est)]
+        # geometric-like steps out to the end of the range on each side
+        fractions = (0.005, 0.013, 0.03, 0.08, 0.16, 0.37, 1.0) if up else (0.1, 0.25, 0.5, 0.75, 1.0)
+        steps = [p0 + (top - p0) * f if up else p0 - (p0 - bottom) * f for f in fractions]
+        if est is not None and bottom <= est <= top and ((est > p0) if up else (est < p0)):
+            steps = [est + 0.02 * abs(est) * (1 if up else -1)] + [q for q in steps if (q > est if up else q < est)]
         flip = _bracket_and_bisect(hm, did, p0, d0, steps, tol)
         if flip is not None:
             found.append(flip)
@@ -536,9 +535,13 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
     return (found[0] if found else None), (found[1] if len(found) > 1 else None)
 
 
-def _search_top(p0: float) -> float:
-    """[currency/MWh] highest import price the flip search tries: 20 times the hour's."""
-    return max(20.0 * abs(p0), 1000.0)
+def _search_range(p0: float) -> tuple[float, float]:
+    """[currency/MWh] lowest and highest import price the flip search tries around the
+    hour's ``p0``: from 0 to 20 times it (at least 1 000); a negative price (an hour paid
+    to take power) is searched from as far again below it (at least 100) up to 1 000."""
+    if p0 > 0.0:
+        return 0.0, max(20.0 * p0, 1000.0)
+    return p0 - max(abs(p0), 100.0), 1000.0
 
 
 def _bracket_and_bisect(hm: HourModel, did: str, p0: float, d0: float, steps: list[float],
@@ -561,10 +564,10 @@ def _bracket_and_bisect(hm: HourModel, did: str, p0: float, d0: float, steps: li
             b, fb = mid, fm
         else:
             a, fa = mid, fm
-    # linear interpolation inside the last bracket; a flip within the tolerance of a zero
-    # import price is zero (the motor is better only when power is free)
+    # linear interpolation inside the last bracket; a flip within the tolerance above a
+    # zero import price is zero (the motor is better only when power is free)
     p = a + (b - a) * fa / (fa - fb) if fa != fb else 0.5 * (a + b)
-    return 0.0 if p < tol else p
+    return 0.0 if 0.0 <= p < tol else p
 
 
 def what_if_changes(base: HourState, new: HourState) -> list[str]:
@@ -657,13 +660,18 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         reserve_change = cfg.penalties.reserve_shortfall * (new.reserve_short - base_free.reserve_short)
         if hm.trips_a_boiler(what_if) and len(hm.reserve_rows):
             note = "steam reserve no longer kept: the site is in the contingency it was kept for"
-            if new.cost < base_free.cost - 1.0:
-                # a trip that makes the hour cheaper: the reserve's penalty (or the dispatch
-                # it constrained) is gone, which is no saving to plan for
-                freed = -reserve_change if reserve_change < -1.0 else 0.0
-                note += (f"; the hour costs {base_free.cost - new.cost:,.0f} less only because the reserve "
-                         "no longer counts" + (f" ({freed:,.0f} of it was the reserve's penalty, not money spent)"
-                                                if freed else ""))
+            less = base_free.cost - new.cost
+            freed = -reserve_change if reserve_change < -1.0 else 0.0
+            if less > 1.0 and freed > 0.0:
+                # a trip that makes the hour cheaper by the reserve's penalty, which is no
+                # saving to plan for; the rest (a poor unit's minimum load no longer burnt,
+                # say) is the dispatch
+                if abs(less - freed) <= 1.0:  # to the currency unit: a real saving is not hidden
+                    note += (f"; the hour costs {less:,.0f} less only because the reserve no longer counts "
+                             f"({freed:,.0f} of it was the reserve's penalty, not money spent)")
+                else:
+                    note += (f"; the hour costs {less:,.0f} less, of which {freed:,.0f} was the reserve's "
+                             "penalty (not money spent) and the rest the dispatch without the tripped unit")
             notes.append(note)
         if new.reserve_short > base_free.reserve_short + 1e-4:
             idle = [b.id for b in cfg.boilers if new.on.get(b.id) == 0 and b.id not in what_if.trip]
