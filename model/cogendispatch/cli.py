@@ -626,6 +626,12 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                                + "; ".join(s["baseline"]["diagnosis"][:3])))
         elif "baseline_note" in s:
             out.print(Text(s["baseline_note"]))
+        if s.get("settle_change") is not None:
+            ch = s["settle_change"]
+            out.print(Text(f"shortfall settled: the search's schedule left some demand or the reserve short; the "
+                           f"hours around it were searched again and the objective changed by {ch:+,.0f} {cur}"
+                           + (" (a dearer schedule within the gap asked, taken because it meets what the first "
+                              "left short)" if ch > 0 else "")))
         for note in s.get("end_stops", []):
             out.print(Text(f"end of horizon: {note}"))
         if "verify" in s:

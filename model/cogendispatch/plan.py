@@ -51,6 +51,7 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
         "gap": run_report.gap,
         "start_objective": run_report.start_objective,
         "found_by": run_report.found_by,
+        "settle_change": run_report.settle_change,
         "currency": cfg.site.currency,
         "cost": t["cost"],
         "cost_total": float(sum(t["cost"].values())),

@@ -63,9 +63,9 @@ BESIDE_HIGHS_OPTIONS: dict[str, float | bool] = {
 
 def settle_limit(time_limit: float) -> float:
     """[s] allowed to :meth:`LoadedModel.settle_shortfalls` after a search of
-    ``time_limit`` [s]: a quarter of it, at least 2 s (a study's windows get 1.5 s) and at
-    most 10 s."""
-    return min(10.0, max(2.0, time_limit / 4))
+    ``time_limit`` [s]: a quarter of it, at least 2 s (or the whole limit, when shorter: a
+    study's windows get 1.5 s) and at most 10 s."""
+    return min(10.0, max(min(2.0, time_limit), time_limit / 4))
 
 
 @dataclass(frozen=True)
@@ -110,6 +110,9 @@ class SolveReport:
     seconds: dict[str, float] = field(default_factory=dict)
     start_objective: float | None = None
     found_by: str = ""  # what found the schedule: "HiGHS", "start", "window by window", "unit by unit"
+    # [currency] objective change of settle_shortfalls (new less old; None: not settled).
+    # Positive: a dearer schedule, within the gap, taken to meet demand and reserve
+    settle_change: float | None = None
 
     @property
     def has_solution(self) -> bool:
@@ -586,17 +589,20 @@ class LoadedModel:
         # (slacks held at zero near the shortfall, whether only a cheaper schedule will do)
         levels = [(every, False), (self.slack_cols(reserve=False), False), (empty, True)]
         settled: tuple[np.ndarray, float] | None = None
-        for held_slacks, cheaper_only in levels:
+        for level, (held_slacks, cheaper_only) in enumerate(levels):
             # the last level holds none: it searches around whatever is still in use
             watched = held_slacks if len(held_slacks) else every
             short = watched[x[watched] > SLACK_TOL]
             if len(short) == 0:
                 continue
             short_hours = np.unique(hours[short])
-            for pad in SETTLE_PADS:
+            for k, pad in enumerate(SETTLE_PADS):
                 left = t_end - time.perf_counter()
                 if left < 0.3:
                     return settled
+                # a share of what is left, so that one attempt (an impossible first level,
+                # say) cannot take the time of the levels after it
+                attempts_left = (len(levels) - level) * len(SETTLE_PADS) - k
                 near = np.zeros(len(hours), dtype=bool)
                 for t in short_hours:
                     near |= (hours >= t - pad) & (hours <= t + pad)
@@ -612,7 +618,7 @@ class LoadedModel:
                 try:
                     if cheaper_only:  # x itself is a schedule of this search: start from it
                         self._set_start(x)
-                    self._run(left, gap=1e-4)
+                    self._run(max(0.3, left / attempts_left), gap=1e-4)
                     info = self.h.getInfo()
                     found = info.primal_solution_status == 2
                     new_x = self.solution() if found else None
@@ -742,9 +748,14 @@ class LoadedModel:
             if gap <= options.gap:
                 status = "optimal"
         found_by = best.source if has and bx is not None and bobj <= obj + 1e-9 * abs(obj) else "HiGHS"
+        settle_change = None
         if has and len(self.int_cols) and options.settle:
-            settled = self.settle_shortfalls(x, obj, bound, max(options.gap, gap), settle_limit(options.time_limit))
+            if progress and (x[self.slack_cols()] > SLACK_TOL).any():
+                progress("the schedule leaves demand or the reserve short: searching the hours around it again")
+            with self._quiet_notes(progress):
+                settled = self.settle_shortfalls(x, obj, bound, max(options.gap, gap), settle_limit(options.time_limit))
             if settled is not None:
+                settle_change = settled[1] - obj
                 x, obj = settled
                 found_by = "shortfall settled"
                 gap = (obj - bound) / abs(obj) if math.isfinite(bound) and obj != 0 else float("inf")
@@ -758,7 +769,8 @@ class LoadedModel:
                 v.set_value(x[c], skip_validation=True)
         secs["total"] = sum(secs[k] for k in ("build", "load", "strengthen", "start", "solve"))
         return SolveReport(status=status, objective=obj, bound=bound, gap=gap, seconds=secs,
-                           start_objective=start_obj, found_by=found_by if has else "")
+                           start_objective=start_obj, found_by=found_by if has else "",
+                           settle_change=settle_change)
 
     def _start_before(self, options: SolveOptions, t0: float, hint: Callable[[int], int] | None,
                       progress: Progress | None) -> tuple[np.ndarray | None, float | None]:
