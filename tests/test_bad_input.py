@@ -82,7 +82,7 @@ SITE_CASES = [
                  ["[[drive]] #1 (id 'BFWP') > min_hours_between_switches", "must be at least 1 h"],
                  id="drive-switch-time-below-an-hour"),
     pytest.param(sub('min_down = "4 h"\ninitial_on = true\nfixed_throttle', 'min_down = "30 min"\ninitial_on = true\nfixed_throttle'),
-                 ["[[turbogenerator]] #2 (id 'TG2') > min_up", "min_up and min_down must be at least 1 h"],
+                 ["[[turbogenerator]] #2 (id 'TG2') > min_down", "must be at least 1 h"],
                  id="turbine-min-down-below-an-hour"),
     pytest.param(sub("blowdown = 0.02", "blowdwn = 0.02"),
                  ["[[boiler]] #4 (id 'B4') > blowdwn", "unknown key"], id="unknown-key"),
@@ -578,7 +578,16 @@ def test_a_run_never_deletes_a_file_it_did_not_write(demo_site: Path, tmp_path: 
     assert "engineer_notes.txt" in err and "did not write" in err
     assert sorted(p.name for p in d.iterdir()) == before
     assert (d / "engineer_notes.txt").read_text() == "B3 burner check on Tuesday"
+    # a folder written before runs kept their list of names cannot be checked up front:
+    # what the new run does not write is carried into the new folder instead
+    (d / ".cogendispatch-files").unlink()
+    assert main(["inspect", str(demo_site), "--csv", str(d)]) == 0
+    assert (d / "engineer_notes.txt").read_text() == "B3 burner check on Tuesday"
+    assert (d / "boilers.csv").is_file() and (d / ".cogendispatch-files").is_file()
     (d / "engineer_notes.txt").unlink()  # moved away: the folder is replaced again
+    # files nobody keeps on purpose (a file browser's, an open workbook's lock) do not block it
+    (d / ".DS_Store").write_text("")
+    (d / "~$plan.xlsx").write_text("")
     assert main(["inspect", str(demo_site), "--csv", str(d)]) == 0
 
 
@@ -598,3 +607,32 @@ def test_a_missing_hour_when_clocks_change_suggests_utc_offsets() -> None:
     with pytest.raises(InputError) as exc:
         parse_series(df, cfg, "<march>")
     assert "1 missing hour(s) before 2027-03-28 03:00:00" in str(exc.value) and "daylight-saving" in str(exc.value)
+
+
+def test_a_zero_minimum_time_means_none() -> None:
+    """'0 h' is a natural way to write 'no minimum': it is the model's 1 h step, as a part
+    hour is refused above."""
+    from tiny import site
+
+    cfg = site(drive=[{"id": "P1", "duty": "1 MW", "motor": {"efficiency": 0.95},
+                       "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": 0.6},
+                       "min_hours_between_switches": "0 h"}],
+               boiler=[{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+                        "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}, "min_up": "0 h"}])
+    assert cfg.drives[0].min_hours_between_switches == 0.0 and cfg.boilers[0].min_up == 0.0
+
+
+def test_a_missing_hour_in_times_with_offsets_does_not_suggest_offsets() -> None:
+    import pandas as pd
+
+    from cogendispatch.errors import InputError
+    from cogendispatch.plant.series import parse_series
+    from tiny import site
+
+    cfg = site()
+    df = pd.DataFrame({"time": ["2027-03-28T00:00+01:00", "2027-03-28T01:00+01:00", "2027-03-28T03:00+01:00"],
+                       "demand:HP [t/h]": "0", "demand:LP [t/h]": "10", "load [MW]": "5",
+                       "price:import [per MWh]": "50"})
+    with pytest.raises(InputError) as exc:
+        parse_series(df, cfg, "<march, with offsets>")
+    assert "missing hour" in str(exc.value) and "daylight-saving" not in str(exc.value)

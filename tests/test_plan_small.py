@@ -505,3 +505,7 @@ def test_a_stop_near_the_horizons_end_is_named_as_an_end_effect() -> None:
     assert end_stops(cfg, sched([1] * 48, [1] * 20 + [0] * 28)) == []  # 28 h before the end: a real stop
     assert end_stops(cfg, sched([1] * 48, [0] * 40 + [1] * 8)) == []  # runs at the end
     assert end_stops(cfg, sched([1] * 48, [0] * 10 + [1] * 30 + [0] * 8)) == []  # off at the start
+    # a plan of 8 h: only its last quarter counts as its end (a stop in hour 2 is a stop)
+    short = sched([1] * 48, [1] * 48).iloc[:8].assign(**{"TG.on": [1, 1, 0, 0, 0, 0, 0, 0]})
+    assert end_stops(cfg, short) == []
+    assert len(end_stops(cfg, short.assign(**{"TG.on": [1] * 6 + [0] * 2}))) == 1

@@ -67,14 +67,30 @@ def check_out_dir(out: Path, kind: str = "plan", option: str = "--out") -> None:
                          "(nothing was written)") from None
 
 
+def _ignorable(name: str) -> bool:
+    """Names nobody keeps on purpose: hidden files (a run's own leftovers, '.DS_Store'),
+    Windows' thumbnail and folder settings, an office program's lock files ('~$...')."""
+    return name.startswith((".", "~$")) or name in ("Thumbs.db", "desktop.ini")
+
+
+def _manifest(out: Path) -> set[str] | None:
+    """Names the run that wrote ``out`` put there; None for a folder without a manifest
+    (written before it was kept)."""
+    try:
+        names = json.loads((out / MANIFEST).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    return {str(n) for n in names} if isinstance(names, list) else None
+
+
 def _not_written_by_us(out: Path) -> list[str]:
     """Names at the top of the output folder ``out`` that its run did not write, from its
-    manifest; none known for a folder written before the manifest was kept."""
-    try:
-        ours = set(json.loads((out / MANIFEST).read_text(encoding="utf-8")))
-    except (OSError, ValueError, TypeError):
+    manifest; none known for a folder written before the manifest was kept (those are
+    carried into the new folder instead, :func:`atomic_dir`)."""
+    ours = _manifest(out)
+    if ours is None:
         return []
-    return sorted(p.name for p in out.iterdir() if p.name not in ours and p.name != MANIFEST)
+    return sorted(p.name for p in out.iterdir() if p.name not in ours and not _ignorable(p.name))
 
 
 def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan",
@@ -106,12 +122,29 @@ def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan
             os.rmdir(old)
             os.replace(out, old)
         os.replace(tmp, out)
-        if old is not None:
+        if old is not None and _carry_over(old, out):
             shutil.rmtree(old, ignore_errors=True)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
     return out
+
+
+def _carry_over(old: Path, new: Path) -> bool:
+    """Move into ``new`` what the replaced folder ``old`` held that its run did not write
+    (a folder without a manifest cannot be checked before the run) and the new run did not
+    write either; True when ``old`` may then be deleted. Anything that cannot be moved
+    keeps ``old`` on disk, beside the new folder, rather than be lost."""
+    ours = _manifest(old) or set()
+    ok = True
+    for p in old.iterdir():
+        if p.name in ours or _ignorable(p.name) or (new / p.name).exists():
+            continue
+        try:
+            os.replace(p, new / p.name)
+        except OSError:
+            ok = False
+    return ok
 
 
 def _safe_text(x: object) -> object:

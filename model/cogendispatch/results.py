@@ -297,11 +297,13 @@ END_WINDOW_H = 24  # [h] a stop this close to the horizon's end is named by end_
 
 def end_stops(cfg: SiteConfig, schedule: pd.DataFrame, within: int = END_WINDOW_H) -> list[str]:
     """Boilers and turbo-generators that run at the start of the plan and stop for good in
-    its last ``within`` hours [h]. The plan sees no hour after its last, so such a stop
+    its last ``within`` hours [h] (at most its last quarter: in a plan of a day, a stop in
+    hour 2 is no end effect). The plan sees no hour after its last, so such a stop
     saves running cost without the restart that would follow: an end-of-horizon effect, not
     advice for the next week (rolling-horizon planning; see e.g. the look-ahead of a study)."""
     notes = []
     n = len(schedule)
+    within = min(within, n // 4)
     for u in (*cfg.boilers, *cfg.turbogenerators):
         col = f"{u.id}.on"
         if col not in schedule:

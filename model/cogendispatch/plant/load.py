@@ -219,8 +219,9 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                 bad(where("boiler", b.id, key), "must be positive")
         if b.initial_steam is not None and b.initial_on and not (b.min_steam - 1e-9 <= b.initial_steam <= b.max_steam + 1e-9):
             bad(where("boiler", b.id, "initial_steam"), "must lie between min_steam and max_steam")
-        if b.min_up < 1 or b.min_down < 1:
-            bad(where("boiler", b.id, "min_up"), "min_up and min_down must be at least 1 h")
+        for key in ("min_up", "min_down"):
+            if getattr(b, key) < 0 or 0 < getattr(b, key) < 1:  # 0 (none) is the 1 h step; a part hour a mistake
+                bad(where("boiler", b.id, key), "must be at least 1 h (the model's time step), or 0 for none")
 
     for t in cfg.turbogenerators:
         if not need_header("turbogenerator", t.id, "inlet", t.inlet):
@@ -277,15 +278,16 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                                      **{hid: v.pressure for hid, v in headers.items()}}, headers, bad, where)
         if t.fixed_throttle is not None and not (t.min_throttle <= t.fixed_throttle <= t.max_throttle):
             bad(where("turbogenerator", t.id, "fixed_throttle"), "must lie between min_throttle and max_throttle")
-        if t.min_up < 1 or t.min_down < 1:  # the model's time step is the hour
-            bad(where("turbogenerator", t.id, "min_up"), "min_up and min_down must be at least 1 h")
+        for key in ("min_up", "min_down"):
+            if getattr(t, key) < 0 or 0 < getattr(t, key) < 1:
+                bad(where("turbogenerator", t.id, key), "must be at least 1 h (the model's time step), or 0 for none")
 
     for d in cfg.drives:
         if d.duty <= 0:
             bad(where("drive", d.id, "duty"), "must be positive")
-        if d.min_hours_between_switches < 1:
+        if d.min_hours_between_switches < 0 or 0 < d.min_hours_between_switches < 1:
             bad(where("drive", d.id, "min_hours_between_switches"),
-                "must be at least 1 h (the model's time step; 1 h lets the driver change every hour)")
+                "must be at least 1 h (the model's time step; 1 h or 0 lets the driver change every hour)")
         st = d.steam_turbine
         if st is not None:
             ok = need_header("drive", d.id, "steam_turbine > inlet", st.inlet)

@@ -260,8 +260,9 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
                                  f"{text.iloc[i + 1]} is before the previous row ({prev}): rows must be in time order")
             slash = text.str.contains("/").any()
             # one hour missing in a month when clocks change (March/April, September to
-            # November, either hemisphere) is most likely the local spring-forward hour
-            clocks = d == 2 and parsed[i].month in (3, 4, 9, 10, 11)
+            # November, either hemisphere) is most likely the local spring-forward hour,
+            # unless the times carry their UTC offsets already
+            clocks = d == 2 and parsed[i].month in (3, 4, 9, 10, 11) and parsed[i].tzinfo is None
             hint = ("dates with '/' are read month first (01/03/2027 is 3 January): write 2027-03-01" if slash
                     else "a daylight-saving gap? give UTC offsets" if clocks
                     else "every hour needs a row")
