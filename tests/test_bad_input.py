@@ -636,3 +636,17 @@ def test_a_missing_hour_in_times_with_offsets_does_not_suggest_offsets() -> None
     with pytest.raises(InputError) as exc:
         parse_series(df, cfg, "<march, with offsets>")
     assert "missing hour" in str(exc.value) and "daylight-saving" not in str(exc.value)
+
+
+def test_a_price_may_name_the_sites_currency() -> None:
+    """'9.0 EUR/GJ' on a site whose currency is EUR reads as '9.0 per GJ'; another currency
+    is still refused (there is no exchange rate to apply)."""
+    from cogendispatch.errors import InputErrors
+    from tiny import site
+
+    cfg = site(fuel=[{"id": "NG", "price": "9.0 EUR/GJ", "co2_factor": "0.056 t/GJ"}])
+    assert cfg.fuels[0].price == pytest.approx(9.0)
+    assert site(fuel=[{"id": "NG", "price": "9 EUR per GJ"}]).fuels[0].price == pytest.approx(9.0)
+    with pytest.raises(InputErrors) as exc:
+        site(fuel=[{"id": "NG", "price": "9.0 USD/GJ"}])
+    assert "[[fuel]] #1 (id 'NG') > price" in str(exc.value)
