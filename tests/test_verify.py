@@ -242,3 +242,19 @@ def test_willans_heat_in_a_back_pressure_exhaust_by_hand() -> None:
     imb, water, rest = (float(x) for x in re.findall(r"([+-]\d+\.\d+) t/h", v.verdict)[:3])
     assert imb == pytest.approx(water + rest, abs=0.011)
     assert water == pytest.approx(round(by_hand, 2), abs=0.011)
+
+
+def test_the_verdict_names_the_first_of_equal_imbalances() -> None:
+    """The same imbalance in many hours (to the 0.01 t/h printed) names the first of them
+    and how many others are alike; it once named one hour or another by round-off."""
+    import pandas as pd
+
+    from cogendispatch.verify import _mass_note
+
+    cfg = site()
+    t = pd.date_range("2027-01-04", periods=4, freq="h")
+    hourly = pd.DataFrame({"HP_mass_imbalance_t_h": [0.0] * 4,
+                           "LP_mass_imbalance_t_h": [0.5457, 0.5458, 0.54571, 0.2],
+                           "HP_exhaust_water_t_h": [0.0] * 4, "LP_exhaust_water_t_h": [0.0] * 4}, index=t)
+    note = _mass_note(cfg, hourly)
+    assert "+0.55 t/h (LP at 2027-01-04 00:00:00 and 2 other hour(s) alike" in note

@@ -219,12 +219,17 @@ def _mass_note(cfg: SiteConfig, hourly: pd.DataFrame) -> str:
     the model counts a little less steam at the exhaust headers than the plant would make)."""
     if hourly.empty or not cfg.headers:
         return ""
-    worst = max(cfg.headers, key=lambda h: hourly[f"{h.id}_mass_imbalance_t_h"].abs().max())
+    # to the 0.01 t/h the verdict prints, the first header and hour of the largest: the same
+    # imbalance in many hours would otherwise name one hour or another by round-off
+    worst = max(cfg.headers, key=lambda h: hourly[f"{h.id}_mass_imbalance_t_h"].abs().round(2).max())
     col = hourly[f"{worst.id}_mass_imbalance_t_h"]
-    t = col.abs().idxmax()
+    shown = col.abs().round(2)
+    t = shown.idxmax()
     if abs(col[t]) < MASS_CLOSE:
         return f"; header mass balances close within {MASS_CLOSE:g} t/h"
-    note = f"; largest header mass imbalance {col[t]:+.2f} t/h ({worst.id} at {t}"
+    alike = int((shown == shown[t]).sum()) - 1
+    note = f"; largest header mass imbalance {col[t]:+.2f} t/h ({worst.id} at {t}" + \
+        (f" and {alike} other hour(s) alike" if alike else "")
     part = float(hourly.loc[t, f"{worst.id}_exhaust_water_t_h"])
     if abs(part) >= 0.5 * abs(col[t]) and any(tg.no_load_loss > 0 for tg in cfg.turbogenerators):
         # the parts named so that they add up to the figure before them
