@@ -214,12 +214,13 @@ def test_no_schedule_at_all_is_a_clear_error(tmp_path, monkeypatch, capsys) -> N
     site, ser = _files(tmp_path)
 
     def nothing(self, options, progress=None):  # noqa: ANN001, ANN202
-        return solve_mod.SolveReport(status="time limit", objective=float("nan"), bound=float("nan"), gap=float("inf"))
+        return solve_mod.SolveReport(status="infeasible", objective=float("nan"), bound=float("nan"), gap=float("inf"))
 
     monkeypatch.setattr(solve_mod.LoadedModel, "solve_mip", nothing)
     rc = main(["plan", str(site), "--series", str(ser), "--out", str(tmp_path / "out"), "--quiet"])
     err = capsys.readouterr().err
     assert rc == 4 and "without any schedule" in err and "Traceback" not in err
+    assert "contradictory" in err  # a status other than the time limit
     assert not (tmp_path / "out").exists()
     with pytest.raises(SolveError):
         solve(build_site_model(*_tiny_model_inputs(tmp_path)), SolveOptions())
@@ -434,3 +435,22 @@ def test_files_hold_no_negative_zeros(tmp_path) -> None:  # noqa: ANN001
     write_csv(df, tmp_path / "b.csv", index=False)
     assert (tmp_path / "b.csv").read_text().splitlines()[1:] == ["B3 steam,0", "BFWP motors,-1.5"]
     assert str(as_written(df).flow_t_h.iloc[0]) == "0.0"
+
+
+def test_a_time_limit_without_a_schedule_asks_for_more_time(tmp_path, monkeypatch, capsys) -> None:  # noqa: ANN001
+    """Every week is feasible with its slacks, so a plan that ends without a schedule at its
+    time limit has run out of time, not met contradictory limits: the message says so."""
+    from cogendispatch import solve as solve_mod
+    from cogendispatch.cli import main
+    from cogendispatch.solve import SolveReport
+
+    def ran_out(self, options, progress=None, hint=None):  # noqa: ANN001, ANN202
+        return SolveReport("time limit", float("nan"), float("-inf"), float("inf"))
+
+    monkeypatch.setattr(solve_mod.LoadedModel, "solve_mip", ran_out)
+    rc = main(["plan", str(ROOT / "plant_configs/saltmarsh_refinery.toml"), "--series",
+               str(ROOT / "plant_configs/saltmarsh_week.csv"), "--out", str(tmp_path / "out"),
+               "--time-limit", "5", "--quiet"])
+    err = capsys.readouterr().err
+    assert rc == 4 and "the 5 s time limit ran out before any schedule was found" in err
+    assert "contradictory" not in err and not (tmp_path / "out").exists()

@@ -905,6 +905,10 @@ def solve_loaded(sm: SiteModel, options: SolveOptions = SolveOptions(),
     lm = LoadedModel(sm, threads=options.highs_threads)
     rep = lm.solve_mip(options, progress)
     if not rep.has_solution:
+        if rep.status == "time limit":  # the slacks make every week feasible: time is what ran out
+            raise SolveError(f"the {options.time_limit:g} s time limit ran out before any schedule was found "
+                             f"(the LP relaxation of this site and series alone can take several seconds); "
+                             "give a longer --time-limit")
         raise SolveError(f"HiGHS stopped ({rep.status}) without any schedule; "
                          "try a longer --time-limit or check the site for contradictory limits")
     return lm, rep
