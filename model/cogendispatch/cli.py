@@ -118,11 +118,13 @@ def build_parser() -> argparse.ArgumentParser:
                         "schedule.csv, balances.csv, power.csv, costs.csv, prices.csv, verify.csv, verify_sections.csv, "
                         "summary.json, report.html and plan.xlsx into --out (whole or not at all).")
     _site_and_series(pl, "hourly demands and prices (CSV or Excel)")
-    pl.add_argument("--out", required=True, help="output folder (created, or replaced if it holds earlier results)")
+    pl.add_argument("--out", required=True, help="output folder (created, or replaced if it holds an earlier plan "
+                                                 "and nothing else)")
     pl.add_argument("--gap", type=_gap, default=1e-3, help="relative MIP gap to stop at (default %(default)g)")
     pl.add_argument("--time-limit", type=_positive, default=120.0,
                     help="time for the search [s] (default %(default)g); reading, building, the re-check, the "
-                         "baseline and the report come on top")
+                         "baseline and the report come on top, and up to a quarter more (2 to 10 s) when the "
+                         "schedule leaves demand or the reserve short")
     pl.add_argument("--threads", type=_count, default=1,
                     help="threads for the solve (default 1); with 2 or more, one builds and improves "
                          "schedules beside HiGHS, which gets the rest: better results in the same time")
