@@ -439,9 +439,10 @@ def test_driver_history_counts_hours_since_the_last_change() -> None:
     # the first hour: the site file alone; without a plan a later hour is unknown
     assert driver_history(cfg, 0, None)["AIRB"].held_for(True) == 21 and "HCFP" not in driver_history(cfg, 0, None)
     assert driver_history(cfg, 9, None) == {}
-    row = {"better": "motor", "count": 1, "on_steam_hour_before": 1, "motor_blocked_h": 4.0, "steam_blocked_h": 0.0}
+    row = {"better": "motor", "count": 1, "best_on_steam": 0, "on_steam_hour_before": 1, "motor_blocked_h": 4.0,
+           "steam_blocked_h": 0.0}
     assert _driver_change(pd.Series(row), "?") == "not allowed for 4 h"
-    assert _driver_change(pd.Series({**row, "better": "steam"}), "?") == "none needed"
+    assert _driver_change(pd.Series({**row, "better": "steam", "best_on_steam": 1}), "?") == "none needed"
     assert _driver_change(pd.Series({**row, "motor_blocked_h": 0.0}), "?") == "allowed"
     assert _driver_change(pd.Series({**row, "on_steam_hour_before": float("nan")}), "?") == "?"
 
@@ -589,3 +590,45 @@ def test_a_trip_note_names_the_penalty_as_part_of_a_dispatch_change() -> None:
     assert "only because" not in note and "of which" in note and "the rest the dispatch" in note
     freed = float(note.split("of which ")[1].split(" was")[0].replace(",", ""))
     assert freed == pytest.approx(-wi["penalty_change"], abs=1.0) and -wi["change"] > freed + 10.0
+
+
+def _pair_site():  # noqa: ANN202
+    drive = {"id": "P1", "duty": f"{P_MW} MW", "count": 2, "motor": {"efficiency": ETA_M},
+             "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": ETA_T}}
+    return site(drive=[drive], boiler=_boiler(), fuel=[{"id": "NG", "price": f"{FUEL} per GJ"}])
+
+
+def test_a_spared_pair_may_be_best_split_between_its_drivers() -> None:
+    """Two identical pumps, power dear (200 /MWh): one pump's exhaust (about 25 t/h) covers
+    a small LP demand, the second's would have to be vented, so one on steam and one on
+    motor beats both all-on-steam and all-on-motor (by reasoning; the costs are the
+    model's). With a large LP demand both exhausts are used: both on steam."""
+    cfg = _pair_site()
+    ser = series(cfg, 1, demand_HP=D_HP, demand_LP=20.0, price_import=200.0)
+    row = advise(cfg, ser, str(ser.time[0]), "<tiny>").drivers.set_index("machine").loc["P1"]
+    assert row.better == "1 of 2 on steam" and row.best_on_steam == 1
+    assert row.cost_best < min(row.cost_on_steam, row.cost_on_motor) - 50.0
+    assert row.saving == pytest.approx(max(row.cost_on_steam, row.cost_on_motor) - row.cost_best)
+    assert "cheapest with 1 of 2 on steam" in row.note
+    ser = series(cfg, 1, demand_HP=D_HP, demand_LP=60.0, price_import=200.0)
+    row = advise(cfg, ser, str(ser.time[0]), "<tiny>").drivers.set_index("machine").loc["P1"]
+    assert row.better == "steam" and row.best_on_steam == 2
+
+
+def test_the_hour_holds_drivers_the_minimum_time_does_not_let_change() -> None:
+    """Driver positions that changed less than the minimum time ago keep their driver in
+    every re-solve of the hour except for the machine a what-if forces: with power cheap
+    both pumps would go to motor, but the first changed to steam 2 h ago (4 h minimum)."""
+    from cogendispatch.decisions import DriverHistory
+
+    h = DriverHistory(((1, 2.0), (0, 9.0)), 4)  # first on steam for 2 h, second on motor for 9
+    assert h.allowed() == (1, 2)
+    assert DriverHistory(((1, 9.0), (0, 1.0)), 4).allowed() == (0, 1)  # the second held on motor
+    assert DriverHistory(((1, 1.0), (0, 1.0)), 1).allowed() == (0, 2)  # 1 h: every hour free
+    cfg = _pair_site()
+    ser = series(cfg, 1, demand_HP=D_HP, demand_LP=40.0, price_import=5.0)
+    hm = HourModel(cfg, ser, 0, {"B1": 1})
+    assert hm.solve().on_steam["P1"] == 0  # free: both on motor
+    hm.driver_limits = {"P1": h.allowed()}
+    assert hm.solve().on_steam["P1"] == 1
+    assert hm.solve(WhatIf(force={"P1": "motor"})).on_steam["P1"] == 0  # forced: the what-if's own

@@ -376,20 +376,18 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 
 def _driver_change(r: pd.Series, unknown: str) -> str:
-    """Whether the site's minimum time between driver changes allows the better driver
-    this hour, from the driver table's row ``r``; ``unknown`` when the drivers before the
-    hour are not known."""
+    """Whether the site's minimum time between driver changes allows the best number of
+    machines on steam this hour, from the driver table's row ``r``; ``unknown`` when the
+    drivers before the hour are not known."""
     before = r["on_steam_hour_before"]
     if before is None or before != before:  # NaN: no history before the hour
         return unknown
-    if r["better"] == "steam":
-        needs, held = before < r["count"], r["steam_blocked_h"]
-    elif r["better"] == "motor":
-        needs, held = before > 0, r["motor_blocked_h"]
-    else:
-        needs, held = False, 0.0
-    if not needs:
+    target = before if r["better"] == "either" else r["best_on_steam"]
+    if target == before:
         return "none needed"
+    if r.get("best_allowed_now", None) is True:
+        return "allowed"
+    held = r["steam_blocked_h"] if target > before else r["motor_blocked_h"]
     return "allowed" if held <= 0 else f"not allowed for {held:.0f} h"
 
 

@@ -39,7 +39,7 @@ TOL = 1e-6
 class WhatIf:
     """Changes for a what-if: drivers forced, units tripped, prices and demands changed."""
 
-    force: dict[str, str] = field(default_factory=dict)  # drive id -> "steam" | "motor"
+    force: dict[str, str | int] = field(default_factory=dict)  # drive id -> "steam" | "motor" | machines on steam
     trip: list[str] = field(default_factory=list)  # boiler or turbo-generator ids
     price_import: float | None = None  # [currency/MWh]
     price_export: float | None = None
@@ -113,6 +113,10 @@ class HourModel:
         self.co2_price = float(self.series1.co2_price.iloc[0])
         self.base_import = float(self.series1.price_import.iloc[0])
         self.feedwater_price = 0.0  # [currency/t], set by marginal_prices()
+        # [machines on steam] (fewest, most) the minimum time between driver changes allows
+        # each machine this hour, from the drivers of the hour before (advise sets them); a
+        # machine a what-if forces is not held to them
+        self.driver_limits: dict[str, tuple[int, int]] = {}
 
     # -- changes -------------------------------------------------------------------------
     def _reset(self) -> None:
@@ -145,9 +149,19 @@ class HourModel:
                 self._fix(c, 0.0)
             elif hold == "all" or (hold == "on" and self.held[uid] == 1):
                 self._fix(c, float(self.held[uid]))
+        for did, (lo, hi) in self.driver_limits.items():
+            if did in w.force or did not in self.drive_cols:
+                continue
+            for k, c in enumerate(self.drive_cols[did]):
+                if k < lo:
+                    self._fix(c, 1.0)
+                elif k >= hi:
+                    self._fix(c, 0.0)
         for did, drv in w.force.items():
-            for c in self.drive_cols[did]:
-                self._fix(c, 1.0 if drv == "steam" else 0.0)
+            # "steam", "motor", or a number of machines on steam (the driver table's splits)
+            n = len(self.drive_cols[did]) if drv == "steam" else 0 if drv == "motor" else int(drv)
+            for k, c in enumerate(self.drive_cols[did]):
+                self._fix(c, 1.0 if k < n else 0.0)
         if w.price_import is not None and self.imp_col is not None:
             self.h.changeColCost(self.imp_col, w.price_import)
         if w.price_export is not None and self.exp_col is not None:
@@ -263,6 +277,18 @@ class DriverHistory:
     def before(self) -> int:
         """Machines on steam in the hour before."""
         return sum(state for state, _ in self.positions)
+
+    def allowed(self) -> tuple[int, int]:
+        """Fewest and most machines on steam that the minimum time between driver changes
+        allows this hour: a position that changed less than ``min_hours`` ago keeps its
+        driver (position k is on steam only if k - 1 is, so the range is whole)."""
+        n = len(self.positions)
+        if self.min_hours <= 1:
+            return 0, n
+        held = [(k, state) for k, (state, hours) in enumerate(self.positions) if hours < self.min_hours]
+        lo = max((k + 1 for k, state in held if state == 1), default=0)
+        hi = min((k for k, state in held if state == 0), default=n)
+        return lo, max(lo, hi)
 
     def held_for(self, steam: bool) -> int:
         """Hours [h] before every machine may run on steam (``steam``) or on motor: the
@@ -445,7 +471,9 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
     """One row per dual-driver machine: cost of the hour on steam and on motor (full
     re-solves), the saving, the import price at which the answer flips (bracketing and
     bisection to ``tol`` [currency/MWh], each step two full re-solves) and the marginal
-    estimate beside it; with the machine's ``history``, the machines on steam in the hour
+    estimate beside it; for spared machines, every number on steam between (``best_on_steam``,
+    ``cost_best``; ``saving`` is the best against the dearer of all on steam and all on
+    motor); with the machine's ``history``, the machines on steam in the hour
     before and ``steam_blocked_h`` / ``motor_blocked_h``, the hours before the site's minimum time
     between driver changes lets every machine run on steam / on motor (0: allowed now; NaN:
     history unknown). ``price_set_by`` (per balance, :func:`prices.set_by`) leaves out a
@@ -461,11 +489,27 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         on_motor = hm.solve(WhatIf(force={d.id: "motor"}))
         c_steam, c_motor = on_steam.cost, on_motor.cost
         d0 = c_steam - c_motor
-        better = "steam" if d0 < -TOL else ("motor" if d0 > TOL else "either")
+        # spared machines: every split too (1 of 2 on steam can beat both extremes)
+        costs = {0: c_motor, d.count: c_steam}
+        for n in range(1, d.count):
+            costs[n] = hm.cost(WhatIf(force={d.id: n}))
+        best_n = min(costs, key=lambda n: (costs[n], -n))
+        worst = max(c_steam, c_motor)
+        if worst - costs[best_n] <= TOL:
+            better, best_n = "either", (d.count if d0 <= 0 else 0)
+        elif best_n == d.count:
+            better = "steam"
+        elif best_n == 0:
+            better = "motor"
+        else:
+            better = f"{best_n} of {d.count} on steam"
         est = marginal_flip_estimate(hm.cfg, d, prices, hm.feedwater_price)
         flip, other = _flip_prices(hm, d.id, p0, d0, est, tol)
         notes = []
         cur = hm.cfg.site.currency
+        if 0 < best_n < d.count and better != "either":
+            notes.append(f"cheapest with {best_n} of {d.count} on steam ({costs[best_n]:,.0f} {cur}); the flip "
+                         "price compares all on steam with all on motor")
         if flip is None:
             lo, hi = _search_range(p0)
             notes.append(f"no flip between {lo:,.0f} and {hi:,.0f} {cur}/MWh of import")
@@ -479,7 +523,8 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
             notes.append("marginal estimate left out: " + ", ".join(dict.fromkeys(penalised)))
         rows.append({
             "machine": d.id, "count": d.count, "now_on_steam": now.get(d.id),
-            "cost_on_steam": c_steam, "cost_on_motor": c_motor, "saving": abs(d0), "better": better,
+            "cost_on_steam": c_steam, "cost_on_motor": c_motor, "best_on_steam": best_n,
+            "cost_best": costs[best_n], "saving": worst - costs[best_n], "better": better,
             "flip_import_price": flip,
             "marginal_estimate": est,
             "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
@@ -487,6 +532,9 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
             "on_steam_hour_before": history[d.id].before if d.id in history else None,
             "steam_blocked_h": float(history[d.id].held_for(True)) if d.id in history else float("nan"),
             "motor_blocked_h": float(history[d.id].held_for(False)) if d.id in history else float("nan"),
+            # whether the minimum time between driver changes allows the best number now
+            "best_allowed_now": (history[d.id].allowed()[0] <= best_n <= history[d.id].allowed()[1])
+            if d.id in history else None,
             "note": "; ".join(notes),
         })
     df = pd.DataFrame(rows)
@@ -634,6 +682,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         raise InputError(None, "--allow-starts", "does not go with --trip: after a trip no other unit can "
                          "start within the hour")
     hm = HourModel(cfg, series, i, held, build)
+    hm.driver_limits = {did: h.allowed() for did, h in history.items()}
     base = hm.solve()
     prices, power_price, x = hm.marginal_prices()
     reasons, pw_reason = price_reasons(hm, x)
