@@ -526,6 +526,9 @@ def test_a_trip_that_frees_a_reserve_penalty_says_why_the_hour_is_cheaper() -> N
     freed = float(note.split("(")[1].split(" of it")[0].replace(",", ""))
     assert less == pytest.approx(-wi["change"], abs=1.0)
     assert freed == pytest.approx(-wi["penalty_change"], abs=1.0) and freed > 1e4
+    # and who picks up the tripped boiler's steam is named
+    assert any(c.startswith("boiler B3 ") and c.endswith("-> 0.0 t/h") for c in wi["changes"])
+    assert any(c.startswith(("boiler B1 ", "boiler B2 ")) for c in wi["changes"])
 
 
 def test_a_difference_that_is_not_monotone_in_the_import_price_is_searched_both_ways() -> None:

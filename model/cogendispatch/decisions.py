@@ -67,6 +67,8 @@ class HourState:
     surplus: dict[str, float] = field(default_factory=dict)  # [t/h] steam no unit can take, per header
     power_surplus: float = 0.0  # [MW] generation beyond load and the export limit
     penalty: float = 0.0  # [currency] the hour's "penalty" cost: every slack at its price
+    steam: dict[str, float] = field(default_factory=dict)  # [t/h] each boiler's steam
+    power: dict[str, float] = field(default_factory=dict)  # [MW] each turbo-generator's output
 
 
 class HourModel:
@@ -211,6 +213,8 @@ class HourModel:
             power_surplus=v(m.power_surplus[0]),
             reserve_short=v(m.reserve_short[0]) if m.component("reserve_short") is not None else 0.0,
             penalty=sum(price * v(var) for var, price in self.penalty_terms),
+            steam={b.id: v(self.blocks[b.id].steam[0]) for b in self.cfg.boilers},
+            power={t.id: v(self.blocks[t.id].power[0]) for t in self.cfg.turbogenerators},
         )
 
     def marginal_prices(self, w: WhatIf = WhatIf()) -> tuple[dict[str, float], float, np.ndarray]:
@@ -627,6 +631,15 @@ def what_if_changes(base: HourState, new: HourState) -> list[str]:
     for d, n in new.on_steam.items():
         if n != base.on_steam.get(d):
             out.append(f"{d}: {base.on_steam.get(d)} -> {n} machine(s) on steam")
+    # who picks up the load: boilers' steam and turbo-generators' power that moved
+    for b, f in new.steam.items():
+        was = base.steam.get(b, 0.0)
+        if abs(f - was) > 0.05:
+            out.append(f"boiler {b} {was:.1f} -> {f:.1f} t/h")
+    for t, f in new.power.items():
+        was = base.power.get(t, 0.0)
+        if abs(f - was) > 0.005:
+            out.append(f"turbo-generator {t} {was:.2f} -> {f:.2f} MW")
     for ld, f in new.letdown.items():
         b = base.letdown.get(ld, 0.0)
         if abs(f - b) > 0.05:
