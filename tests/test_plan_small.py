@@ -509,3 +509,9 @@ def test_a_stop_near_the_horizons_end_is_named_as_an_end_effect() -> None:
     short = sched([1] * 48, [1] * 48).iloc[:8].assign(**{"TG.on": [1, 1, 0, 0, 0, 0, 0, 0]})
     assert end_stops(cfg, short) == []
     assert len(end_stops(cfg, short.assign(**{"TG.on": [1] * 6 + [0] * 2}))) == 1
+    # a machine that keeps a driver 24 h changing 5 h before the end: the plan saw 5 of them
+    cfg = site(drive=[{**DRIVE, "min_hours_between_switches": "24 h"}])
+    s = pd.DataFrame({"P1.on_steam": [0] * 43 + [1] * 5}, index=pd.Index(t, name="time"))
+    notes = end_stops(cfg, s)
+    assert len(notes) == 1 and notes[0].startswith("P1 changes from 0 to 1 machine(s) on steam at 2027-01-05 19:00")
+    assert end_stops(cfg, s.assign(**{"P1.on_steam": [0] * 20 + [1] * 28})) == []  # 28 h before: seen whole

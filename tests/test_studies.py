@@ -226,6 +226,9 @@ def test_study_reports_shortfalls_like_a_plan(capsys) -> None:  # noqa: ANN001
     ser = series(cfg, 30, demand_LP=[60.0] * 10 + [400.0] * 3 + [60.0] * 17)
     r = rolling_horizon(cfg, PreparedScenario("peak", ser, ()), FAST, window=12, lookahead=4)
     assert r.shortfall_hours == 3
+    row = summarise(cfg, r).iloc[0]  # money apart from the penalties, which dwarf it here
+    assert row.cost_total_without_penalty == pytest.approx(row.cost_total - row.cost_penalty)
+    assert row.cost_penalty > 1e5
     # the peak straddles a window edge: each window names its short headers, with dates
     assert r.diagnosis and all("header short" in d and "2027-03-01 1" in d for d in r.diagnosis)
     assert any("binding in hour" in d and "at its" in d for d in r.diagnosis)

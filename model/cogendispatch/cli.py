@@ -400,7 +400,8 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
     from .outputs import check_out_dir
     from .plant.load import load_site
     from .plant.series import load_series
-    from .studies import load_scenarios, run_study, summarise
+    from .results import end_stops
+    from .studies import COLD_MIN, load_scenarios, run_study, summarise
 
     if args.window < 1 or args.lookahead < 0:
         raise InputError(None, "--window", "the window must be at least 1 h and the look-ahead not negative")
@@ -464,6 +465,12 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
                      for n, g in zip(table.scenario, table.largest_window_gap))
     out.print(Text(f"largest gap of a window's search: {gaps}; cost differences smaller than "
                    "these are within the search's tolerance (give --time-limit more to narrow them)"))
+    if args.time_limit < COLD_MIN:
+        out.print(Text(f"each scenario's first window was given at least {COLD_MIN:g} s, not --time-limit "
+                       f"{args.time_limit:g} s: with no week before it, it starts from its LP relaxation"))
+    for r in results:
+        for note in end_stops(cfg, r.schedule):
+            out.print(Text(f"end of horizon, {r.name}: {note}"))
     out.print(f"outputs in {Path(args.out).resolve()}")
     out.print(f"[italic]{SAFETY_NOTE}[/italic]")
     short = [r.name for r in results if r.shortfall_hours]

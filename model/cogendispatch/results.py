@@ -298,7 +298,8 @@ END_WINDOW_H = 24  # [h] a stop this close to the horizon's end is named by end_
 def end_stops(cfg: SiteConfig, schedule: pd.DataFrame, within: int = END_WINDOW_H) -> list[str]:
     """Boilers and turbo-generators that run at the start of the plan and stop for good in
     its last ``within`` hours [h] (at most its last quarter: in a plan of a day, a stop in
-    hour 2 is no end effect). The plan sees no hour after its last, so such a stop
+    hour 2 is no end effect), and machines whose last driver change lies closer to the end
+    than their minimum time between changes. The plan sees no hour after its last, so such a stop
     saves running cost without the restart that would follow: an end-of-horizon effect, not
     advice for the next week (rolling-horizon planning; see e.g. the look-ahead of a study)."""
     notes = []
@@ -318,4 +319,17 @@ def end_stops(cfg: SiteConfig, schedule: pd.DataFrame, within: int = END_WINDOW_
                          f"({n - stop} h): the plan sees no hour after its last, so this stop pays no restart; "
                          "if the site runs on, plan with the next day's series too and keep the first "
                          f"{n} h")
+    for d in cfg.drives:
+        col = f"{d.id}.on_steam"
+        if col not in schedule or d.min_hours_between_switches <= 1 or n < 2:
+            continue
+        v = schedule[col].to_numpy()
+        changes = np.flatnonzero(v[1:] != v[:-1]) + 1
+        if len(changes) == 0:
+            continue
+        c = int(changes[-1])
+        if n - c < min(d.min_hours_between_switches, within) and n - c <= within:
+            notes.append(f"{d.id} changes from {v[c - 1]:g} to {v[c]:g} machine(s) on steam at "
+                         f"{schedule.index[c]:%Y-%m-%d %H:%M}, {n - c} h before the plan's end, though it keeps a "
+                         f"driver at least {d.min_hours_between_switches:g} h: the plan saw only part of that choice")
     return notes

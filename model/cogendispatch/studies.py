@@ -367,6 +367,8 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
     for cat in c.columns:
         frame[f"cost_{cat}"] = c[cat]
     frame["cost_total"] = c.sum(axis=1)
+    # what is money: the penalties price demand and reserve not met, and can dwarf the rest
+    frame["cost_total_without_penalty"] = frame["cost_total"] - (c["penalty"] if "penalty" in c else 0.0)
     fuel_cols = {f.id: [f"{b.id}.fuel_{f.id}_GJ_h" for b in cfg.boilers if f.id in b.fuels] for f in cfg.fuels}
     for fid, cols in fuel_cols.items():
         frame[f"fuel_{fid}_GJ"] = s[cols].sum(axis=1) if cols else 0.0
