@@ -596,13 +596,14 @@ class LoadedModel:
             if len(short) == 0:
                 continue
             short_hours = np.unique(hours[short])
-            for k, pad in enumerate(SETTLE_PADS):
+            for pad in SETTLE_PADS:
                 left = t_end - time.perf_counter()
                 if left < 0.3:
                     return settled
-                # a share of what is left, so that one attempt (an impossible first level,
-                # say) cannot take the time of the levels after it
-                attempts_left = (len(levels) - level) * len(SETTLE_PADS) - k
+                # a share of what is left, so that one level (an impossible first one, say)
+                # cannot take the time of the levels after it; a level's wider window gets
+                # what its narrower one left
+                attempts_left = len(levels) - level
                 near = np.zeros(len(hours), dtype=bool)
                 for t in short_hours:
                     near |= (hours >= t - pad) & (hours <= t + pad)
