@@ -635,3 +635,15 @@ def test_the_hour_holds_drivers_the_minimum_time_does_not_let_change() -> None:
     hm.driver_limits = {"P1": h.allowed()}
     assert hm.solve().on_steam["P1"] == 1
     assert hm.solve(WhatIf(force={"P1": "motor"})).on_steam["P1"] == 0  # forced: the what-if's own
+
+
+def test_an_estimate_that_disagrees_with_the_re_solves_is_said_so() -> None:
+    """With 2 t/h of LP demand, the pump turbine's 25 t/h or so of exhaust would mostly be
+    vented: at the hour's marginal prices (LP priced by the letdown) the estimate says
+    steam pays above about 40 /MWh, while the full re-solves, which vent the exhaust, say
+    motor at 100 (they flip near 340). The note says the two disagree and why."""
+    cfg = _site(boiler=_boiler(), fuel=[{"id": "NG", "price": f"{FUEL} per GJ"}])
+    ser = series(cfg, 1, demand_HP=D_HP, demand_LP=2.0, price_import=100.0)
+    row = advise(cfg, ser, str(ser.time[0]), "<tiny>").drivers.iloc[0]
+    assert row.better == "motor" and row.marginal_estimate < 100.0 < row.flip_import_price
+    assert "the marginal estimate" in row.note and "points to steam" in row.note and "say motor" in row.note

@@ -525,6 +525,12 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         if est is not None and penalised:
             est = None
             notes.append("marginal estimate left out: " + ", ".join(dict.fromkeys(penalised)))
+        elif est is not None and better in ("steam", "motor") and (est < p0) != (better == "steam"):
+            # the estimate holds for a small change at the hour's prices; a whole machine's
+            # steam can move them (its exhaust vented, a letdown closed)
+            notes.append(f"the marginal estimate ({est:,.1f}) points to {'steam' if est < p0 else 'motor'} at the "
+                         f"hour's {p0:,.1f} {cur}/MWh; the full re-solves, which count the whole machine's steam, "
+                         f"say {better}")
         rows.append({
             "machine": d.id, "count": d.count, "now_on_steam": now.get(d.id),
             "cost_on_steam": c_steam, "cost_on_motor": c_motor, "best_on_steam": best_n,
