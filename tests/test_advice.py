@@ -536,7 +536,7 @@ def test_a_difference_that_is_not_monotone_in_the_import_price_is_searched_both_
     fall as the import price rises (a turbo-generator's load moves with it). Here, made up:
     the motor is better at the hour's 170 /MWh and from 120 to 680; steam is better below
     120 and above 680. The nearest flip is 120 (below the hour's price); a search upwards
-    only, as this once was, found 680 alone."""
+    only, as this once was, found 680 alone."""  # noqa: D205
     from cogendispatch.decisions import _flip_prices
 
     class Hump:
@@ -546,6 +546,11 @@ def test_a_difference_that_is_not_monotone_in_the_import_price_is_searched_both_
             return diff if w.force["P1"] == "steam" else 0.0
 
     near, other = _flip_prices(Hump(), "P1", 170.0, 50.0, None, 0.5)
+    assert near == pytest.approx(120.0, abs=0.5)
+    assert other is None  # the far side is searched only as far as the flip in hand
+    # with an estimate above the hour's price that side is searched first, and the nearer
+    # flip below is still found; both are then known
+    near, other = _flip_prices(Hump(), "P1", 170.0, 50.0, 600.0, 0.5)
     assert near == pytest.approx(120.0, abs=0.5) and other == pytest.approx(680.0, abs=0.5)
 
 

@@ -33,6 +33,7 @@ from .site import BuildOptions, SiteModel, build_site_model
 from .solve import LoadedModel
 
 TOL = 1e-6
+TIE = 0.01  # [currency/h] steam and motor closer than this cost the same for the flip search
 
 
 @dataclass
@@ -566,27 +567,34 @@ def _diff(hm: HourModel, did: str, price: float) -> float:
 def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | None,
                  tol: float) -> tuple[float | None, float | None]:
     """Import prices where steam and motor cost the same [currency/MWh]: the nearest to the
-    hour's price ``p0`` and the first on the other side of it, each None when no price
-    in :func:`_search_range` flips the answer on that side.
+    hour's price ``p0``, and one on the other side of it when that side was searched as far
+    (None when no price in :func:`_search_range` flips the answer).
 
     A dearer import price usually favours steam, but with the rest of the hour re-solved at
     each price the difference need not be monotone: a turbo-generator's load and the
     letdowns move with the import price, and with them what the machine's exhaust steam is
     worth. So both sides are searched, stepping out geometrically from ``p0`` (the marginal
-    estimate ``est``, when it lies on a side, is that side's first step), then bisected to
-    ``tol`` [currency/MWh]. A flip between two steps that flips back before the next is
-    missed."""
-    if abs(d0) <= TOL:
+    estimate ``est``, when it lies on a side, is that side's first step and that side is
+    searched first), then narrowed to ``tol`` [currency/MWh]. Once a flip is found, the
+    other side is searched only as far from ``p0`` as it lies: each step is two
+    re-solves. A flip between two steps that flips back before the next is missed."""
+    if abs(d0) <= TIE:
         return p0, None
     bottom, top = _search_range(p0)
-    found = []
-    for up in (True, False):
-        # geometric-like steps out to the end of the range on each side
-        fractions = (0.005, 0.013, 0.03, 0.08, 0.16, 0.37, 1.0) if up else (0.1, 0.25, 0.5, 0.75, 1.0)
+    first_up = est is not None and est > p0
+    found: list[float] = []
+    for up in (first_up, not first_up):
+        # geometric-like steps out to the end of the range on each side (few: each step is
+        # two re-solves)
+        fractions = (0.013, 0.08, 0.37, 1.0) if up else (0.25, 0.6, 1.0)
         steps = [p0 + (top - p0) * f if up else p0 - (p0 - bottom) * f for f in fractions]
         if est is not None and bottom <= est <= top and ((est > p0) if up else (est < p0)):
             steps = [est + 0.02 * abs(est) * (1 if up else -1)] + [q for q in steps if (q > est if up else q < est)]
-        flip = _bracket_and_bisect(hm, did, p0, d0, steps, tol)
+        if found:  # no further than the flip in hand: a nearer one is all that could matter
+            reach = abs(found[0] - p0)
+            steps = [q for q in steps if abs(q - p0) < reach] + [p0 + reach if up else p0 - reach]
+            steps = [q for q in steps if bottom <= q <= top]
+        flip = _bracket_and_bisect(hm, did, p0, d0, steps, tol) if steps else None
         if flip is not None:
             found.append(flip)
     found.sort(key=lambda q: abs(q - p0))
@@ -604,27 +612,50 @@ def _search_range(p0: float) -> tuple[float, float]:
 
 def _bracket_and_bisect(hm: HourModel, did: str, p0: float, d0: float, steps: list[float],
                         tol: float) -> float | None:
-    """The first sign change of steam-minus-motor cost along ``steps`` from ``p0``,
-    bisected to ``tol`` and interpolated in its last bracket; None without one."""
-    a, fa = p0, d0
+    """The first price along ``steps`` from ``p0`` where the driver better at ``p0`` stops
+    being better by more than :data:`TIE` [currency/h], narrowed to ``tol`` and
+    interpolated in its last bracket; None without one. (Where steam and motor cost the
+    same to a cent over a range of prices, the flip is that range's far edge, not a point
+    inside it chosen by round-off.)"""
+    shift = TIE if d0 > 0 else -TIE
+
+    def g(q: float) -> float:
+        return _diff(hm, did, q) - shift
+
+    a, fa = p0, d0 - shift
     for q in steps:
-        fq = _diff(hm, did, q)
+        fq = g(q)
         if fq * fa <= 0:
             b, fb = q, fq
             break
         a, fa = q, fq
     else:
         return None
-    while abs(b - a) > tol:
-        mid = 0.5 * (a + b)
-        fm = _diff(hm, did, mid)
-        if fm * fa <= 0:
+    # false position, falling back to a halving step whenever the last step did not halve
+    # the bracket: the difference is piecewise linear in the price (an LP's optimum in a
+    # cost coefficient), so false position lands on the root of a linear piece in one or
+    # two steps where halving alone takes ten, and the halving steps keep it from crawling
+    # along a flat piece (a bracketing hybrid in the manner of Dekker's method, from memory)
+    halve = False
+    for _ in range(60):
+        width = abs(b - a)
+        if width <= tol:
+            break
+        mid = 0.5 * (a + b) if halve or fa == fb else a + (b - a) * fa / (fa - fb)
+        if not (min(a, b) < mid < max(a, b)):
+            mid = 0.5 * (a + b)
+        fm = g(mid)
+        if abs(fm) <= 1e-6 * max(1.0, abs(fa), abs(fb)):
+            a = b = mid
+            break
+        if fm * fa < 0:
             b, fb = mid, fm
         else:
             a, fa = mid, fm
-    # linear interpolation inside the last bracket; a flip within the tolerance above a
-    # zero import price is zero (the motor is better only when power is free)
-    p = a + (b - a) * fa / (fa - fb) if fa != fb else 0.5 * (a + b)
+        halve = abs(b - a) > 0.5 * width
+    # the root inside the last bracket; a flip within the tolerance above a zero import
+    # price is zero (the motor is better only when power is free)
+    p = a if a == b else (a + (b - a) * fa / (fa - fb) if fa != fb else 0.5 * (a + b))
     return 0.0 if 0.0 <= p < tol else p
 
 
