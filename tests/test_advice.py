@@ -652,3 +652,26 @@ def test_an_estimate_that_disagrees_with_the_re_solves_is_said_so() -> None:
     row = advise(cfg, ser, str(ser.time[0]), "<tiny>").drivers.iloc[0]
     assert row.better == "motor" and row.marginal_estimate < 100.0 < row.flip_import_price
     assert "the marginal estimate" in row.note and "points to steam" in row.note and "say motor" in row.note
+
+
+def test_a_tie_over_a_range_of_prices_flips_at_its_edge_in_few_re_solves() -> None:
+    """Below 47 /MWh steam and motor cost the same to a fraction of a cent (a made-up
+    difference of -0.004 per hour), above it the motor is better: the flip is the edge of
+    that tie, 47, found in a few steps (the search once crawled through the flat part for
+    30 steps)."""
+    from cogendispatch.decisions import _flip_prices
+
+    calls = []
+
+    class FlatThenRise:
+        def cost(self, w: WhatIf) -> float:
+            calls.append(1)
+            p = w.price_import
+            diff = -0.004 if p < 47.0 else 2.0 * (p - 47.0) - 0.004
+            return diff if w.force["P1"] == "steam" else 0.0
+
+    near, other = _flip_prices(FlatThenRise(), "P1", 100.0, 106.0, None, 0.5)
+    assert near == pytest.approx(47.0, abs=0.5) and other is None
+    # two re-solves a step: 4 to bracket it, about 10 to narrow 35 /MWh to 0.5 (halving
+    # every other step); crawling along the flat part took 30 steps
+    assert len(calls) <= 2 * 16

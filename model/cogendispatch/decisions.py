@@ -631,11 +631,11 @@ def _bracket_and_bisect(hm: HourModel, did: str, p0: float, d0: float, steps: li
         a, fa = q, fq
     else:
         return None
-    # false position, falling back to a halving step whenever the last step did not halve
-    # the bracket: the difference is piecewise linear in the price (an LP's optimum in a
-    # cost coefficient), so false position lands on the root of a linear piece in one or
-    # two steps where halving alone takes ten, and the halving steps keep it from crawling
-    # along a flat piece (a bracketing hybrid in the manner of Dekker's method, from memory)
+    # false position and halving steps in turn (two halvings running when a step did not
+    # halve the bracket): the difference is piecewise linear in the price (an LP's optimum
+    # in a cost coefficient), so false position lands on the root of a linear piece in one
+    # step, and the halving steps keep it from crawling along a flat piece or a kink (a
+    # bracketing hybrid in the manner of Dekker's method, from memory)
     halve = False
     for _ in range(60):
         width = abs(b - a)
@@ -652,7 +652,7 @@ def _bracket_and_bisect(hm: HourModel, did: str, p0: float, d0: float, steps: li
             b, fb = mid, fm
         else:
             a, fa = mid, fm
-        halve = abs(b - a) > 0.5 * width
+        halve = not halve or abs(b - a) > 0.5 * width
     # the root inside the last bracket; a flip within the tolerance above a zero import
     # price is zero (the motor is better only when power is free)
     p = a if a == b else (a + (b - a) * fa / (fa - fb) if fa != fb else 0.5 * (a + b))
