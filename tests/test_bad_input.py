@@ -76,7 +76,6 @@ SITE_CASES = [
                  ["not valid TOML", f"line {_line_of(B1_MAX)}"], id="malformed-toml-unterminated-string"),
     pytest.param(sub('max_steam = "60 t/h"', 'max_steam = "60 t/h"\nmax_steam = "70 t/h"'),
                  ["not valid TOML", f"line {_line_of(B4_MAX) + 1}"], id="malformed-toml-repeated-key"),
-    # --- keys
     # --- times below the model's hour step, refused as a boiler's min_up is
     pytest.param(sub('min_hours_between_switches = "4 h"', 'min_hours_between_switches = "4 min"'),
                  ["[[drive]] #1 (id 'BFWP') > min_hours_between_switches", "must be at least 1 h"],
@@ -84,6 +83,7 @@ SITE_CASES = [
     pytest.param(sub('min_down = "4 h"\ninitial_on = true\nfixed_throttle', 'min_down = "30 min"\ninitial_on = true\nfixed_throttle'),
                  ["[[turbogenerator]] #2 (id 'TG2') > min_down", "must be at least 1 h"],
                  id="turbine-min-down-below-an-hour"),
+    # --- keys
     pytest.param(sub("blowdown = 0.02", "blowdwn = 0.02"),
                  ["[[boiler]] #4 (id 'B4') > blowdwn", "unknown key"], id="unknown-key"),
     pytest.param(sub("[reserve]", "[reserv]"),

@@ -544,14 +544,17 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
             "steam_blocked_h": float(history[d.id].held_for(True)) if d.id in history else float("nan"),
             "motor_blocked_h": float(history[d.id].held_for(False)) if d.id in history else float("nan"),
             # whether the minimum time between driver changes allows the best number now
-            "best_allowed_now": (history[d.id].allowed()[0] <= best_n <= history[d.id].allowed()[1])
-            if d.id in history else None,
+            "best_allowed_now": _in_range(best_n, history[d.id].allowed()) if d.id in history else None,
             "note": "; ".join(notes),
         })
     df = pd.DataFrame(rows)
     if not df.empty:
         df = df.sort_values("saving", ascending=False, kind="stable").reset_index(drop=True)
     return df
+
+
+def _in_range(n: int, bounds: tuple[int, int]) -> bool:
+    return bounds[0] <= n <= bounds[1]
 
 
 def _short(st: HourState) -> bool:
@@ -669,22 +672,14 @@ def what_if_changes(base: HourState, new: HourState) -> list[str]:
         if n != base.on_steam.get(d):
             out.append(f"{d}: {base.on_steam.get(d)} -> {n} machine(s) on steam")
     # who picks up the load: boilers' steam and turbo-generators' power that moved
-    for b, f in new.steam.items():
-        was = base.steam.get(b, 0.0)
-        if abs(f - was) > 0.05:
-            out.append(f"boiler {b} {was:.1f} -> {f:.1f} t/h")
-    for t, f in new.power.items():
-        was = base.power.get(t, 0.0)
-        if abs(f - was) > 0.005:
-            out.append(f"turbo-generator {t} {was:.2f} -> {f:.2f} MW")
-    for ld, f in new.letdown.items():
-        b = base.letdown.get(ld, 0.0)
-        if abs(f - b) > 0.05:
-            out.append(f"letdown {ld} {b:.1f} -> {f:.1f} t/h")
-    for vt, f in new.vent.items():
-        b = base.vent.get(vt, 0.0)
-        if abs(f - b) > 0.05:
-            out.append(f"vent {vt} {b:.1f} -> {f:.1f} t/h")
+    for label, was, now, unit, digits in (("boiler", base.steam, new.steam, "t/h", 1),
+                                          ("turbo-generator", base.power, new.power, "MW", 2),
+                                          ("letdown", base.letdown, new.letdown, "t/h", 1),
+                                          ("vent", base.vent, new.vent, "t/h", 1)):
+        for uid, f in now.items():
+            b = was.get(uid, 0.0)
+            if abs(f - b) > 0.5 * 10.0 ** -digits:  # a change that shows at the digits printed
+                out.append(f"{label} {uid} {b:.{digits}f} -> {f:.{digits}f} {unit}")
     for h, s in new.short.items():
         if s > 1e-4:
             out.append(f"{h} header SHORT {s:.2f} t/h")

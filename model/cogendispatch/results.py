@@ -328,7 +328,7 @@ def end_stops(cfg: SiteConfig, schedule: pd.DataFrame, within: int = END_WINDOW_
         if len(changes) == 0:
             continue
         c = int(changes[-1])
-        if n - c < min(d.min_hours_between_switches, within) and n - c <= within:
+        if n - c < min(d.min_hours_between_switches, within):
             notes.append(f"{d.id} changes from {v[c - 1]:g} to {v[c]:g} machine(s) on steam at "
                          f"{schedule.index[c]:%Y-%m-%d %H:%M}, {n - c} h before the plan's end, though it keeps a "
                          f"driver at least {d.min_hours_between_switches:g} h: the plan saw only part of that choice")

@@ -526,12 +526,17 @@ class LoadedModel:
                 break
             x, obj = _newest(x, obj, best)
             hold = np.flatnonzero((hours >= 0) & ((hours < a) | (hours >= a + width))).astype(np.int32)
-            vals = x[hold].copy()
-            ints = np.isin(hold, self.int_cols)
-            vals[ints] = np.round(vals[ints])
-            vals = np.clip(vals, self.col_lower[hold], self.col_upper[hold])
+            vals = self._held_values(x, hold)
             x, obj = self._search_around(x, obj, hold, vals, min(left, 5.0), gap, best, "window by window")
         return x, obj
+
+    def _held_values(self, x: np.ndarray, hold: np.ndarray) -> np.ndarray:
+        """Values of the columns ``hold`` to hold them at ``x``: integers rounded, everything
+        within its bounds (solver round-off may leave a value a hair outside)."""
+        vals = x[hold].copy()
+        ints = np.isin(hold, self.int_cols)
+        vals[ints] = np.round(vals[ints])
+        return np.clip(vals, self.col_lower[hold], self.col_upper[hold])
 
     def _search_around(self, x: np.ndarray, obj: float, hold: np.ndarray, vals: np.ndarray, time_limit: float,
                        gap: float, best: Incumbent | None, source: str) -> tuple[np.ndarray, float]:
@@ -608,10 +613,7 @@ class LoadedModel:
                 for t in short_hours:
                     near |= (hours >= t - pad) & (hours <= t + pad)
                 hold = np.flatnonzero((hours >= 0) & ~near).astype(np.int32)
-                vals = x[hold].copy()
-                ints = np.isin(hold, self.int_cols)
-                vals[ints] = np.round(vals[ints])
-                vals = np.clip(vals, self.col_lower[hold], self.col_upper[hold])
+                vals = self._held_values(x, hold)
                 zeroed = np.setdiff1d(held_slacks, hold).astype(np.int32)
                 cols = np.concatenate([hold, zeroed])
                 vals = np.concatenate([vals, np.zeros(len(zeroed))])
