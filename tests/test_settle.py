@@ -130,3 +130,48 @@ def test_a_week_that_cannot_hold_its_reserve_gets_a_cheaper_schedule_around_it()
     assert new_x[vent] < 1e-6 and new_obj == pytest.approx(best.objective, rel=1e-6)
     assert new_x[lm.col(sm.model.reserve_short[1])] > 10.0  # still short: it cannot be held
     assert _bounds_restored(lm)
+
+
+@pytest.mark.parametrize("peak, extended", [(200.0, True), (30.0, False)])
+def test_the_start_gets_longer_when_the_lp_relaxation_is_short(monkeypatch: pytest.MonkeyPatch,
+                                                               peak: float, extended: bool) -> None:
+    """Three 60 t/h boilers cannot carry 200 t/h of LP steam: the LP relaxation itself is
+    short, so the MILP after its rounding may use the longer ``short_time_limit``; a week
+    the relaxation meets keeps the ordinary limit (beside.SHORT_START_SHARE)."""
+    cfg = site(boiler=[_boiler("B1", True), _boiler("B2", True), _boiler("B3", False, 20_000)],
+               reserve={"enabled": True, "cover": 1.0})
+    lm = LoadedModel(build_site_model(cfg, series(cfg, 3, demand_LP=[30, peak, 30])))
+    given: list[float] = []
+    real = LoadedModel.commitment_start
+
+    def recording(self: LoadedModel, guess, time_limit: float, *args, **kwargs):  # noqa: ANN001
+        given.append(time_limit)
+        return real(self, guess, time_limit, *args, **kwargs)
+
+    monkeypatch.setattr(LoadedModel, "commitment_start", recording)
+    x = lm.rounding_start(1.0, short_time_limit=40.0)
+    assert x is not None
+    assert (given[0] > 30.0) is extended
+    assert bool((x[lm.slack_cols()] > 1e-6).any()) is extended
+
+
+def test_a_search_stopped_before_its_root_lp_reports_the_start_lp_as_bound(monkeypatch: pytest.MonkeyPatch) -> None:
+    """When HiGHS stops before its root LP (here: no node allowed), the report's bound is
+    the start's LP relaxation of the same model, a valid bound, and not minus infinity."""
+    cfg = site(boiler=[_boiler("B1", True), _boiler("B2", True), _boiler("B3", False, 20_000)],
+               reserve={"enabled": True, "cover": 1.0})
+    lm = LoadedModel(build_site_model(cfg, series(cfg, 3, demand_LP=[30, 200, 30])))
+    real = LoadedModel._set_options
+
+    def no_nodes(self: LoadedModel, options: dict) -> dict:  # noqa: ANN001
+        kept = real(self, options)
+        self.h.setOptionValue("mip_max_nodes", 0)
+        return kept
+
+    monkeypatch.setattr(LoadedModel, "_set_options", no_nodes)
+    rep = lm.solve_mip(SolveOptions(gap=1e-6, time_limit=30, settle=False))
+    assert lm.h.getInfo().mip_dual_bound == -np.inf  # the scenario as meant
+    assert lm.lp_bound is not None
+    assert rep.bound == pytest.approx(lm.lp_bound)
+    assert rep.bound <= rep.objective + 1e-6 * abs(rep.objective)
+    assert 0.0 <= rep.gap < 1.0
