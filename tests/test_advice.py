@@ -617,7 +617,19 @@ def test_a_spared_pair_may_be_best_split_between_its_drivers() -> None:
     assert row.better == "1 of 2 on steam" and row.best_on_steam == 1
     assert row.cost_best < min(row.cost_on_steam, row.cost_on_motor) - 50.0
     assert row.saving == pytest.approx(max(row.cost_on_steam, row.cost_on_motor) - row.cost_best)
-    assert "cheapest with 1 of 2 on steam" in row.note
+    # the flip is where the best number on steam changes (not where all on steam and all
+    # on motor cost the same): just on the hour's side of it 1 of 2 is still the cheapest,
+    # just beyond it another number is
+    assert "where 1 of 2 on steam stops being the cheapest" in row.note
+    flip = row.flip_import_price
+    hm = HourModel(cfg, ser, 0, {"B1": 1})
+
+    def best_at(price: float) -> int:
+        costs = [hm.cost(WhatIf(force={"P1": n}, price_import=price)) for n in range(3)]
+        return min(range(3), key=lambda n: (costs[n], -n))
+
+    inward = 1.0 if flip < 200.0 else -1.0
+    assert best_at(flip + 2.0 * inward) == 1 and best_at(flip - 2.0 * inward) != 1
     ser = series(cfg, 1, demand_HP=D_HP, demand_LP=60.0, price_import=200.0)
     row = advise(cfg, ser, str(ser.time[0]), "<tiny>").drivers.set_index("machine").loc["P1"]
     assert row.better == "steam" and row.best_on_steam == 2

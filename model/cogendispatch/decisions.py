@@ -18,6 +18,7 @@ import math
 import re
 from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
+from typing import Callable
 
 import highspy
 import numpy as np
@@ -509,12 +510,17 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         else:
             better = f"{best_n} of {d.count} on steam"
         est = marginal_flip_estimate(hm.cfg, d, prices, hm.feedwater_price)
-        flip, other = _flip_prices(hm, d.id, p0, d0, est, tol)
+        if d.count > 1 and better != "either":
+            # where the best number on steam changes: all on motor and all on steam may
+            # cost the same at a price where a split beats both
+            margin = costs[best_n] - min(c for n, c in costs.items() if n != best_n)
+            flip, other = _flip_prices(hm, d.id, p0, margin, est, tol, split=(d.count, best_n))
+        else:
+            flip, other = _flip_prices(hm, d.id, p0, d0, est, tol)
         notes = []
         cur = hm.cfg.site.currency
-        if 0 < best_n < d.count and better != "either":
-            notes.append(f"cheapest with {best_n} of {d.count} on steam ({costs[best_n]:,.0f} {cur}); the flip "
-                         "price compares all on steam with all on motor")
+        if 0 < best_n < d.count and better != "either" and flip is not None:
+            notes.append(f"the flip price is where {best_n} of {d.count} on steam stops being the cheapest")
         if flip is None:
             lo, hi = _search_range(p0)
             notes.append(f"no flip between {lo:,.0f} and {hi:,.0f} {cur}/MWh of import")
@@ -567,11 +573,23 @@ def _diff(hm: HourModel, did: str, price: float) -> float:
         hm.cost(WhatIf(force={did: "motor"}, price_import=price))
 
 
+def _split_margin(hm: HourModel, did: str, count: int, best: int, price: float) -> float:
+    """Cost with ``best`` of ``count`` spared machines on steam less the cheapest other
+    number on steam, at an import price [currency/h]: negative while ``best`` stays the
+    cheapest. count + 1 re-solves."""
+    costs = {n: hm.cost(WhatIf(force={did: "motor" if n == 0 else "steam" if n == count else n},
+                               price_import=price)) for n in range(count + 1)}
+    return costs[best] - min(c for n, c in costs.items() if n != best)
+
+
 def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | None,
-                 tol: float) -> tuple[float | None, float | None]:
+                 tol: float, split: tuple[int, int] | None = None) -> tuple[float | None, float | None]:
     """Import prices where steam and motor cost the same [currency/MWh]: the nearest to the
     hour's price ``p0``, and one on the other side of it when that side was searched as far
-    (None when no price in :func:`_search_range` flips the answer).
+    (None when no price in :func:`_search_range` flips the answer). With ``split`` = (count,
+    best) for spared machines, where the best number on steam changes instead (``d0`` then
+    from :func:`_split_margin`): 1 of 2 on steam can be the best answer between the prices
+    where all on motor and all on steam are.
 
     A dearer import price usually favours steam, but with the rest of the hour re-solved at
     each price the difference need not be monotone: a turbo-generator's load and the
@@ -583,6 +601,10 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
     re-solves. A flip between two steps that flips back before the next is missed."""
     if abs(d0) <= TIE:
         return p0, None
+
+    def diff(q: float) -> float:
+        return _diff(hm, did, q) if split is None else _split_margin(hm, did, *split, q)
+
     bottom, top = _search_range(p0)
     first_up = est is not None and est > p0
     found: list[float] = []
@@ -597,7 +619,7 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
             reach = abs(found[0] - p0)
             steps = [q for q in steps if abs(q - p0) < reach] + [p0 + reach if up else p0 - reach]
             steps = [q for q in steps if bottom <= q <= top]
-        flip = _bracket_and_bisect(hm, did, p0, d0, steps, tol) if steps else None
+        flip = _bracket_and_bisect(diff, p0, d0, steps, tol) if steps else None
         if flip is not None:
             found.append(flip)
     found.sort(key=lambda q: abs(q - p0))
@@ -613,17 +635,17 @@ def _search_range(p0: float) -> tuple[float, float]:
     return p0 - max(abs(p0), 100.0), 1000.0
 
 
-def _bracket_and_bisect(hm: HourModel, did: str, p0: float, d0: float, steps: list[float],
+def _bracket_and_bisect(diff: Callable[[float], float], p0: float, d0: float, steps: list[float],
                         tol: float) -> float | None:
-    """The first price along ``steps`` from ``p0`` where the driver better at ``p0`` stops
-    being better by more than :data:`TIE` [currency/h], narrowed to ``tol`` and
-    interpolated in its last bracket; None without one. (Where steam and motor cost the
-    same to a cent over a range of prices, the flip is that range's far edge, not a point
-    inside it chosen by round-off.)"""
+    """The first price along ``steps`` from ``p0`` where the choice better at ``p0`` stops
+    being better by more than :data:`TIE` [currency/h] (``diff``: the cost difference at a
+    price, ``d0`` its value at ``p0``), narrowed to ``tol`` and interpolated in its last
+    bracket; None without one. (Where steam and motor cost the same to a cent over a range
+    of prices, the flip is that range's far edge, not a point inside it chosen by round-off.)"""
     shift = TIE if d0 > 0 else -TIE
 
     def g(q: float) -> float:
-        return _diff(hm, did, q) - shift
+        return diff(q) - shift
 
     a, fa = p0, d0 - shift
     for q in steps:
