@@ -687,3 +687,21 @@ def test_a_tie_over_a_range_of_prices_flips_at_its_edge_in_few_re_solves() -> No
     # two re-solves a step: 4 to bracket it, about 10 to narrow 35 /MWh to 0.5 (halving
     # every other step); crawling along the flat part took 30 steps
     assert len(calls) <= 2 * 16
+
+
+def test_an_estimate_from_steam_prices_a_turbo_generator_sets_is_said_to_move_with_power() -> None:
+    """With the LP price set by a back-pressure set's exhaust, lambda_HP - lambda_LP is that
+    set's power per tonne at the power price, so the marginal estimate moves with the import
+    price and says little about the flip: here it reads about 96 /MWh while the re-solves
+    flip near 400. The note says which header a turbo-generator prices."""
+    boilers = [{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "160 t/h", "min_steam": "16 t/h",
+                "efficiency_curve": {"load": [0.1, 0.4, 1.0], "efficiency": [0.80, 0.86, 0.84]}}]
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "60 t/h", "generator_rating": "8 MW",
+          "section": [{"to": "LP", "efficiency": 0.75}]}
+    cfg = _site(boiler=boilers, turbogenerator=[tg])
+    ser = series(cfg, 1, demand_HP=17.3, demand_LP=40.0, load=9.0, price_import=90.0)
+    a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
+    assert a.reasons["LP"].startswith("LP: exhaust of TG")  # the scenario as meant
+    row = a.drivers.iloc[0]
+    assert abs(row.flip_import_price - row.marginal_estimate) > 100.0
+    assert "set by a turbo-generator (LP by TG)" in row.note and "move with the power price" in row.note

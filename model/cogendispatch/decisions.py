@@ -473,7 +473,8 @@ def marginal_flip_estimate(cfg: SiteConfig, d: Drive, prices: dict[str, float],
 
 def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
                  history: dict[str, DriverHistory] | None = None, tol: float = 0.5,
-                 price_set_by: dict[str, str] | None = None) -> pd.DataFrame:
+                 price_set_by: dict[str, str] | None = None,
+                 set_by_tg: dict[str, str] | None = None) -> pd.DataFrame:
     """One row per dual-driver machine: cost of the hour on steam and on motor (full
     re-solves), the saving, the import price at which the answer flips (bracketing and
     bisection to ``tol`` [currency/MWh], each step two full re-solves) and the marginal
@@ -483,7 +484,9 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
     before and ``steam_blocked_h`` / ``motor_blocked_h``, the hours before the site's minimum time
     between driver changes lets every machine run on steam / on motor (0: allowed now; NaN:
     history unknown). ``price_set_by`` (per balance, :func:`prices.set_by`) leaves out a
-    marginal estimate whose prices a penalty sets: it would be no price of steam. ``note``
+    marginal estimate whose prices a penalty sets: it would be no price of steam;
+    ``set_by_tg`` (header id -> turbo-generator id whose extraction or exhaust sets its
+    price) notes an estimate whose steam prices move with the power price. ``note``
     says why a flip price or an estimate is missing. Sorted by saving."""
     history = history or {}
     rows = []
@@ -532,7 +535,14 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         if est is not None and penalised:
             est = None
             notes.append("marginal estimate left out: " + ", ".join(dict.fromkeys(penalised)))
-        elif est is not None and better in ("steam", "motor") and (est < p0) != (better == "steam"):
+        tg_set = [f"{b} by {t}" for b in dict.fromkeys((d.steam_turbine.inlet, d.steam_turbine.exhaust))
+                  if (t := (set_by_tg or {}).get(b))]
+        if est is not None and tg_set:
+            # lambda_in - r lambda_ex is then the turbo-generator's power per t at the power
+            # price: the estimate is a multiple of the hour's price, not a fixed flip
+            notes.append("marginal estimate with steam prices set by a turbo-generator (" + ", ".join(tg_set)
+                         + "), which move with the power price: it holds only near the hour's price")
+        if est is not None and better in ("steam", "motor") and (est < p0) != (better == "steam"):
             # the estimate holds for a small change at the hour's prices; a whole machine's
             # steam can move them (its exhaust vented, a letdown closed)
             notes.append(f"the marginal estimate ({est:,.1f}) points to {'steam' if est < p0 else 'motor'} at the "
@@ -765,7 +775,10 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         ([pw_reason] if base.power_short > TOL else []) + \
         ([f"steam reserve: the steam reserve is {base.reserve_short:.2f} t/h short"] if base.reserve_short > TOL else [])
     now = plan_drivers if plan_drivers is not None else base.on_steam
-    drivers = driver_table(hm, now, prices, history, price_set_by=categories)
+    # headers whose price a turbo-generator's extraction or exhaust sets (price_reasons)
+    by_tg = {h: tg.id for h, text in reasons.items() for tg in cfg.turbogenerators
+             if f"from {tg.id} (" in text or f"of {tg.id} (" in text}
+    drivers = driver_table(hm, now, prices, history, price_set_by=categories, set_by_tg=by_tg)
     wi = None
     if what_if is not None and not what_if.empty():
         # the change is measured against the hour as held; the what-if holds it too unless
