@@ -17,6 +17,7 @@ import pandas as pd
 import pytest
 
 from cogendispatch.cli import main
+from cogendispatch.errors import InputError
 
 DEMO_SITE_TEXT = (Path(__file__).resolve().parents[1] / "plant_configs" / "saltmarsh_refinery.toml").read_text(
     encoding="utf-8")
@@ -589,6 +590,42 @@ def test_a_run_never_deletes_a_file_it_did_not_write(demo_site: Path, tmp_path: 
     (d / ".DS_Store").write_text("")
     (d / "~$plan.xlsx").write_text("")
     assert main(["inspect", str(demo_site), "--csv", str(d)]) == 0
+    # a hidden file of the user's does, and so does a file in a sub-folder
+    (d / ".notes.md").write_text("keep")
+    capsys.readouterr()
+    assert main(["inspect", str(demo_site), "--csv", str(d)]) == 2
+    assert ".notes.md" in capsys.readouterr().err and (d / ".notes.md").read_text() == "keep"
+    (d / ".notes.md").unlink()
+    (d / "mine").mkdir()
+    (d / "mine" / "analysis.csv").write_text("keep")
+    assert main(["inspect", str(demo_site), "--csv", str(d)]) == 2
+    assert "mine/analysis.csv" in capsys.readouterr().err and (d / "mine" / "analysis.csv").read_text() == "keep"
+
+
+def test_a_file_put_in_a_study_s_sub_folder_is_not_deleted(tmp_path: Path) -> None:
+    """A study writes its schedules in a sub-folder; a file the user adds there is named
+    and blocks the next run, as one at the top does (it was deleted once)."""
+    from cogendispatch.outputs import atomic_dir
+
+    def write(d: Path) -> None:
+        (d / "summary.json").write_text('{"kind": "study"}')
+        (d / "schedules").mkdir()
+        (d / "schedules" / "01_base.parquet").write_text("x")
+
+    out = tmp_path / "study"
+    atomic_dir(out, write, "study")
+    atomic_dir(out, write, "study")  # its own files only: replaced
+    (out / "schedules" / "my_analysis.csv").write_text("mine")
+    with pytest.raises(InputError) as exc:
+        atomic_dir(out, write, "study")
+    assert "schedules/my_analysis.csv" in str(exc.value)
+    assert (out / "schedules" / "my_analysis.csv").read_text() == "mine"
+    # a folder whose list names only the top level (written before sub-folders were
+    # listed) takes each listed name to cover what is under it
+    (out / "schedules" / "my_analysis.csv").unlink()
+    (out / ".cogendispatch-files").write_text('["schedules", "summary.json"]')
+    atomic_dir(out, write, "study")
+    assert (out / "schedules" / "01_base.parquet").is_file()
 
 
 def test_a_missing_hour_when_clocks_change_suggests_utc_offsets() -> None:

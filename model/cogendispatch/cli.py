@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+import textwrap
 import time
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable
@@ -504,12 +505,20 @@ def _is_number(x: object) -> bool:
     return isinstance(x, (int, float, np.integer, np.floating)) and not isinstance(x, bool)
 
 
+HEADING_LINES = 3  # most lines a table's column heading is broken into
+
+
 def _table(console: Console, title: str, df: pd.DataFrame) -> None:
     """A table on the terminal, no cell ever cut or wrapped (a cut number reads as another
     number): when the columns do not fit the width they go into several tables, each
-    repeating the first column."""
+    repeating the first column. A long heading (a scenario's name, say) goes on up to
+    :data:`HEADING_LINES` lines, broken between words, rather than widen its column."""
     cells = [[_fmt(v) for v in df[c].tolist()] for c in df.columns]
-    widths = [max(len(v) for v in [str(c), *col]) for c, col in zip(df.columns, cells)]
+    heads = [str(c) for c in df.columns]
+    widths = [max([len(w) for w in h.split()] + [len(v) for v in col] + [-(-len(h) // HEADING_LINES)])
+              for h, col in zip(heads, cells)]
+    heads = ["\n".join(textwrap.wrap(h, w, break_long_words=False)) or h for h, w in zip(heads, widths)]
+    widths = [max([w] + [len(line) for line in h.split("\n")]) for h, w in zip(heads, widths)]
     numeric = [pd.api.types.is_numeric_dtype(df[c]) or all(_is_number(v) or v is None for v in df[c].tolist())
                for c in df.columns]
     groups: list[list[int]] = [[]]
@@ -525,7 +534,7 @@ def _table(console: Console, title: str, df: pd.DataFrame) -> None:
         name = title if k == 0 else f"{title} (continued)"
         t = Table(title=Text(name), title_justify="left")
         for j in cols:
-            t.add_column(Text(str(df.columns[j])), justify="right" if numeric[j] else "left", no_wrap=True,
+            t.add_column(Text(heads[j]), justify="right" if numeric[j] else "left", no_wrap=True,
                          min_width=widths[j])
         for i in range(len(df)):
             t.add_row(*[Text(cells[j][i]) for j in cols])

@@ -68,29 +68,41 @@ def check_out_dir(out: Path, kind: str = "plan", option: str = "--out") -> None:
 
 
 def _ignorable(name: str) -> bool:
-    """Names nobody keeps on purpose: hidden files (a run's own leftovers, '.DS_Store'),
-    Windows' thumbnail and folder settings, an office program's lock files ('~$...')."""
-    return name.startswith((".", "~$")) or name in ("Thumbs.db", "desktop.ini")
+    """Names nobody keeps on purpose: a file browser's folder settings ('.DS_Store',
+    Windows' 'Thumbs.db' and 'desktop.ini'), an office program's lock files ('~$...'), the
+    folder's own list of names. Other hidden files (notes kept as '.notes.md', say) count
+    as the user's."""
+    return name.startswith("~$") or name in (".DS_Store", "Thumbs.db", "desktop.ini", MANIFEST)
 
 
-def _manifest(out: Path) -> set[str] | None:
-    """Names the run that wrote ``out`` put there; None for a folder without a manifest
-    (written before it was kept)."""
+def _files(root: Path) -> list[str]:
+    """Every file under ``root``, sub-folders included, as relative paths with '/'."""
+    return sorted(p.relative_to(root).as_posix() for p in root.rglob("*") if not p.is_dir())
+
+
+def _manifest(out: Path) -> tuple[set[str], bool] | None:
+    """What the run that wrote ``out`` put there, and whether the list names only the top
+    level (folders written before sub-folders' files were listed: each top-level name then
+    covers everything under it); None for a folder without a list."""
     try:
         names = json.loads((out / MANIFEST).read_text(encoding="utf-8"))
     except (OSError, ValueError):
         return None
-    return {str(n) for n in names} if isinstance(names, list) else None
+    if isinstance(names, dict) and isinstance(names.get("files"), list):
+        return {str(n) for n in names["files"]}, False
+    return ({str(n) for n in names}, True) if isinstance(names, list) else None
 
 
 def _not_written_by_us(out: Path) -> list[str]:
-    """Names at the top of the output folder ``out`` that its run did not write, from its
-    manifest; none known for a folder written before the manifest was kept (those are
-    carried into the new folder instead, :func:`atomic_dir`)."""
-    ours = _manifest(out)
-    if ours is None:
+    """Files anywhere in the output folder ``out`` (its sub-folders too) that its run did
+    not write, from its list of names; none known for a folder written before the list
+    was kept (those are carried into the new folder instead, :func:`atomic_dir`)."""
+    listed = _manifest(out)
+    if listed is None:
         return []
-    return sorted(p.name for p in out.iterdir() if p.name not in ours and not _ignorable(p.name))
+    ours, top_only = listed
+    return [rel for rel in _files(out)
+            if not _ignorable(rel.rsplit("/", 1)[-1]) and (rel.split("/")[0] if top_only else rel) not in ours]
 
 
 def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan",
@@ -115,7 +127,7 @@ def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan
     tmp.chmod(0o777 & ~mask)
     try:
         write(tmp)
-        (tmp / MANIFEST).write_text(json.dumps(sorted(p.name for p in tmp.iterdir())), encoding="utf-8")
+        (tmp / MANIFEST).write_text(json.dumps({"files": _files(tmp)}), encoding="utf-8")
         old = None
         if out.exists():
             old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
@@ -135,7 +147,9 @@ def _carry_over(old: Path, new: Path) -> bool:
     (a folder without a manifest cannot be checked before the run) and the new run did not
     write either; True when ``old`` may then be deleted. Anything that cannot be moved
     keeps ``old`` on disk, beside the new folder, rather than be lost."""
-    ours = _manifest(old) or set()
+    listed = _manifest(old)
+    # top-level names: a file under a listed sub-folder is the run's too
+    ours = {rel.split("/")[0] for rel in listed[0]} if listed is not None else set()
     ok = True
     for p in old.iterdir():
         if p.name in ours or _ignorable(p.name) or (new / p.name).exists():
