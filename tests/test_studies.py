@@ -116,6 +116,11 @@ demand = { LP = 1.1 }
     ('[[scenario]]\nname = "a"\nwind = 3\n', "unknown key"),
     ('[[scenario]\nname = "a"\n', "not valid TOML"),
     ('[[scenario]]\nname = "a"\nimport = { multiply = 1e400 }\n', "import > multiply"),
+    ('[[scenario]]\nname = "a"\nco2 = { add = "20 USD/t" }\n', "co2 > add"),  # not the site's currency
+    ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "2027-03-01T00:00+01:00"\nto = "2027-03-01T05:00+01:00"\n',
+     "both have a UTC offset or both not"),
+    ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "tuesday"\nto = "2027-03-01"\n', "from"),
+    ('[[scenario]]\nname = "a"\nprices = "nothere.csv"\n', "prices"),
 ])
 def test_bad_scenarios_name_the_place(tmp_path, text: str, where: str) -> None:  # noqa: ANN001
     cfg = _site()
@@ -185,8 +190,14 @@ def test_demo_scenario_file_loads_and_changes_what_it_says() -> None:
     assert lp.outages == (("B3", 48, 119),)  # 6 to 8 January of a week from 4 January, inclusive
 
 
-def test_cli_study_writes_the_outputs(tmp_path, capsys) -> None:  # noqa: ANN001
+def test_cli_study_writes_the_outputs(tmp_path, capsys, monkeypatch) -> None:  # noqa: ANN001
+    import json
     from pathlib import Path
+
+    from cogendispatch.report import plots
+    stacked = []
+    real_stacked = plots.stacked_bars
+    monkeypatch.setattr(plots, "stacked_bars", lambda frame, *a, **k: stacked.append(frame) or real_stacked(frame, *a, **k))
     root = Path(__file__).resolve().parents[1] / "plant_configs"
     sc = _scenario_file(tmp_path, '[[scenario]]\nname = "base"\n[[scenario]]\nname = "=cheap power"\n'
                                   'import = { multiply = 0.5 }\n')
@@ -211,6 +222,13 @@ def test_cli_study_writes_the_outputs(tmp_path, capsys) -> None:  # noqa: ANN001
     assert len(s) == 12
     html = (out / "report.html").read_text()
     assert "Budget study" in html and html.count("<svg") >= 2 and "cost [EUR/month]" in html
+    # the cost bars stack the categories only (the totals stacked on them doubled each bar)
+    bars = stacked[-1]
+    assert not [c for c in bars.columns if c.startswith("total")]
+    assert bars.sum(axis=1).to_numpy() == pytest.approx(table.cost_total_EUR.to_numpy())
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["options"]["time_limit_s"] == 10 and summary["options"]["window_h"] == 6
+    assert summary["diagnosis"] == {"base": [], "=cheap power": []}  # nothing short in either
     xl = pd.read_excel(out / "study.xlsx", sheet_name=None)
     pd.testing.assert_frame_equal(xl["scenarios"], pd.read_csv(out / "scenarios.csv"), check_dtype=False)
     from openpyxl import load_workbook
@@ -303,3 +321,41 @@ def test_study_says_a_shortfall_may_be_the_searchs_when_a_window_stopped_early(t
     err = capsys.readouterr().err
     assert "1 of 1 window(s) stopped before proving their schedule (largest gap 18.3 %)" in err
     assert "the search's rather than the site's" in err
+
+
+def test_scenario_inputs_as_an_engineer_writes_them(tmp_path) -> None:  # noqa: ANN001
+    """Forms a budget engineer writes and the study once refused or misread: a price with
+    the site's currency; an outage running past the series' end (the hours it covers
+    count); a date alone as 'to' (the whole day, inclusive); dates without quotes (TOML's
+    own date type); a price file with price columns only (the rest stays the base's); a
+    month filter that misses the series (a note, not silence)."""
+    cfg = _site()
+    base = series(cfg, 72, demand_LP=50.0, price_import=100.0)  # 2027-03-01 to 03-03
+    (tmp_path / "dear.csv").write_text("time,price:import [per MWh]\n" + "".join(
+        f"{t},{150 + k}\n" for k, t in enumerate(pd.date_range("2027-03-01", periods=72, freq="h"))))
+    p = _scenario_file(tmp_path, """
+[[scenario]]
+name = "carbon"
+co2 = { add = "20 EUR/t" }
+import = { multiply = 2, months = [6] }
+  [[scenario.outage]]
+  unit = "B2"
+  from = 2027-03-02T12:00:00
+  to = 2027-03-09
+  [[scenario.outage]]
+  unit = "TG"
+  from = "2027-03-01"
+  to = 2027-03-01
+[[scenario]]
+name = "price file"
+prices = "dear.csv"
+""")
+    c, f = load_scenarios(p, cfg, base)
+    assert c.series.co2_price.to_numpy() == pytest.approx(20.0)
+    assert c.outages == (("B2", 36, 71), ("TG", 0, 23))
+    assert c.series.price_import.to_numpy() == pytest.approx(100.0)
+    assert len(c.notes) == 1 and "months [6] has no hour in the series" in c.notes[0]
+    assert f.series.price_import.iloc[5] == pytest.approx(155.0)
+    assert f.series.fuel_price["NG"].to_numpy() == pytest.approx(base.fuel_price["NG"].to_numpy())
+    assert f.series.co2_price.to_numpy() == pytest.approx(base.co2_price.to_numpy())
+    assert not f.notes

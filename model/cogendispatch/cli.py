@@ -410,6 +410,9 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
     cfg = load_site(args.site)
     base = load_series(args.series, cfg)
     scen = load_scenarios(args.scenarios, cfg, base)
+    for ps in scen:
+        for note in ps.notes:
+            err.print(Text(f"note: {note}"))
     build = BuildOptions(reserve=False if args.no_reserve else None)
     opts = SolveOptions(gap=args.gap, time_limit=args.time_limit)
     t0 = time.perf_counter()
@@ -440,7 +443,13 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
         write_json({"kind": "study", "currency": cfg.site.currency,
                     "site": str(Path(args.site).resolve()), "series": str(Path(args.series).resolve()),
                     "scenarios": str(Path(args.scenarios).resolve()), "seconds": secs,
+                    "options": {"window_h": args.window, "lookahead_h": args.lookahead, "gap": args.gap,
+                                "time_limit_s": args.time_limit, "first_window_min_s": COLD_MIN,
+                                "reserve": "off (--no-reserve)" if args.no_reserve else "as the site file says"},
                     "windows": {r.name: [w.__dict__ for w in r.windows] for r in results},
+                    # what was short, where and when, per scenario (as printed)
+                    "diagnosis": {r.name: r.diagnosis for r in results},
+                    "scenario_notes": {ps.name: list(ps.notes) for ps in scen if ps.notes},
                     "note": SAFETY_NOTE}, d / "summary.json")
         from .report import write_reports
 

@@ -28,9 +28,11 @@ models) or on a Dask distributed scheduler.
 
 from __future__ import annotations
 
+import datetime as dt
 import math
 import multiprocessing as mp
 import os
+import re
 import time
 import tomllib
 from concurrent.futures import ProcessPoolExecutor
@@ -40,7 +42,7 @@ from typing import Annotated, Any, Callable
 
 import numpy as np
 import pandas as pd
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from .errors import InputError, InputErrors, SolveError
 from .plant.load import validation_problems
@@ -76,6 +78,12 @@ class Outage(_T):
     start: str = Field(alias="from")
     end: str = Field(alias="to")
 
+    @field_validator("start", "end", mode="before")
+    @classmethod
+    def _toml_dates(cls, v: object) -> object:
+        # a date or date-time written without quotes is TOML's own type: take it as text
+        return v.isoformat() if isinstance(v, (dt.date, dt.datetime)) else v
+
 
 class Scenario(_T):
     name: str = Field(min_length=1, max_length=60)
@@ -107,6 +115,7 @@ class PreparedScenario:
     name: str
     series: Series
     outages: tuple[tuple[str, int, int], ...]
+    notes: tuple[str, ...] = ()  # what the scenario file asks that changes nothing here
 
 
 def load_scenarios(path: str | Path, cfg: SiteConfig, base: Series, site_path: str = "") -> list[PreparedScenario]:
@@ -131,18 +140,22 @@ def load_scenarios(path: str | Path, cfg: SiteConfig, base: Series, site_path: s
     return [_apply(path, k, sc, cfg, base) for k, sc in enumerate(sf.scenarios)]
 
 
-def _price(path: Path, where: str, ch: PriceChange, kind: str, values: pd.Series) -> pd.Series:
+def _price(path: Path, where: str, ch: PriceChange, kind: str, values: pd.Series, currency: str,
+           notes: list[str]) -> pd.Series:
+    from .plant.load import site_currency_prices
     from .units import UnitError, parse_price
 
     add = 0.0
     if ch.add is not None:
         try:
-            add = parse_price(ch.add, kind)
+            add = parse_price(site_currency_prices(ch.add, currency), kind)
         except UnitError as exc:
             raise InputError(path, where + " > add", str(exc)) from None
     new = values * ch.multiply + add
     if ch.months:
         mask = values.index.month.isin(ch.months)
+        if not mask.any():  # a year's scenario file tried on a shorter series, or a slip
+            notes.append(f"{where} > months {ch.months} has no hour in the series: the change does nothing")
         new = values.where(~mask, new)
     return new
 
@@ -157,44 +170,76 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
         p = Path(sc.prices)
         if not p.is_absolute():
             p = path.parent / p
-        repl = load_series(p, cfg)
+        if not p.is_file():
+            raise InputError(path, here + " > prices", f"'{p}' is not a file")
+        repl = load_series(p, cfg, prices_only=True)
         if len(repl.time) != len(base.time) or (repl.time != base.time).any():
             raise InputError(path, here + " > prices", f"{p} does not cover the same hours as the base series")
-        s = Series(time=s.time, demand=s.demand, load=s.load, price_import=repl.price_import,
-                   price_export=repl.price_export, fuel_price=repl.fuel_price, co2_price=repl.co2_price,
-                   duty=s.duty, source=s.source)
+
+        def kept(new: pd.Series, old: pd.Series) -> pd.Series:  # a column the file leaves out keeps the base's
+            return old if new.isna().all() else pd.Series(new.to_numpy(), index=old.index)
+
+        s = Series(time=s.time, demand=s.demand, load=s.load,
+                   price_import=kept(repl.price_import, s.price_import),
+                   price_export=kept(repl.price_export, s.price_export),
+                   fuel_price=pd.DataFrame({f: kept(repl.fuel_price[f], s.fuel_price[f]) for f in s.fuel_price},
+                                           index=s.fuel_price.index),
+                   co2_price=kept(repl.co2_price, s.co2_price), duty=s.duty, source=s.source)
     fuel_price = s.fuel_price.copy()
+    notes: list[str] = []
+    cur = cfg.site.currency
     for fid, ch in sc.fuel.items():
         if fid not in fuels:
             raise InputError(path, here + f" > fuel > {fid}", f"unknown fuel '{fid}' (fuels: {', '.join(sorted(fuels))})")
-        fuel_price[fid] = _price(path, here + f" > fuel > {fid}", ch, "price_energy", fuel_price[fid])
-    imp = _price(path, here + " > import", sc.import_, "price_power", s.price_import) if sc.import_ else s.price_import
-    exp = _price(path, here + " > export", sc.export, "price_power", s.price_export) if sc.export else s.price_export
-    co2 = _price(path, here + " > co2", sc.co2, "price_mass", s.co2_price) if sc.co2 else s.co2_price
+        fuel_price[fid] = _price(path, here + f" > fuel > {fid}", ch, "price_energy", fuel_price[fid], cur, notes)
+    imp = _price(path, here + " > import", sc.import_, "price_power", s.price_import, cur, notes) \
+        if sc.import_ else s.price_import
+    exp = _price(path, here + " > export", sc.export, "price_power", s.price_export, cur, notes) \
+        if sc.export else s.price_export
+    co2 = _price(path, here + " > co2", sc.co2, "price_mass", s.co2_price, cur, notes) if sc.co2 else s.co2_price
     demand = s.demand.copy()
     for hid, f in sc.demand.items():
         if hid not in headers:
-            raise InputError(path, here + f" > demand > {hid}", f"unknown header '{hid}'")
+            raise InputError(path, here + f" > demand > {hid}",
+                             f"unknown header '{hid}' (headers: {', '.join(sorted(headers))})")
         demand[hid] = demand[hid] * f
     outages = []
     for j, o in enumerate(sc.outages):
         w = here + f" > outage #{j + 1}"
         if o.unit not in units:
-            raise InputError(path, w + " > unit", f"'{o.unit}' is not a boiler or turbo-generator")
-        try:
-            a, b = pd.Timestamp(o.start), pd.Timestamp(o.end)
-        except (ValueError, TypeError):
-            raise InputError(path, w, "'from' and 'to' must be dates and times") from None
+            raise InputError(path, w + " > unit", f"'{o.unit}' is not a boiler or turbo-generator "
+                             f"(those are: {', '.join(sorted(units))})")
+        a = _outage_time(path, w + " > from", o.start, base.time, end=False)
+        b = _outage_time(path, w + " > to", o.end, base.time, end=True)
         if a > b:
             raise InputError(path, w + " > to", "is before 'from'")
-        if a < base.time[0] or b > base.time[-1]:
-            raise InputError(path, w, f"{o.start} to {o.end} is outside the series ({base.time[0]} to {base.time[-1]})")
+        if b < base.time[0] or a > base.time[-1]:
+            raise InputError(path, w, f"{o.start} to {o.end} lies wholly outside the series "
+                             f"({base.time[0]} to {base.time[-1]})")
+        # an outage running past either end of the series counts for the hours it covers
         i0 = int(np.searchsorted(base.time, a))
         i1 = int(np.searchsorted(base.time, b, side="right")) - 1
         outages.append((o.unit, i0, i1))
     ser = Series(time=s.time, demand=demand, load=s.load, price_import=imp, price_export=exp,
                  fuel_price=fuel_price, co2_price=co2, duty=s.duty, source=s.source)
-    return PreparedScenario(sc.name, ser, tuple(outages))
+    return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes))
+
+
+def _outage_time(path: Path, where: str, text: str, times: pd.DatetimeIndex, end: bool) -> pd.Timestamp:
+    """An outage's 'from' or 'to' as a time comparable with the series' ``times``. A date
+    alone is the day's first hour for 'from' and its last for 'to' (both inclusive). Times
+    with a UTC offset go with a series that has them, times without with one without."""
+    try:
+        t = pd.Timestamp(text)
+    except (ValueError, TypeError):
+        raise InputError(path, where, f"'{text}' is not a date and time, e.g. '2027-03-01T06:00'") from None
+    if end and re.fullmatch(r"\s*\d{4}-\d{2}-\d{2}\s*", text):
+        t = t + pd.Timedelta(hours=23)
+    if (t.tzinfo is None) != (times.tz is None):
+        has = "with" if times.tz is not None else "without"
+        raise InputError(path, where, f"'{text}' and the series' times must both have a UTC offset or both "
+                         f"not: the series' times are {has} one (e.g. '{times[0].isoformat()}')")
+    return t
 
 
 # ------------------------------------------------------------------ rolling horizon

@@ -103,13 +103,13 @@ def validation_problems(path: Path, raw: dict[str, Any], err: ValidationError) -
 _CURRENCY_PRICE = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z]{3})\s*(?:/|per\b)\s*(\S.*)$")
 
 
-def _site_currency_prices(node: Any, currency: str) -> Any:
+def site_currency_prices(node: Any, currency: str) -> Any:
     """``node`` with every price written with the site's own currency ("9.0 EUR/GJ") in
     the file format's form ("9.0 per GJ"); other text is left as it is."""
     if isinstance(node, dict):
-        return {k: _site_currency_prices(v, currency) for k, v in node.items()}
+        return {k: site_currency_prices(v, currency) for k, v in node.items()}
     if isinstance(node, list):
-        return [_site_currency_prices(v, currency) for v in node]
+        return [site_currency_prices(v, currency) for v in node]
     if isinstance(node, str):
         m = _CURRENCY_PRICE.match(node)
         if m and m.group(2) == currency:
@@ -133,7 +133,7 @@ def parse_site(raw: dict[str, Any], path: str | Path = "<site>") -> SiteConfig:
     site = raw.get("site")
     currency = site.get("currency", "EUR") if isinstance(site, dict) else "EUR"
     if isinstance(currency, str):
-        raw = _site_currency_prices(raw, currency)
+        raw = site_currency_prices(raw, currency)
     try:
         cfg = SiteConfig.model_validate(raw)
     except ValidationError as err:

@@ -104,13 +104,15 @@ def _read_table(path: Path) -> pd.DataFrame:
     return raw
 
 
-def load_series(path: str | Path, site: SiteConfig) -> Series:
+def load_series(path: str | Path, site: SiteConfig, prices_only: bool = False) -> Series:
     """Load and validate an hourly series for ``site``.
 
     Parameters
     ----------
     path : CSV or Excel file, one row per hour (see the module docstring)
     site : the validated site, used to check header, fuel and drive references
+    prices_only : a file of replacement prices (a study scenario's): demand and load
+        columns may be left out, and a price column left out reads NaN (keep the base's)
 
     Raises
     ------
@@ -118,11 +120,13 @@ def load_series(path: str | Path, site: SiteConfig) -> Series:
     """
     path = Path(path)
     raw = _read_table(path)
-    return parse_series(raw, site, path)
+    return parse_series(raw, site, path, prices_only)
 
 
-def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<series>") -> Series:
-    """Validate a table of strings (as read from CSV/Excel) into a :class:`Series`."""
+def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<series>",
+                 prices_only: bool = False) -> Series:
+    """Validate a table of strings (as read from CSV/Excel) into a :class:`Series`
+    (``prices_only``: see :func:`load_series`)."""
     path = Path(path)
     if raw.shape[0] == 0:
         raise InputError(path, "", "no rows")
@@ -181,18 +185,24 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
         return pd.Series(s.to_numpy(), index=idx)
 
     # every header needs its column: a forgotten one would silently plan for no demand
-    demand = pd.DataFrame({h.id: col_or("demand", h.id, None, f"the process steam demand of header '{h.id}', "
+    need = 0.0 if prices_only else None
+    demand = pd.DataFrame({h.id: col_or("demand", h.id, need, f"the process steam demand of header '{h.id}', "
                                         f"e.g. 'demand:{h.id} [t/h]' (a column of zeros if it has none)")
                            for h in site.headers}, index=idx)
-    load = col_or("load", "", None, "the site electric load, e.g. 'load [MW]'")
+    load = col_or("load", "", need, "the site electric load, e.g. 'load [MW]'")
     if (load < 0).any():
         row = int(np.argmax(load.to_numpy() < 0))
         raise InputError(path, f"row {row + 2}, column '{written[('load', '')]}'",
                          "the site electric load must not be negative")
-    price_import = col_or("price:import", "", None, "the import price, e.g. 'price:import [per MWh]'")
-    price_export = col_or("price:export", "", 0.0, "")
-    fuel_price = pd.DataFrame({f.id: col_or("price:fuel", f.id, f.price, "") for f in site.fuels}, index=idx)
-    co2 = col_or("price:co2", "", 0.0, "")
+    if prices_only and not any(k[0].startswith("price:") for k in values):
+        raise InputError(path, "header row", "no price column (price:import, price:export, price:fuel:<fuel>, "
+                         "price:co2): nothing to replace")
+    keep = np.nan if prices_only else None  # NaN: the base series' column stays
+    price_import = col_or("price:import", "", keep, "the import price, e.g. 'price:import [per MWh]'")
+    price_export = col_or("price:export", "", np.nan if prices_only else 0.0, "")
+    fuel_price = pd.DataFrame({f.id: col_or("price:fuel", f.id, np.nan if prices_only else f.price, "")
+                               for f in site.fuels}, index=idx)
+    co2 = col_or("price:co2", "", np.nan if prices_only else 0.0, "")
     duty = pd.DataFrame({d.id: col_or("duty", d.id, d.duty, "") for d in site.drives}, index=idx)
     for d in site.drives:
         if (duty[d.id] < 0).any():

@@ -164,26 +164,53 @@ def study_report(d: Path, units: Units = Units()) -> str:
     s = json.loads((d / "summary.json").read_text(encoding="utf-8"))
     table = without_money_unit(pd.read_csv(d / "scenarios.csv"), str(s.get("currency", "")))
     monthly = without_money_unit(pd.read_csv(d / "monthly.csv"), str(s.get("currency", "")))
-    costs = table.set_index("scenario")[[c for c in table.columns if c.startswith("cost_") and c != "cost_total"]]
+    # the categories only: the totals are their sums, stacked they would count twice
+    costs = table.set_index("scenario")[[c for c in table.columns if c.startswith("cost_")
+                                         and c not in ("cost_total", "cost_total_without_penalty")]]
     costs.columns = [c[5:] for c in costs.columns]
     cur = escape(str(s.get("currency", "currency")))
-    body = ["<h2>Scenarios</h2>" + _chart(plots.stacked_bars(costs, "Cost by category per scenario", f"cost [{cur}]"))]
-    piv = monthly.pivot_table(index="month", columns="scenario", values="cost_total", sort=False)
-    body.append("<h2>Monthly cost</h2>" + _chart(plots.grouped_bars(piv, "Total cost per month and scenario",
-                                                                    f"cost [{cur}/month]")))
+    body = ["<h2>Scenarios</h2>" + _chart(plots.stacked_bars(costs, "Cost by category per scenario", f"cost [{cur}]",
+                                                             horizontal=True))]
+    penalty = table["cost_penalty"] if "cost_penalty" in table else pd.Series(0.0, index=table.index)
+    if (penalty > 0).any():
+        body.append("<p class='bad'>The penalty bars price demand or reserve not met (see Shortfalls below); "
+                    "they are no money spent, and a scenario short of reserve saves what holding it would "
+                    "cost: its cost without penalty is no like-for-like comparison.</p>")
+    money = "cost_total_without_penalty" if "cost_total_without_penalty" in monthly else "cost_total"
+    piv = monthly.pivot_table(index="month", columns="scenario", values=money, sort=False)
+    title = "Cost per month and scenario" + (", penalties left out" if money != "cost_total" else "")
+    body.append("<h2>Monthly cost</h2>" + _chart(plots.grouped_bars(piv, title, f"cost [{cur}/month]")))
     drv = table.set_index("scenario")[[c for c in table.columns if c.startswith("machine_hours_on_steam_")]]
     drv.columns = [c.replace("machine_hours_on_steam_", "") for c in drv.columns]
     if not drv.empty:
         body.append("<h2>Drivers</h2>" + _chart(plots.grouped_bars(drv.T, "Machine-hours on steam, by scenario",
                                                                     "machine-hours [h]", horizontal=True)))
-    cols = ["scenario", "cost_total", "fuel_GJ", "import_MWh", "export_MWh", "co2_t", "boiler_starts", "shortfall_hours"]
+    cols = ["scenario", "cost_total", "cost_penalty", "cost_total_without_penalty", "fuel_GJ", "import_MWh",
+            "export_MWh", "co2_t", "boiler_starts", "shortfall_hours", "largest_window_gap"]
     tab = table[[c for c in cols if c in table]].copy()
     if "fuel_GJ" in tab:
         tab["fuel_GJ"] = tab["fuel_GJ"] * units.ke
+    if "largest_window_gap" in tab:
+        tab["largest_window_gap"] = 100.0 * tab["largest_window_gap"]
     # one style of heading, with the unit in brackets, as the page's other tables
-    tab = tab.rename(columns={"cost_total": f"cost [{cur}]", "fuel_GJ": f"fuel [{units.energy}]",
+    tab = tab.rename(columns={"cost_total": f"cost [{cur}]", "cost_penalty": f"of it penalty [{cur}]",
+                              "cost_total_without_penalty": f"cost without penalty [{cur}]",
+                              "fuel_GJ": f"fuel [{units.energy}]",
                               "import_MWh": "import [MWh]", "export_MWh": "export [MWh]", "co2_t": "CO2 [t]",
-                              "boiler_starts": "boiler starts", "shortfall_hours": "hours short"})
-    body.append("<h2>Totals</h2>" + _table(tab))
+                              "boiler_starts": "boiler starts", "shortfall_hours": "hours short",
+                              "largest_window_gap": "largest window gap [%]"})
+    body.append("<h2>Totals</h2>" + _table(tab)
+                + "<p class='meta'>Largest window gap: how far the weakest window's search stayed from its "
+                  "proven bound; cost differences smaller than it are within the search's tolerance "
+                  "(empty: a window ended with no bound).</p>")
+    short = {k: v for k, v in (s.get("diagnosis") or {}).items() if v}
+    if short:
+        items = "".join(f"<li><b>{escape(k)}</b><ul>" + "".join(f"<li>{escape(x)}</li>" for x in v) + "</ul></li>"
+                        for k, v in short.items())
+        body.append(f"<h2>Shortfalls</h2><ul>{items}</ul>")
+    notes = s.get("scenario_notes") or {}
+    if notes:
+        body.append("<h2>Notes</h2><ul>" + "".join(f"<li>{escape(x)}</li>" for v in notes.values() for x in v)
+                    + "</ul>")
     meta = f"{len(table)} scenario(s), {float(s.get('seconds', 0)):.0f} s"
     return _page("Budget study", meta, body, s.get("note", ""))
