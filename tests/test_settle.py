@@ -175,3 +175,32 @@ def test_a_search_stopped_before_its_root_lp_reports_the_start_lp_as_bound(monke
     assert rep.bound == pytest.approx(lm.lp_bound)
     assert rep.bound <= rep.objective + 1e-6 * abs(rep.objective)
     assert 0.0 <= rep.gap < 1.0
+
+
+def test_every_boiler_on_around_a_reserve_shortfall_is_tried() -> None:
+    """B1 and B2 run; B3 is cold and costs 1 000 to start. A schedule with B3 held off
+    leaves 1.5 t/h of reserve short in hour 1 (10⁴ per t/h, schema.Penalties): far dearer
+    than the start. cover_reserve turns every boiler on around the shortfall and returns the
+    cheaper schedule that holds the reserve; given the optimum, it finds nothing cheaper."""
+    cfg = site(boiler=[_boiler("B1", True), _boiler("B2", True), _boiler("B3", False, 1_000)],
+               reserve={"enabled": True, "cover": 1.0})
+    sm = build_site_model(cfg, series(cfg, 5, demand_LP=[30, 30, 64, 30, 30]))
+    lm = LoadedModel(sm)
+    b3 = next(b for b in sm.ctx.boilers if b.unit.id == "B3")
+    off = np.array([lm.col(b3.on[t]) for t in sm.model.T], dtype=np.int32)
+    upper = lm.col_upper[off].copy()
+    lm.col_upper[off] = 0.0  # the model's own bounds, which its searches restore
+    lm.h.changeColsBounds(len(off), off, lm.col_lower[off], lm.col_upper[off])
+    held_off = lm.solve_mip(EXACT)
+    lm.col_upper[off] = upper
+    lm.h.changeColsBounds(len(off), off, lm.col_lower[off], lm.col_upper[off])
+    x = lm.schedule
+    assert x[lm.col(sm.model.reserve_short[2])] > 0.5  # the scenario as meant
+    covered = lm.cover_reserve(x, held_off.objective, 10.0)
+    assert covered is not None
+    new_x, new_obj = covered
+    assert np.abs(new_x[lm.slack_cols()]).max() < 1e-6 and new_x[off[2]] == pytest.approx(1.0)
+    assert new_obj < held_off.objective - 10_000  # the penalty less the start and B3's fuel
+    assert _bounds_restored(lm)
+    best = lm.solve_mip(EXACT)
+    assert lm.cover_reserve(lm.schedule, best.objective, 10.0) is None  # nothing short: nothing to try
