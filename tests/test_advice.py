@@ -630,6 +630,12 @@ def test_a_spared_pair_may_be_best_split_between_its_drivers() -> None:
 
     inward = 1.0 if flip < 200.0 else -1.0
     assert best_at(flip + 2.0 * inward) == 1 and best_at(flip - 2.0 * inward) != 1
+    # against the machines on steam now: none (a plan's state, say), both, or the best split
+    from cogendispatch.decisions import driver_table
+    prices, _, _ = hm.marginal_prices()
+    for now, cost_now in ((0, row.cost_on_motor), (2, row.cost_on_steam), (1, row.cost_best)):
+        r = driver_table(hm, {"P1": now}, prices).iloc[0]
+        assert r.saving_vs_now == pytest.approx(cost_now - row.cost_best, abs=0.01)
     ser = series(cfg, 1, demand_HP=D_HP, demand_LP=60.0, price_import=200.0)
     row = advise(cfg, ser, str(ser.time[0]), "<tiny>").drivers.set_index("machine").loc["P1"]
     assert row.better == "steam" and row.best_on_steam == 2
@@ -705,3 +711,41 @@ def test_an_estimate_from_steam_prices_a_turbo_generator_sets_is_said_to_move_wi
     row = a.drivers.iloc[0]
     assert abs(row.flip_import_price - row.marginal_estimate) > 100.0
     assert "set by a turbo-generator (LP by TG)" in row.note and "move with the power price" in row.note
+
+
+def test_a_binding_reserve_is_named_in_the_steam_price_with_its_share() -> None:
+    """Two 60 t/h boilers with a full reserve may make 60 t/h between them; at 400 /MWh of
+    import the turbo-generator would pass more steam (to the vent), so the reserve row
+    binds and the HP price is above the boiler's cost without any shortfall. The reason
+    names the reserve and its share, which is the price with the reserve less the price
+    of the same hour without it."""
+    def boiler(b: str) -> dict:
+        return {"id": b, "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}, "initial_on": True}
+
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "80 t/h", "generator_rating": "20 MW", "initial_on": True,
+          "section": [{"to": "LP", "efficiency": 0.75}]}
+    prices = {}
+    for on in (True, False):
+        cfg = site(boiler=[boiler("B1"), boiler("B2")], turbogenerator=[tg], reserve={"enabled": on, "cover": 1.0})
+        ser = series(cfg, 1, demand_HP=10.0, demand_LP=30.0, price_import=400.0, load=20.0)
+        a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
+        assert not a.not_met
+        prices[on] = (a.prices["HP"], a.reasons["HP"])
+    assert prices[True][0] > prices[False][0] + 1.0  # the scenario as meant
+    assert "reserve" not in prices[False][1]
+    share = float(prices[True][1].split("adds ")[1].split(" EUR/t")[0])
+    assert "the steam reserve binds" in prices[True][1]
+    assert share == pytest.approx(prices[True][0] - prices[False][0], abs=0.01)
+
+
+def test_a_what_if_line_names_the_grid_when_import_moves() -> None:
+    """A trip or a forced driver often moves the import first: the line says so."""
+    from cogendispatch.decisions import HourState, what_if_changes
+
+    def state(imp: float) -> HourState:
+        return HourState(cost=0.0, on={}, on_steam={}, letdown={}, vent={}, short={}, power_short=0.0,
+                         grid={"import": imp, "export": 0.0})
+
+    assert what_if_changes(state(44.01), state(44.61)) == ["grid import 44.01 -> 44.61 MW"]
+    assert what_if_changes(state(44.01), state(44.012)) == []  # below the digits shown

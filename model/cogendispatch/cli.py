@@ -318,8 +318,8 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
             # why a machine's drivers before the hour may be unknown
             unknown = ("unknown (give --plan)" if args.plan is None and a.time != str(series.time[0])
                        else "unknown (no driver before the first hour in the site file)")
-            dt = a.drivers[["machine", "now_on_steam", "cost_on_steam", "cost_on_motor", "saving", "better",
-                            "flip_import_price", "marginal_estimate"]].copy()
+            dt = a.drivers[["machine", "now_on_steam", "cost_on_steam", "cost_on_motor", "saving", "saving_vs_now",
+                            "better", "flip_import_price", "marginal_estimate"]].copy()
             # a choice that leaves demand or the reserve short is priced by a penalty: say so
             for i, r in a.drivers.iterrows():
                 marks = [f"{drv} leaves {what}" for drv in ("steam", "motor")
@@ -330,12 +330,13 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                     dt.loc[i, "better"] = f"{r['better']} ({'; '.join(marks)}: the saving includes its penalty)"
                 dt.loc[i, "change"] = _driver_change(r, unknown)
             # money per hour to a tenth, prices to a tenth: one precision a column
-            for c in ("saving", "flip_import_price", "marginal_estimate"):
+            for c in ("saving", "saving_vs_now", "flip_import_price", "marginal_estimate"):
                 dt[c] = dt[c].astype(float).round(1)
             for c in ("cost_on_steam", "cost_on_motor"):
                 dt[c] = dt[c].astype(float).round()
             dt.columns = ["machine", "machines on steam now", f"hour on steam [{cur}]", f"hour on motor [{cur}]",
-                          f"saving [{cur}/h]", "better", f"flips at import [{cur}/MWh]", f"marginal estimate [{cur}/MWh]",
+                          f"saving [{cur}/h]", f"saving against now [{cur}/h]", "better",
+                          f"flips at import [{cur}/MWh]", f"marginal estimate [{cur}/MWh]",
                           "driver change (minimum time between changes)"]
             dt = dt.astype(object)
             dt[f"flips at import [{cur}/MWh]"] = dt[f"flips at import [{cur}/MWh]"].where(
@@ -363,6 +364,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                                      "set_by": a.set_by[b], "reason": why.split(": ", 1)[-1]}
                                     for b, v, u, why in rows]), dd / "prices.csv", index=False)
             write_csv(with_money_units(a.drivers, {"cost_on_steam": cur, "cost_on_motor": cur, "saving": cur,
+                                                   "cost_best": cur, "saving_vs_now": cur,
                                                    "flip_import_price": f"{cur}/MWh",
                                                    "marginal_estimate": f"{cur}/MWh"}),
                       dd / "drivers.csv", index=False)

@@ -71,6 +71,7 @@ class HourState:
     penalty: float = 0.0  # [currency] the hour's "penalty" cost: every slack at its price
     steam: dict[str, float] = field(default_factory=dict)  # [t/h] each boiler's steam
     power: dict[str, float] = field(default_factory=dict)  # [MW] each turbo-generator's output
+    grid: dict[str, float] = field(default_factory=dict)  # [MW] "import" and "export"
 
 
 class HourModel:
@@ -217,6 +218,7 @@ class HourModel:
             penalty=sum(price * v(var) for var, price in self.penalty_terms),
             steam={b.id: v(self.blocks[b.id].steam[0]) for b in self.cfg.boilers},
             power={t.id: v(self.blocks[t.id].power[0]) for t in self.cfg.turbogenerators},
+            grid={"import": v(m.grid.imp[0]), "export": v(m.grid.exp[0])},
         )
 
     def marginal_prices(self, w: WhatIf = WhatIf()) -> tuple[dict[str, float], float, np.ndarray]:
@@ -237,7 +239,22 @@ class HourModel:
         cmap = self.lm.opt._pyomo_con_to_solver_con_map
         y_m, y_e = dual[cmap[da.mass[0]]], dual[cmap[da.energy[0]]]
         self.feedwater_price = float(-(y_m + y_e * self.sm.ctx.states.h_feedwater))
-        return prices, float(dual[self.power_row]), x
+        power = float(dual[self.power_row])
+        # a binding reserve row (the running boilers' spare rating just covers the largest)
+        # raises the steam prices above any unit's cost: the same LP without the reserve
+        # rows says by how much (currency/t per header)
+        self.reserve_part = {hh: 0.0 for hh in prices}
+        n = len(self.reserve_rows)
+        if n and np.abs(dual[self.reserve_rows]).max() > 1e-9:
+            self.h.changeRowsBounds(n, self.reserve_rows, np.full(n, -highspy.kHighsInf), np.full(n, highspy.kHighsInf))
+            try:
+                free = self.lm._fixed_run(list(ints), list(np.round(x[ints])), 30.0, None, keep_duals=True)
+                dual_free = self.lm.fixed_duals
+            finally:
+                self.h.changeRowsBounds(n, self.reserve_rows, self.rlo0[self.reserve_rows], self.rup0[self.reserve_rows])
+            if free is not None and dual_free is not None:
+                self.reserve_part = {hh: prices[hh] - float(dual_free[r]) for hh, r in self.header_row.items()}
+        return prices, power, x
 
 
 def _hold_initial_states(cfg: SiteConfig, held: dict[str, int]) -> SiteConfig:
@@ -406,12 +423,12 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
             out[hid] = f"{hid}: surplus nothing can take, priced at the surplus penalty"
             continue
         reason = None
-        for vt in cfg.vents:
-            if vt.header == hid and val(b[vt.id].flow[0]) > 1e-6:
-                reason = f"{hid}: surplus, vented through {vt.id}"
-        if reason is None and reserve_short > 1e-6:
+        if reserve_short > 1e-6:  # before anything else: the penalty is in every steam price
             reason = (f"{hid}: the steam reserve is {reserve_short:.2f} t/h short; the price carries its penalty "
                       f"({cfg.penalties.reserve_shortfall:g} per t of reserve), not a cost of steam")
+        for vt in cfg.vents:
+            if reason is None and vt.header == hid and val(b[vt.id].flow[0]) > 1e-6:
+                reason = f"{hid}: surplus, vented through {vt.id}"
         if reason is None:
             for bo in cfg.boilers:
                 if bo.header == hid and val(b[bo.id].on[0]) > 0.5 and free(b[bo.id].steam[0], bo.min_steam, bo.max_steam):
@@ -433,6 +450,10 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
                 if reason:
                     break
         out[hid] = reason or f"{hid}: no single unit is marginal (the units serving it sit at limits)"
+        part = getattr(hm, "reserve_part", {}).get(hid, 0.0)
+        if reserve_short <= 1e-6 and abs(part) > 0.005:
+            out[hid] += (f"; the steam reserve binds (the running boilers' spare rating just covers losing the "
+                         f"largest) and adds {part:,.2f} {cfg.site.currency}/t")
     if val(m.power_short[0]) > 1e-6:
         pw = f"power: short {val(m.power_short[0]):.2f} MW, priced at the shortfall penalty"
     elif val(m.power_surplus[0]) > 1e-6:
@@ -480,7 +501,7 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
     bisection to ``tol`` [currency/MWh], each step two full re-solves) and the marginal
     estimate beside it; for spared machines, every number on steam between (``best_on_steam``,
     ``cost_best``; ``saving`` is the best against the dearer of all on steam and all on
-    motor); with the machine's ``history``, the machines on steam in the hour
+    motor; ``saving_vs_now`` the best against the number on steam in ``now``); with the machine's ``history``, the machines on steam in the hour
     before and ``steam_blocked_h`` / ``motor_blocked_h``, the hours before the site's minimum time
     between driver changes lets every machine run on steam / on motor (0: allowed now; NaN:
     history unknown). ``price_set_by`` (per balance, :func:`prices.set_by`) leaves out a
@@ -551,7 +572,10 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         rows.append({
             "machine": d.id, "count": d.count, "now_on_steam": now.get(d.id),
             "cost_on_steam": c_steam, "cost_on_motor": c_motor, "best_on_steam": best_n,
-            "cost_best": costs[best_n], "saving": worst - costs[best_n], "better": better,
+            "cost_best": costs[best_n], "saving": worst - costs[best_n],
+            # against the machines on steam now (the plan's, else the hour's own choice)
+            "saving_vs_now": costs[now[d.id]] - costs[best_n] if now.get(d.id) in costs else None,
+            "better": better,
             "flip_import_price": flip,
             "marginal_estimate": est,
             "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
@@ -707,7 +731,8 @@ def what_if_changes(base: HourState, new: HourState) -> list[str]:
     for label, was, now, unit, digits in (("boiler", base.steam, new.steam, "t/h", 1),
                                           ("turbo-generator", base.power, new.power, "MW", 2),
                                           ("letdown", base.letdown, new.letdown, "t/h", 1),
-                                          ("vent", base.vent, new.vent, "t/h", 1)):
+                                          ("vent", base.vent, new.vent, "t/h", 1),
+                                          ("grid", base.grid, new.grid, "MW", 2)):
         for uid, f in now.items():
             b = was.get(uid, 0.0)
             if abs(f - b) > 0.5 * 10.0 ** -digits:  # a change that shows at the digits printed

@@ -39,8 +39,19 @@ def set_by(m: pyo.ConcreteModel, val: Callable[[pyo.Var], float], balance: str, 
         return "surplus penalty"
     reserve = m.component("reserve_short")
     if reserve is not None and val(reserve[t]) > 1e-6:
+        # power bought or sold between the grid's limits is priced by the grid, reserve or not
+        if balance == "power" and any(_inside(v, val) for v in (m.grid.imp[t], m.grid.exp[t])):
+            return "cost"
         return "reserve penalty"
     return "cost"
+
+
+def _inside(v: pyo.Var, val: Callable[[pyo.Var], float]) -> bool:
+    """Whether ``v`` lies strictly between its bounds (a fixed one never does)."""
+    if v.fixed:
+        return False
+    x, lo, hi = val(v), pyo.value(v.lb), pyo.value(v.ub)
+    return (lo is None or x > lo + 1e-6) and (hi is None or x < hi - 1e-6)
 
 
 def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> pd.DataFrame | None:
