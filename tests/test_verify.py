@@ -192,6 +192,12 @@ def test_baseline_follows_the_rules_and_never_beats_the_optimiser() -> None:
         ["fuel", "import", "co2", "vent", "total"]
     assert savings({"fuel": 10.0, "export": 0.0}, {"fuel": 20.0, "export": 0.0})["export"]["saving_pct"] is None
     assert savings({"fuel": 10.0}, {"fuel": 20.0})["fuel"]["saving_pct"] == pytest.approx(50.0)
+    # a penalty in either schedule (demand or reserve not met) is no money: the money saved
+    # is given apart (a trial read a billion "saved" off a week the baseline left short)
+    sv = savings({"fuel": 100.0, "penalty": 0.0}, {"fuel": 80.0, "penalty": 1e6})
+    assert sv["total"]["saving"] == pytest.approx(1e6 - 20.0)
+    assert sv["total_without_penalty"]["saving"] == pytest.approx(-20.0)
+    assert "total_without_penalty" not in savings({"fuel": 1.0, "penalty": 0.0}, {"fuel": 2.0, "penalty": 0.0})
 
 
 def test_cli_verify_updates_a_plan_folder(tmp_path, capsys) -> None:  # noqa: ANN001

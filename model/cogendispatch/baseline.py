@@ -193,8 +193,9 @@ def _merit_loading(lm: LoadedModel, cfg: SiteConfig, merit: list, hours: list[in
 
 def savings(optimised: dict[str, float], baseline: dict[str, float]) -> dict[str, dict[str, float | None]]:
     """Saving of the optimised schedule against the baseline per cost category [currency and
-    %], in the optimised schedule's category order (the plan's cost table), then total. The
-    per cent is None where the baseline spends nothing in the category: no share of it."""
+    %], in the optimised schedule's category order (the plan's cost table), then total, and
+    when either schedule pays a penalty, the total without it (the money). The per cent is
+    None where the baseline spends nothing in the category: no share of it."""
 
     def pct(b: float, o: float) -> float | None:
         return 100.0 * (b - o) / abs(b) if abs(b) > 1e-9 else None
@@ -205,5 +206,10 @@ def savings(optimised: dict[str, float], baseline: dict[str, float]) -> dict[str
         out[cat] = {"baseline": b, "optimised": o, "saving": b - o, "saving_pct": pct(b, o)}
     tb, to = sum(baseline.values()), sum(optimised.values())
     out["total"] = {"baseline": tb, "optimised": to, "saving": tb - to, "saving_pct": pct(tb, to)}
+    pb, po = baseline.get("penalty", 0.0), optimised.get("penalty", 0.0)
+    if abs(pb) > 1e-6 or abs(po) > 1e-6:
+        # penalties price what is not met: no money. The money saved is the rest
+        mb, mo = tb - pb, to - po
+        out["total_without_penalty"] = {"baseline": mb, "optimised": mo, "saving": mb - mo, "saving_pct": pct(mb, mo)}
     return out
 

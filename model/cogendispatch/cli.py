@@ -648,6 +648,9 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                                 "saving [%]": "n/a" if v["saving_pct"] is None else round(v["saving_pct"], 1) + 0.0}
                                for k, v in sv.items()])
             _table(out, "Against the practice baseline", bt)
+            if "total_without_penalty" in sv:
+                out.print(Text("penalties price demand or reserve not met, not money: the money saved is "
+                               f"total_without_penalty, {sv['total_without_penalty']['saving']:,.0f} {cur}"))
             if s["baseline"]["diagnosis"]:
                 out.print(Text("the practice baseline itself leaves demand unmet: "
                                + "; ".join(s["baseline"]["diagnosis"][:3])))
