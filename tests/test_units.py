@@ -291,3 +291,36 @@ def test_ton_is_refused_as_ambiguous(text: str, kind: str) -> None:
     with pytest.raises(UnitError, match="ambiguous"):
         parse_quantity(text, kind)
     assert parse_quantity("5 short_ton/h", "mass_flow") == pytest.approx(5 * 2000 * LB_KG / 1000, rel=REL)
+
+
+def test_a_price_may_name_the_site_currency_and_no_other() -> None:
+    """'180 EUR/MWh' and a column unit 'EUR/MWh' read as the site's own currency (the
+    outputs name their money columns so); another currency is refused, naming it, since
+    no exchange rate is applied."""
+    from cogendispatch.units import UnitError, in_site_currency, parse_price
+
+    assert in_site_currency("180 EUR/MWh", "EUR") == "180 per MWh"
+    assert in_site_currency("EUR/MWh", "EUR") == "per MWh"
+    assert in_site_currency("per MWh", "EUR") == "per MWh"
+    with pytest.raises(UnitError, match="in USD, not the site's currency EUR"):
+        in_site_currency("180 USD per MWh", "EUR")
+    with pytest.raises(UnitError, match="in USD, not the site's currency"):
+        parse_price("9.0 USD/GJ", "price_energy")
+
+
+def test_a_series_price_column_in_the_site_currency_reads_as_per() -> None:
+    import pandas as pd
+
+    from cogendispatch.errors import InputError
+    from cogendispatch.plant.series import parse_series
+    from tiny import site
+
+    cfg = site()
+
+    def table(unit: str) -> pd.DataFrame:
+        return pd.DataFrame({"time": ["2027-03-01T00:00"], "demand:HP [t/h]": ["0"], "demand:LP [t/h]": ["20"],
+                             "load [MW]": ["5"], f"price:import [{unit}]": ["80"]})
+
+    assert parse_series(table("EUR/MWh"), cfg).price_import.iloc[0] == pytest.approx(80.0)
+    with pytest.raises(InputError, match=r"price:import \[USD/MWh\].*in USD"):
+        parse_series(table("USD/MWh"), cfg)

@@ -219,10 +219,10 @@ def _number(v: str, flag: str) -> float:
     return x
 
 
-def _amount(v: str, flag: str, kind: str) -> float:
+def _amount(v: str, flag: str, kind: str, currency: str = "") -> float:
     """A plain number in the internal unit of ``kind``, or a number with its own unit
-    ('4 per MMBtu', '+20 klb/h'), converted."""
-    from .units import UnitError, parse_quantity
+    ('4 per MMBtu', '+20 klb/h', '180 EUR/MWh' in the site's ``currency``), converted."""
+    from .units import UnitError, in_site_currency, parse_quantity
 
     try:
         return _number(v, flag)
@@ -230,12 +230,14 @@ def _amount(v: str, flag: str, kind: str) -> float:
         if not any(c.isalpha() for c in v):
             raise
     try:
+        if currency:
+            v = in_site_currency(v, currency)
         return parse_quantity(v, kind)
     except UnitError as e:
         raise InputError(None, flag, str(e)) from None
 
 
-def what_if_from_args(args: argparse.Namespace) -> "WhatIf":
+def what_if_from_args(args: argparse.Namespace, currency: str = "") -> "WhatIf":
     """The what-if of ``cogen advise`` from its ``--force``/``--trip``/price/demand options."""
     from .decisions import WhatIf
 
@@ -245,11 +247,11 @@ def what_if_from_args(args: argparse.Namespace) -> "WhatIf":
     w = WhatIf(force=dict(_pairs(args.force, "--force")), trip=list(args.trip))
     for k, v in _pairs(args.price, "--price"):
         if k == "import":
-            w.price_import = _amount(v, "--price", "price_power")
+            w.price_import = _amount(v, "--price", "price_power", currency)
         elif k == "export":
-            w.price_export = _amount(v, "--price", "price_power")
+            w.price_export = _amount(v, "--price", "price_power", currency)
         elif k.startswith("fuel:"):
-            w.fuel_price[k[5:]] = _amount(v, "--price", "price_energy")
+            w.fuel_price[k[5:]] = _amount(v, "--price", "price_energy", currency)
         else:
             raise InputError(None, "--price", f"'{k}' is not import, export or fuel:<id>")
     for k, v in _pairs(args.demand, "--demand"):
@@ -297,7 +299,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
         check_out_dir(Path(args.out).resolve(), "advice")
     cfg = load_site(args.site)
     series = load_series(args.series, cfg)
-    w = what_if_from_args(args)
+    w = what_if_from_args(args, cfg.site.currency)
     if args.plan:
         _warn_other_inputs(Path(args.plan), Path(args.site), Path(args.series), err)
     a = advise(cfg, series, args.at, args.series, args.plan, w,

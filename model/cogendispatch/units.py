@@ -188,6 +188,10 @@ def parse_price(text: object, kind: str) -> float:
         raise UnitError(f"{text!r} has no unit; write {desc}")
     m = _PRICE_RE.match(text)
     if not m:
+        c = _CURRENCY_UNIT.match(text)
+        if c:  # the site's own currency was taken off before: this is another one
+            raise UnitError(f"'{text}' is in {c.group(2)}, not the site's currency (no exchange rate is "
+                            f"applied); write {desc}")
         raise UnitError(f"'{text}' is not a price; write {desc}")
     return float(m.group(1)) / price_unit_factor(m.group(2), kind)
 
@@ -202,6 +206,26 @@ def price_unit_factor(unit: str, kind: str) -> float:
         raise UnitError(f"'per {unit}' is not {desc}") from None
     except Exception:
         raise UnitError(f"unknown unit '{unit}'; expected {desc}") from None
+
+
+# a price's unit that names a currency: "EUR/MWh", "180 EUR per MWh"
+_CURRENCY_UNIT = re.compile(rf"^\s*((?:{_NUMBER})?)\s*([A-Z]{{3}})\s*(?:/|per\b)\s*(\S.*)$")
+
+
+def in_site_currency(text: str, currency: str) -> str:
+    """``text`` (a price, "180 EUR/MWh", or a price unit, "EUR/MWh") with the site's own
+    ``currency`` written as the file formats write it ("180 per MWh", "per MWh"); text
+    naming no currency is returned as it is.
+
+    Raises UnitError for another currency: no exchange rate is applied.
+    """
+    m = _CURRENCY_UNIT.match(text)
+    if not m:
+        return text
+    if m.group(2) != currency:
+        raise UnitError(f"'{text.strip()}' is in {m.group(2)}, not the site's currency {currency} "
+                        "(no exchange rate is applied)")
+    return f"{m.group(1)} per {m.group(3)}".strip()
 
 
 def column_factor(unit: str, kind: str) -> tuple[float, float]:

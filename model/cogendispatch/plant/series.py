@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InputError
-from ..units import UnitError, column_factor
+from ..units import UnitError, column_factor, in_site_currency
 from .schema import SiteConfig
 
 _COL_RE = re.compile(r"^\s*([A-Za-z][A-Za-z0-9_:\-]*)\s*\[\s*([^\]]+?)\s*\]\s*$")
@@ -164,6 +164,8 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
         if known is not None and ref not in known:
             raise InputError(path, f"column '{col}'", f"unknown {'header' if kind == 'demand' else 'fuel' if kind == 'price:fuel' else 'drive'} '{ref}'")
         try:
+            if kind.startswith("price:"):  # "EUR/MWh" in the site's currency, as the outputs name it
+                unit = in_site_currency(unit, site.site.currency)
             scale, offset = column_factor(unit, _KIND[kind])
         except UnitError as exc:
             raise InputError(path, f"column '{col}'", str(exc)) from None
