@@ -515,3 +515,20 @@ def test_a_stop_near_the_horizons_end_is_named_as_an_end_effect() -> None:
     notes = end_stops(cfg, s)
     assert len(notes) == 1 and notes[0].startswith("P1 changes from 0 to 1 machine(s) on steam at 2027-01-05 19:00")
     assert end_stops(cfg, s.assign(**{"P1.on_steam": [0] * 20 + [1] * 28})) == []  # 28 h before: seen whole
+
+
+def test_a_unit_on_before_the_plan_and_stopped_at_its_first_hour_is_named() -> None:
+    """A unit the site file has on before the first hour that the plan keeps off from the
+    first hour stops at no cost of its own in the model: the plan names it (a trial found
+    the demo's TG1 so, with nothing said)."""
+    import pandas as pd
+
+    from cogendispatch.results import start_stops
+
+    t = pd.date_range("2027-01-04", periods=6, freq="h")
+    s = pd.DataFrame({"B1.on": [1] * 6, "TG.on": [0, 0, 1, 1, 1, 1]}, index=pd.Index(t, name="time"))
+    notes = start_stops(site(turbogenerator=[{**TG, "initial_on": True}]), s)
+    assert notes == ["TG was on before the first hour (initial_on in the site file) and is stopped at "
+                     "2027-01-04 00:00; off 2 of 6 h"]
+    assert start_stops(site(turbogenerator=[{**TG, "initial_on": False}]), s) == []  # off before: no stop
+    assert start_stops(site(turbogenerator=[{**TG, "initial_on": True}]), s.assign(**{"TG.on": 1})) == []

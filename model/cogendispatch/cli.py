@@ -664,6 +664,8 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                            f"hours around it were searched again and the objective changed by {ch:+,.0f} {cur}"
                            + (" (a dearer schedule within the gap asked, taken because it meets what the first "
                               "left short)" if ch > 0 else "")))
+        for note in s.get("start_stops", []):
+            out.print(Text(f"start of horizon: {note}"))
         for note in s.get("end_stops", []):
             out.print(Text(f"end of horizon: {note}"))
         if "verify" in s:

@@ -17,7 +17,7 @@ from .plant.schema import SiteConfig
 from .plant.series import Series, load_series
 from .prices import hourly_prices
 from .report import write_reports
-from .results import PlanResults, end_stops, plan_results
+from .results import PlanResults, end_stops, plan_results, start_stops
 from .site import BuildOptions, SiteModel, build_site_model
 from .solve import SolveOptions, SolveReport, solve_loaded
 from .verify import MOISTURE_LIMIT, Verification, verify_schedule
@@ -66,6 +66,7 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
         "drive_hours": t["drive_hours"],
         "diagnosis": res.diagnosis,
         "end_stops": end_stops(cfg, res.schedule),
+        "start_stops": start_stops(cfg, res.schedule),
         "seconds": run_report.seconds,
         "hours": series.hours,
         "first_hour": str(series.time[0]),

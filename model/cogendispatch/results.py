@@ -333,3 +333,19 @@ def end_stops(cfg: SiteConfig, schedule: pd.DataFrame, within: int = END_WINDOW_
                          f"{schedule.index[c]:%Y-%m-%d %H:%M}, {n - c} h before the plan's end, though it keeps a "
                          f"driver at least {d.min_hours_between_switches:g} h: the plan saw only part of that choice")
     return notes
+
+
+def start_stops(cfg: SiteConfig, schedule: pd.DataFrame) -> list[str]:
+    """Boilers and turbo-generators on before the first hour (the site file's
+    ``initial_on``) that the plan has off from its first hour: a stop with no cost of its
+    own in the model, easily missed in the running hours."""
+    notes = []
+    if len(schedule) == 0:
+        return notes
+    for u in (*cfg.boilers, *cfg.turbogenerators):
+        col = f"{u.id}.on"
+        if col in schedule and u.initial_on and u.available and schedule[col].iloc[0] < 0.5:
+            off = int((schedule[col].to_numpy() < 0.5).sum())
+            notes.append(f"{u.id} was on before the first hour (initial_on in the site file) and is stopped at "
+                         f"{schedule.index[0]:%Y-%m-%d %H:%M}; off {off} of {len(schedule)} h")
+    return notes
