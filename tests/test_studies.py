@@ -121,6 +121,9 @@ demand = { LP = 1.1 }
      "both have a UTC offset or both not"),
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "tuesday"\nto = "2027-03-01"\n', "from"),
     ('[[scenario]]\nname = "a"\nprices = "nothere.csv"\n', "prices"),
+    ('[[scenarios]]\nname = "a"\n', "scenarios"),  # the documented keys only, no synonyms
+    ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nstart = "2027-03-01"\nto = "2027-03-01"\n', "start"),
+    ('[[scenario]]\nname = "a"\nload = -1\n', "load"),
 ])
 def test_bad_scenarios_name_the_place(tmp_path, text: str, where: str) -> None:  # noqa: ANN001
     cfg = _site()
@@ -349,6 +352,7 @@ import = { multiply = 2, months = [6] }
 [[scenario]]
 name = "price file"
 prices = "dear.csv"
+load = 1.1
 """)
     c, f = load_scenarios(p, cfg, base)
     assert c.series.co2_price.to_numpy() == pytest.approx(20.0)
@@ -358,4 +362,6 @@ prices = "dear.csv"
     assert f.series.price_import.iloc[5] == pytest.approx(155.0)
     assert f.series.fuel_price["NG"].to_numpy() == pytest.approx(base.fuel_price["NG"].to_numpy())
     assert f.series.co2_price.to_numpy() == pytest.approx(base.co2_price.to_numpy())
+    assert f.series.load.to_numpy() == pytest.approx(1.1 * base.load.to_numpy())  # the site load scaled
+    assert c.series.load.to_numpy() == pytest.approx(base.load.to_numpy())
     assert not f.notes

@@ -240,7 +240,8 @@ def diagnose(sm: SiteModel, upto: int | None = None, first: int = 0) -> list[str
                 span = f"hour {first + a} ({time[a]:%Y-%m-%d %H:%M})"
             else:
                 span = f"hours {first + a}-{first + b} ({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M})"
-            msg = f"{what} {peak:.2f} {unit} at most in {span}; {hint}"
+            # a shortfall under a hundredth still shows its size ("0.004", not "0.00")
+            msg = f"{what} {peak:{'.2f' if peak >= 0.01 else '.2g'}} {unit} at most in {span}; {hint}"
             if limits:
                 bind = binding_limits(sm, worst, power, header)
                 if bind:

@@ -64,7 +64,9 @@ NEW_MODEL_MIN = 6.0
 
 
 class _T(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
+    # the keys as documented only ('from', 'to', 'import', 'scenario', 'outage'), not the
+    # field names behind them
+    model_config = ConfigDict(extra="forbid", frozen=True)
 
 
 class PriceChange(_T):
@@ -92,6 +94,7 @@ class Scenario(_T):
     export: PriceChange | None = None
     co2: PriceChange | None = None
     demand: dict[str, Annotated[float, Field(ge=0.0)]] = Field(default_factory=dict)
+    load: float | None = Field(default=None, ge=0.0, allow_inf_nan=False)  # scales the site electric load
     prices: str | None = None
     outages: list[Outage] = Field(default_factory=list, alias="outage")
 
@@ -220,7 +223,8 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
         i0 = int(np.searchsorted(base.time, a))
         i1 = int(np.searchsorted(base.time, b, side="right")) - 1
         outages.append((o.unit, i0, i1))
-    ser = Series(time=s.time, demand=demand, load=s.load, price_import=imp, price_export=exp,
+    load = s.load * sc.load if sc.load is not None else s.load
+    ser = Series(time=s.time, demand=demand, load=load, price_import=imp, price_export=exp,
                  fuel_price=fuel_price, co2_price=co2, duty=s.duty, source=s.source)
     return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes))
 
