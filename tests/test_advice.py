@@ -9,6 +9,7 @@ import pytest
 from cogendispatch.cli import main
 from cogendispatch.decisions import HourModel, WhatIf, advise, hour_index
 from cogendispatch.equipment.common import SiteStates
+from cogendispatch.errors import InputError
 from cogendispatch.site import build_site_model
 from cogendispatch.solve import SolveOptions, solve
 from cogendispatch.steam import isentropic_drop, state_pT
@@ -749,3 +750,29 @@ def test_a_what_if_line_names_the_grid_when_import_moves() -> None:
 
     assert what_if_changes(state(44.01), state(44.61)) == ["grid import 44.01 -> 44.61 MW"]
     assert what_if_changes(state(44.01), state(44.012)) == []  # below the digits shown
+
+
+def test_keep_drivers_holds_the_plans_drivers_in_the_hour(tmp_path) -> None:  # noqa: ANN001
+    """A plan made at dear power runs both pumps on steam; asked at cheap power, the hour
+    alone would put both on motor. With keep_drivers the hour as given keeps the plan's two
+    on steam (its dispatch says so), while the driver table's row still prices the change;
+    without a plan, keep_drivers is refused."""
+    from cogendispatch.outputs import write_csv
+    from cogendispatch.results import plan_results
+    cfg = _pair_site()
+    dear = series(cfg, 2, demand_HP=D_HP, demand_LP=60.0, price_import=200.0)
+    sm = build_site_model(cfg, dear)
+    solve(sm, SolveOptions(gap=1e-9))
+    (tmp_path / "plan").mkdir()
+    write_csv(plan_results(sm).schedule, tmp_path / "plan" / "schedule.csv")
+    cheap = series(cfg, 2, demand_HP=D_HP, demand_LP=60.0, price_import=5.0)
+    at, plan = str(cheap.time[1]), str(tmp_path / "plan")
+    free = advise(cfg, cheap, at, "<tiny>", plan_dir=plan)
+    kept = advise(cfg, cheap, at, "<tiny>", plan_dir=plan, keep_drivers=True)
+    assert free.drivers.iloc[0].now_on_steam == 2  # the plan's, as meant
+    assert free.dispatch["machines_on_steam"]["P1"] == 0 and kept.dispatch["machines_on_steam"]["P1"] == 2
+    assert kept.cost > free.cost + 1.0
+    row = kept.drivers.iloc[0]
+    assert row.better == "motor" and row.saving_vs_now == pytest.approx(row.cost_on_steam - row.cost_on_motor)
+    with pytest.raises(InputError, match="--keep-drivers"):
+        advise(cfg, cheap, at, "<tiny>", keep_drivers=True)

@@ -190,6 +190,10 @@ def build_parser() -> argparse.ArgumentParser:
     ad.add_argument("--allow-starts", action="store_true",
                     help="let a what-if start a stopped boiler or turbo-generator, its whole start-up cost "
                          "charged to the hour (by default every unit keeps its on/off state)")
+    ad.add_argument("--keep-drivers", action="store_true",
+                    help="with --plan: hold every machine's driver as the plan has it in the hour (by default the "
+                         "hour re-chooses the drivers the minimum time between changes allows); a row of the "
+                         "driver table or a --force frees its own machine")
     ad.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
     ad.add_argument("--out", help="also write advice.json, prices.csv, drivers.csv and summary.json here")
     ad.add_argument("--json", action="store_true", help="print advice.json to standard output")
@@ -259,12 +263,23 @@ def what_if_from_args(args: argparse.Namespace, currency: str = "") -> "WhatIf":
     return w
 
 
+def dispatch_line(d: dict[str, dict[str, float]]) -> str:
+    """The hour's dispatch in one line: boilers, turbo-generators, grid, machines on steam."""
+    parts = [", ".join(f"{k} {v:.1f} t/h" for k, v in d["boilers_t_h"].items() if v > 0.05) or "no boiler",
+             ", ".join(f"{k} {v:.2f} MW" for k, v in d["turbogenerators_MW"].items() if v > 0.005) or "no generation",
+             f"import {d['grid_MW']['import']:.2f} MW" + (f", export {d['grid_MW']['export']:.2f} MW"
+                                                          if d["grid_MW"]["export"] > 0.005 else ""),
+             "on steam: " + (", ".join(f"{k} {v:g}" for k, v in d["machines_on_steam"].items() if v) or "none")]
+    return "; ".join(parts)
+
+
 def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
     """One hour's advice as the JSON object written to ``advice.json``."""
     return {
         "time": a.time, "currency": currency, "held_on": a.held, "cost": a.cost,
         "marginal_price": {"steam_per_t": a.prices, "power_per_MWh": a.power_price},
         "reason": {**a.reasons, "power": a.power_reason},
+        "dispatch": a.dispatch,
         "drivers": a.drivers.to_dict(orient="records"), "what_if": a.what_if, "seconds": a.seconds,
         "note": SAFETY_NOTE,
     }
@@ -303,7 +318,8 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     if args.plan:
         _warn_other_inputs(Path(args.plan), Path(args.site), Path(args.series), err)
     a = advise(cfg, series, args.at, args.series, args.plan, w,
-               BuildOptions(reserve=False if args.no_reserve else None), allow_starts=args.allow_starts)
+               BuildOptions(reserve=False if args.no_reserve else None), allow_starts=args.allow_starts,
+               keep_drivers=args.keep_drivers)
     d = advice_dict(a, cfg.site.currency)
     cur = cfg.site.currency
     if args.json:
@@ -316,6 +332,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
         # the prices and the driver table are the hour as given; the what-if is its own line
         given = " as given, before the what-if below" if a.what_if else ""
         _table(out, f"Marginal prices at {a.time} (hour cost {a.cost:,.0f} {cur}{given})", pr)
+        out.print(Text("hour" + (" as given" if a.what_if else "") + ": " + dispatch_line(a.dispatch)))
         if not a.drivers.empty:
             # why a machine's drivers before the hour may be unknown
             unknown = ("unknown (give --plan)" if args.plan is None and a.time != str(series.time[0])

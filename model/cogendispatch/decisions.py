@@ -764,16 +764,21 @@ class Advice:
     seconds: float
     set_by: dict[str, str] = field(default_factory=dict)  # per balance, as a plan's prices.csv (prices.set_by)
     not_met: list[str] = field(default_factory=list)  # the hour as given: what is short, one line each
+    # the hour as given: boilers [t/h], turbo-generators [MW], grid [MW], machines on steam
+    dispatch: dict[str, dict[str, float]] = field(default_factory=dict)
 
 
 def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir: str | None = None,
-           what_if: WhatIf | None = None, build: BuildOptions = BuildOptions(), allow_starts: bool = False) -> Advice:
+           what_if: WhatIf | None = None, build: BuildOptions = BuildOptions(), allow_starts: bool = False,
+           keep_drivers: bool = False) -> Advice:
     """Advice for the hour ``at``: marginal prices, driver table and an optional what-if.
 
     The what-if holds every boiler's and turbo-generator's on/off state: within the hour a
     cold unit cannot take load, and a running one is not stopped on a whim. With
     ``allow_starts`` a stopped unit may start (its whole start-up cost charged to the hour),
-    to ask whether a change would be worth a start."""
+    to ask whether a change would be worth a start. With ``keep_drivers`` (a plan needed)
+    every machine keeps the plan's drivers in the hour, except the machine a row of the
+    driver table or the what-if forces."""
     import time as _time
 
     t0 = _time.perf_counter()
@@ -785,6 +790,10 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
                          "start within the hour")
     hm = HourModel(cfg, series, i, held, build)
     hm.driver_limits = {did: h.allowed() for did, h in history.items()}
+    if keep_drivers:
+        if plan_drivers is None:
+            raise InputError(None, "--keep-drivers", "needs --plan: the drivers kept are the plan's in the hour")
+        hm.driver_limits = {did: (n, n) for did, n in plan_drivers.items() if did in hm.drive_cols}
     base = hm.solve()
     prices, power_price, x = hm.marginal_prices()
     reasons, pw_reason = price_reasons(hm, x)
@@ -845,8 +854,10 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
               "reserve_short_t_h": new.reserve_short,
               "penalty_change": new.penalty - base_free.penalty,
               "asked": {**asdict(what_if), "allow_starts": allow_starts}}
+    dispatch = {"boilers_t_h": base.steam, "turbogenerators_MW": base.power, "grid_MW": base.grid,
+                "machines_on_steam": {k: float(v) for k, v in base.on_steam.items()}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
-                  _time.perf_counter() - t0, categories, not_met)
+                  _time.perf_counter() - t0, categories, not_met, dispatch)
 
 
 def _blocked_changes(base: HourState, new: HourState, history: dict[str, DriverHistory]) -> list[str]:
