@@ -291,6 +291,9 @@ def test_advice_on_a_plan_made_from_another_series_says_so(tmp_path, capsys) -> 
     (["--at", "2027-01-05T10:00", "--demand", "LP=+20", "--demand", "LP=+5"], "given twice"),
     (["--at", "2027-01-05T10:00", "--force", "CWP=steam", "--force", "CWP=motor"], "given twice"),
     (["--at", "2027-01-05T10:00", "--trip", "TG1", "--trip", "TG1"], "--trip: 'TG1' is given twice"),
+    (["--at", "5/1/2027 10:00"], "year-month-day"),  # 1 May or 5 January, by country
+    (["--at", "2027-01-05T10:00", "--keep-drivers"], "needs --plan"),
+    (["--at", "2027-01-05T10:00", "--price", "import=90 USD/MWh"], "not the site's currency"),
 ])
 def test_cli_advise_bad_options_exit_2(args: list[str], where: str, capsys) -> None:  # noqa: ANN001
     from pathlib import Path
@@ -298,6 +301,12 @@ def test_cli_advise_bad_options_exit_2(args: list[str], where: str, capsys) -> N
     rc = main(["advise", str(root / "saltmarsh_refinery.toml"), "--series", str(root / "saltmarsh_week.csv"), *args])
     err = capsys.readouterr().err
     assert rc == 2 and where in err and "Traceback" not in err
+    # with --json the failure is an object on standard output too
+    import json
+    assert main(["advise", str(root / "saltmarsh_refinery.toml"), "--series", str(root / "saltmarsh_week.csv"),
+                 *args, "--json"]) == 2
+    printed = json.loads(capsys.readouterr().out)
+    assert printed["error"] == "input" and printed["exit_code"] == 2 and where in printed["message"]
 
 
 def test_what_if_values_may_carry_units() -> None:

@@ -8,6 +8,7 @@ schedule; 130 interrupted.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 import textwrap
 import time
@@ -629,6 +630,10 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
         if not args.quiet:
             err.print(f"[dim]{time.perf_counter() - t0:6.1f} s[/dim]  {escape(msg)}", highlight=False)
 
+    cores = os.cpu_count() or 1
+    if args.threads > cores:
+        err.print(f"note: --threads {args.threads} is more than this machine's {cores} core(s); "
+                  "the threads then share them")
     run = run_plan(args.site, args.series, args.out,
                    SolveOptions(gap=args.gap, time_limit=args.time_limit, threads=args.threads),
                    BuildOptions(reserve=False if args.no_reserve else None), progress, args.moisture_limit,
@@ -707,6 +712,13 @@ def main(argv: list[str] | None = None) -> int:
         # piped or redirected: a file has no width to fit, and cut numbers mislead
         out = Console(width=max(out.width, 240), soft_wrap=True)
     err = Console(stderr=True, soft_wrap=True)  # one message a line, whole, for logs and grep
+    args: argparse.Namespace | None = None
+
+    def json_error(kind: str, message: str, code: int) -> None:
+        # --json promises an object on standard output: a failed run gives one too
+        if args is not None and getattr(args, "json", False):
+            print(json_text({"error": kind, "message": message, "exit_code": code}))
+
     try:
         args = build_parser().parse_args(argv)
         if args.command == "inspect":
@@ -738,12 +750,15 @@ def main(argv: list[str] | None = None) -> int:
     except InputError as exc:
         for line in str(exc).splitlines():
             err.print(f"[bold red]input error:[/bold red] {escape(line)}", highlight=False)
+        json_error("input", str(exc), EXIT_INPUT)
         return EXIT_INPUT
     except SteamPropertyError as exc:
         err.print(f"[bold red]input error:[/bold red] {escape(str(exc))}", highlight=False)
+        json_error("input", str(exc), EXIT_INPUT)
         return EXIT_INPUT
     except SolveError as exc:
         err.print(f"[bold red]solver:[/bold red] {escape(str(exc))}", highlight=False)
+        json_error("solver", str(exc), EXIT_SOLVER)
         return EXIT_SOLVER
     except KeyboardInterrupt:
         err.print("interrupted; earlier results were left as they were")

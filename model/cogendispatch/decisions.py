@@ -274,6 +274,9 @@ def hour_index(series: Series, at: str, path: str) -> int:
         ts = pd.Timestamp(at)
     except (ValueError, TypeError):
         raise InputError(None, "--at", f"'{at}' is not a date and time") from None
+    if "/" in at or "." in at.split("T")[0].split(" ")[0]:
+        # 5/1/2027 is 1 May in one country and 5 January in another
+        raise InputError(None, "--at", f"'{at}': write the date as year-month-day, e.g. '2027-01-05T10:00'")
     if not re.search(r"\d[T ]\d", at.strip()):  # a date alone would silently mean midnight
         raise InputError(None, "--at", f"'{at}' gives no hour; write e.g. '{ts:%Y-%m-%d}T10:00'")
     if ts.tzinfo is not None:
