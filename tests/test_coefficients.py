@@ -283,3 +283,23 @@ def test_deaerator_table_gives_the_steam_each_water_stream_needs():
     s = dea.loc["COND hotwell condensate", "steam_t_per_t_water"]
     assert h_hw + s * h_s == pytest.approx((1 + s) * h_fw, rel=1e-12)
     assert "55%" in dea.loc["process condensate", "flow"]
+
+
+def test_a_table_too_wide_breaks_its_headings_before_splitting(capsys: pytest.CaptureFixture[str]) -> None:
+    """Scenario names as column headings made a study's table many times the terminal's
+    width; a table that does not fit breaks its headings between words (up to three
+    lines), and one that fits keeps them whole."""
+    import pandas as pd
+    from rich.console import Console
+
+    from cogendispatch.cli import _table
+
+    df = pd.DataFrame({"quantity": ["cost"], "import -20 % in January, carbon +20": [1914154.0],
+                       "LP demand +10 %, B3 overhaul": [3220659.0]})
+    _table(Console(width=60, force_terminal=True, color_system=None), "t", df)
+    text = capsys.readouterr().out
+    assert max(len(line) for line in text.splitlines()) <= 60 and "(continued)" not in text
+    assert "import -20 % in January, carbon +20" not in text and "import -20 %" in text  # broken, not cut
+    assert "1,914,154" in text and "3,220,659" in text
+    _table(Console(width=200, force_terminal=True, color_system=None), "t", df)
+    assert "import -20 % in January, carbon +20" in capsys.readouterr().out  # fits: whole

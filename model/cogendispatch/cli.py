@@ -542,14 +542,17 @@ HEADING_LINES = 3  # most lines a table's column heading is broken into
 def _table(console: Console, title: str, df: pd.DataFrame) -> None:
     """A table on the terminal, no cell ever cut or wrapped (a cut number reads as another
     number): when the columns do not fit the width they go into several tables, each
-    repeating the first column. A long heading (a scenario's name, say) goes on up to
-    :data:`HEADING_LINES` lines, broken between words, rather than widen its column."""
+    repeating the first column. Before that, a table too wide for the terminal breaks its
+    long headings (a scenario's name, say) over up to :data:`HEADING_LINES` lines, between
+    words."""
     cells = [[_fmt(v) for v in df[c].tolist()] for c in df.columns]
     heads = [str(c) for c in df.columns]
-    widths = [max([len(w) for w in h.split()] + [len(v) for v in col] + [-(-len(h) // HEADING_LINES)])
-              for h, col in zip(heads, cells)]
-    heads = ["\n".join(textwrap.wrap(h, w, break_long_words=False)) or h for h, w in zip(heads, widths)]
-    widths = [max([w] + [len(line) for line in h.split("\n")]) for h, w in zip(heads, widths)]
+    widths = [max(len(v) for v in [h, *col]) for h, col in zip(heads, cells)]
+    if sum(w + 3 for w in widths) + 1 > console.width:  # too wide: headings on several lines first
+        widths = [max([len(w) for w in h.split()] + [len(v) for v in col] + [-(-len(h) // HEADING_LINES)])
+                  for h, col in zip(heads, cells)]
+        heads = ["\n".join(textwrap.wrap(h, w, break_long_words=False)) or h for h, w in zip(heads, widths)]
+        widths = [max([w] + [len(line) for line in h.split("\n")]) for h, w in zip(heads, widths)]
     numeric = [pd.api.types.is_numeric_dtype(df[c]) or all(_is_number(v) or v is None for v in df[c].tolist())
                for c in df.columns]
     groups: list[list[int]] = [[]]
