@@ -785,3 +785,41 @@ def test_keep_drivers_holds_the_plans_drivers_in_the_hour(tmp_path) -> None:  # 
     assert row.better == "motor" and row.saving_vs_now == pytest.approx(row.cost_on_steam - row.cost_on_motor)
     with pytest.raises(InputError, match="--keep-drivers"):
         advise(cfg, cheap, at, "<tiny>", keep_drivers=True)
+
+
+def test_the_flip_search_steps_along_each_solves_import() -> None:
+    """Each re-solve's import [MW] is its cost's slope in the import price (an LP's
+    optimum is linear in a cost coefficient while its schedule stays optimal). Made up:
+    steam minus motor is 2 (p - 47) below 60 and 26 + 10 (p - 60) above it, motor better
+    at the hour's 100. Bracketed between 75 and 40, a Newton step from 40 (the end nearer
+    zero) lands on 47 in one step; false position alone would take several."""
+    from cogendispatch.decisions import _flip_prices
+
+    calls = []
+
+    class Kinked:
+        last_import = 0.0
+
+        def cost(self, w: WhatIf) -> float:
+            calls.append(1)
+            p = w.price_import
+            if w.force["P1"] == "motor":
+                self.last_import = 0.0
+                return 0.0
+            self.last_import = 2.0 if p < 60.0 else 10.0
+            return 2.0 * (p - 47.0) if p < 60.0 else 26.0 + 10.0 * (p - 60.0)
+
+    near, other = _flip_prices(Kinked(), "P1", 100.0, 106.0, None, 0.5)
+    assert near == pytest.approx(47.0, abs=0.05) and other is None
+    # two steps to bracket it, one to land on it, two on the far side as far as 153
+    assert len(calls) == 2 * 5
+    calls.clear()
+
+    class Unsaid(Kinked):  # a model that does not give its import: false position and halving
+        def cost(self, w: WhatIf) -> float:
+            c = super().cost(w)
+            self.last_import = None
+            return c
+
+    assert _flip_prices(Unsaid(), "P1", 100.0, 106.0, None, 0.5)[0] == pytest.approx(47.0, abs=0.5)
+    assert len(calls) > 2 * 5  # more steps than along the slopes

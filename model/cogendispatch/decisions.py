@@ -185,6 +185,9 @@ class HourModel:
         self.lm._run(30.0)
         if self.h.getInfo().primal_solution_status != 2:
             raise RuntimeError("the hour has no solution")
+        # [MW] the import of this solve: the cost's slope in the import price (envelope
+        # theorem), which the flip search uses
+        self.last_import = float(self.h.getSolution().col_value[self.imp_col]) if self.imp_col is not None else 0.0
         return float(self.h.getInfo().objective_function_value)
 
     def solve(self, w: WhatIf = WhatIf(), hold: str = "all") -> HourState:
@@ -604,19 +607,30 @@ def _short(st: HourState) -> bool:
     return any(v > 1e-4 for v in st.short.values()) or st.power_short > 1e-4
 
 
-def _diff(hm: HourModel, did: str, price: float) -> float:
-    """cost(steam) - cost(motor) at an import price: positive means the motor is cheaper."""
-    return hm.cost(WhatIf(force={did: "steam"}, price_import=price)) - \
-        hm.cost(WhatIf(force={did: "motor"}, price_import=price))
+def _priced(hm: HourModel, w: WhatIf) -> tuple[float, float | None]:
+    """The hour's cost under ``w`` [currency] and its slope in the import price [MWh]: the
+    import of the schedule found (None from a model that does not say)."""
+    c = hm.cost(w)
+    return c, getattr(hm, "last_import", None)
 
 
-def _split_margin(hm: HourModel, did: str, count: int, best: int, price: float) -> float:
+def _diff(hm: HourModel, did: str, price: float) -> tuple[float, float | None]:
+    """cost(steam) - cost(motor) at an import price, positive when the motor is cheaper
+    [currency/h], and its slope in the import price [MWh] (None when unknown)."""
+    cs, ss = _priced(hm, WhatIf(force={did: "steam"}, price_import=price))
+    cm, sm = _priced(hm, WhatIf(force={did: "motor"}, price_import=price))
+    return cs - cm, (ss - sm if ss is not None and sm is not None else None)
+
+
+def _split_margin(hm: HourModel, did: str, count: int, best: int, price: float) -> tuple[float, float | None]:
     """Cost with ``best`` of ``count`` spared machines on steam less the cheapest other
     number on steam, at an import price [currency/h]: negative while ``best`` stays the
-    cheapest. count + 1 re-solves."""
-    costs = {n: hm.cost(WhatIf(force={did: "motor" if n == 0 else "steam" if n == count else n},
-                               price_import=price)) for n in range(count + 1)}
-    return costs[best] - min(c for n, c in costs.items() if n != best)
+    cheapest; and its slope in the import price [MWh]. count + 1 re-solves."""
+    got = {n: _priced(hm, WhatIf(force={did: "motor" if n == 0 else "steam" if n == count else n},
+                                 price_import=price)) for n in range(count + 1)}
+    other = min((n for n in got if n != best), key=lambda n: got[n][0])
+    slope = got[best][1] - got[other][1] if got[best][1] is not None and got[other][1] is not None else None
+    return got[best][0] - got[other][0], slope
 
 
 def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | None,
@@ -672,19 +686,23 @@ def _search_range(p0: float) -> tuple[float, float]:
     return p0 - max(abs(p0), 100.0), 1000.0
 
 
-def _bracket_and_bisect(diff: Callable[[float], float], p0: float, d0: float, steps: list[float],
-                        tol: float) -> float | None:
+def _bracket_and_bisect(diff: Callable[[float], tuple[float, float | None]], p0: float, d0: float,
+                        steps: list[float], tol: float) -> float | None:
     """The first price along ``steps`` from ``p0`` where the choice better at ``p0`` stops
     being better by more than :data:`TIE` [currency/h] (``diff``: the cost difference at a
-    price, ``d0`` its value at ``p0``), narrowed to ``tol`` and interpolated in its last
-    bracket; None without one. (Where steam and motor cost the same to a cent over a range
-    of prices, the flip is that range's far edge, not a point inside it chosen by round-off.)"""
+    price and its slope in the price, ``d0`` its value at ``p0``), narrowed to ``tol`` and
+    interpolated in its last bracket; None without one. (Where steam and motor cost the
+    same to a cent over a range of prices, the flip is that range's far edge, not a point
+    inside it chosen by round-off.)"""
     shift = TIE if d0 > 0 else -TIE
+    slopes: dict[float, float | None] = {}
 
     def g(q: float) -> float:
-        return diff(q) - shift
+        v, slopes[q] = diff(q)
+        return v - shift
 
     a, fa = p0, d0 - shift
+    slopes[p0] = None
     for q in steps:
         fq = g(q)
         if fq * fa <= 0:
@@ -704,6 +722,15 @@ def _bracket_and_bisect(diff: Callable[[float], float], p0: float, d0: float, st
         if width <= tol:
             break
         mid = 0.5 * (a + b) if halve or fa == fb else a + (b - a) * fa / (fa - fb)
+        # each solve's import is the slope of its cost in the price: a Newton step from the
+        # end nearer zero lands on the root when the two lie on one linear piece (each
+        # solve's schedule is optimal over a range of prices), in one re-solve
+        newton = [q - f / s for q, f in sorted(((a, fa), (b, fb)), key=lambda e: abs(e[1]))
+                  if (s := slopes.get(q)) and abs(s) > 1e-9]
+        # (not onto an end: a step that lands there learns nothing; it happens at a kink)
+        newton = [q for q in newton if min(a, b) + 0.25 * tol < q < max(a, b) - 0.25 * tol]
+        if newton and not halve:
+            mid = newton[0]
         if not (min(a, b) < mid < max(a, b)):
             mid = 0.5 * (a + b)
         fm = g(mid)
