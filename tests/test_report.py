@@ -75,6 +75,8 @@ def test_workbook_reads_back_like_the_csv_files(plan_dir: Path) -> None:
     wb = load_workbook(plan_dir / "plan.xlsx")
     assert wb["schedule"].freeze_panes == "B2"
     assert any(c.number_format == "#,##0.000" for row in wb["schedule"].iter_rows(min_row=2) for c in row)
+    html = (plan_dir / "report.html").read_text()
+    assert "<td>total</td>" in html  # the cost table ends with its total
 
 
 def test_us_units_and_rebuild(plan_dir: Path, tmp_path: Path) -> None:

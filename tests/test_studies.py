@@ -237,6 +237,10 @@ def test_cli_study_writes_the_outputs(tmp_path, capsys, monkeypatch) -> None:  #
     from openpyxl import load_workbook
     assert load_workbook(out / "study.xlsx")["scenarios"]["A3"].value == "'=cheap power"  # text, not a formula
     assert load_workbook(out / "study.xlsx")["monthly"].freeze_panes == "C2"  # month and scenario stay in view
+    ws = load_workbook(out / "study.xlsx")["scenarios"]
+    heads = {c.value: c.column for c in ws[1]}
+    assert ws.cell(row=2, column=heads["cost_total_EUR"]).number_format == "#,##0"  # money in whole units
+    assert ws.cell(row=2, column=heads["fuel_GJ"]).number_format == "#,##0.000"
     capsys.readouterr()
     assert main(["verify", str(out)]) == 2  # a study folder is not a plan
     assert "holds study results; verify re-checks a plan folder's schedule" in capsys.readouterr().err

@@ -4,6 +4,7 @@ frozen panes and number formats. Text that a spreadsheet would read as a formula
 from __future__ import annotations
 
 import json
+import re
 from datetime import datetime
 from pathlib import Path
 
@@ -22,10 +23,16 @@ def _sheet(writer: pd.ExcelWriter, name: str, df: pd.DataFrame, index: bool, key
     width = out.shape[1] + (1 if index else 0)
     for j in range(1, width + 1):
         ws.column_dimensions[get_column_letter(j)].width = 16 if j > 1 else 20
+        head = ws.cell(row=1, column=j).value
+        # money (a column named with its currency, "cost_fuel_EUR") in whole units, as on
+        # the terminal; other numbers to three decimals; counts as they are
+        money = isinstance(head, str) and re.search(r"_[A-Z]{3}$", head) is not None
         for row in ws.iter_rows(min_row=2, min_col=j, max_col=j):
             for cell in row:
                 if isinstance(cell.value, float):
-                    cell.number_format = "#,##0.000"
+                    cell.number_format = "#,##0" if money else "#,##0.000"
+                elif isinstance(cell.value, int) and not isinstance(cell.value, bool):
+                    cell.number_format = "#,##0"
                 elif isinstance(cell.value, datetime):
                     cell.number_format = "yyyy-mm-dd hh:mm"
 

@@ -84,8 +84,14 @@ def plan_report(d: Path, units: Units = Units()) -> str:
     if s.get("diagnosis"):
         body.append("<h2>Demand not met</h2><ul>" + "".join(f"<li class='bad'>{escape(x)}</li>" for x in s["diagnosis"]) + "</ul>")
     # summary tables
-    cost_tab = pd.DataFrame([{"category": k, f"cost [{s.get('currency', '')}]": v} for k, v in s["cost"].items()])
+    money = f"cost [{s.get('currency', '')}]"
+    cost_tab = pd.DataFrame([{"category": k, money: v} for k, v in s["cost"].items()]
+                            + [{"category": "total", money: s.get("cost_total", sum(s["cost"].values()))}])
     body.append("<h2>Cost</h2>" + _table(cost_tab))
+    notes = [f"start of horizon: {x}" for x in s.get("start_stops", [])] + \
+        [f"end of horizon: {x}" for x in s.get("end_stops", [])]
+    if notes:
+        body.append("<ul>" + "".join(f"<li>{escape(x)}</li>" for x in notes) + "</ul>")
     if "baseline" in s:
         sv = s["baseline"]["saving"]
         body.append("<h2>Against the practice baseline</h2>" + _table(pd.DataFrame(
