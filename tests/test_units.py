@@ -324,3 +324,24 @@ def test_a_series_price_column_in_the_site_currency_reads_as_per() -> None:
     assert parse_series(table("EUR/MWh"), cfg).price_import.iloc[0] == pytest.approx(80.0)
     with pytest.raises(InputError, match=r"price:import \[USD/MWh\].*in USD"):
         parse_series(table("USD/MWh"), cfg)
+
+
+def test_values_beyond_any_site_get_a_note() -> None:
+    """An import price headed per kWh but written per MWh reads a thousand times too high;
+    such values are noted (common-practice limits, Series.notes), not refused."""
+    import pandas as pd
+
+    from cogendispatch.plant.series import parse_series
+    from tiny import site
+
+    cfg = site()
+
+    def table(price_head: str, load: str) -> pd.DataFrame:
+        return pd.DataFrame({"time": ["2027-03-01T00:00"], "demand:HP [t/h]": ["0"], "demand:LP [t/h]": ["20"],
+                             "load [MW]": [load], f"price:import [{price_head}]": ["170"]})
+
+    assert parse_series(table("per MWh", "5"), cfg).notes() == []
+    notes = parse_series(table("per kWh", "5"), cfg).notes()
+    assert len(notes) == 1 and "import price reaches 170,000 per MWh" in notes[0]
+    notes = parse_series(table("per MWh", "0.033"), cfg).notes()
+    assert len(notes) == 1 and "load is at most 0.033 MW" in notes[0]

@@ -315,6 +315,8 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
         check_out_dir(Path(args.out).resolve(), "advice")
     cfg = load_site(args.site)
     series = load_series(args.series, cfg)
+    for note in series.notes():
+        err.print(Text(f"note: {note}"))
     w = what_if_from_args(args, cfg.site.currency)
     if args.plan:
         _warn_other_inputs(Path(args.plan), Path(args.site), Path(args.series), err)
@@ -431,6 +433,8 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
     check_out_dir(Path(args.out).resolve(), "study")
     cfg = load_site(args.site)
     base = load_series(args.series, cfg)
+    for note in base.notes():
+        err.print(Text(f"note: {note}"))
     scen = load_scenarios(args.scenarios, cfg, base)
     for ps in scen:
         for note in ps.notes:
@@ -689,6 +693,8 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                            f"hours around it were searched again and the objective changed by {ch:+,.0f} {cur}"
                            + (" (a dearer schedule within the gap asked, taken because it meets what the first "
                               "left short)" if ch > 0 else "")))
+        for note in s.get("series_notes", []):
+            err.print(Text(f"note: {note}"))
         for note in s.get("start_stops", []):
             out.print(Text(f"start of horizon: {note}"))
         for note in s.get("end_stops", []):

@@ -28,6 +28,11 @@ from .schema import SiteConfig
 _COL_RE = re.compile(r"^\s*([A-Za-z][A-Za-z0-9_:\-]*)\s*\[\s*([^\]]+?)\s*\]\s*$")
 
 
+POWER_PRICE_NOTE = 1.0e4  # [currency/MWh] see Series.notes
+FUEL_PRICE_NOTE = 500.0  # [currency/GJ]
+LOAD_NOTE = 0.1  # [MW]
+
+
 @dataclass(frozen=True)
 class Series:
     """Validated hourly inputs in internal units, all indexed by the same hourly ``time``."""
@@ -46,6 +51,29 @@ class Series:
     def hours(self) -> int:
         """Number of hours in the series."""
         return len(self.time)
+
+    def notes(self) -> list[str]:
+        """Values beyond what any site or market has, most likely a column's unit mistaken
+        (a price per kWh headed per MWh reads a thousand times too high): a note each, not
+        an error, as a study may mean them. The limits are common practice, no published
+        values: power prices beyond 10 000 per MWh (above the day-ahead and intraday price
+        caps of the large European markets, from memory), fuel beyond 500 per GJ, a load
+        below 0.1 MW."""
+        out = []
+        for what, col, limit in (("import", self.price_import, POWER_PRICE_NOTE),
+                                 ("export", self.price_export, POWER_PRICE_NOTE)):
+            if len(col) and col.abs().max() > limit:
+                out.append(f"{self.source}: the {what} price reaches {col.abs().max():,.0f} per MWh; "
+                           f"check the column's unit (per MWh, not per kWh)")
+        for f in self.fuel_price:
+            if self.fuel_price[f].abs().max() > FUEL_PRICE_NOTE:
+                out.append(f"{self.source}: the price of fuel {f} reaches {self.fuel_price[f].abs().max():,.0f} "
+                           "per GJ; check the column's unit")
+        if len(self.load) and self.load.max() < LOAD_NOTE:
+            out.append(f"{self.source}: the site electric load is at most {self.load.max():.3f} MW; check the "
+                       "column's unit (MW, not kW)")
+        return out
+
 
     def window(self, start: int, length: int) -> "Series":
         """Hours ``start`` .. ``start + length - 1`` as a new Series."""
