@@ -291,6 +291,9 @@ def test_a_window_without_a_bound_leaves_the_gap_unproven() -> None:
     assert np.isnan(summarise(cfg, ScenarioResult("x", s, c, 0, win)).largest_window_gap.iloc[0])
     win[1] = WindowReport("c", "d", 0.1, 1.0, "optimal", 0.001, 1)
     assert summarise(cfg, ScenarioResult("x", s, c, 0, win)).largest_window_gap.iloc[0] == pytest.approx(0.004)
+    from cogendispatch.studies import proven_gap
+    assert proven_gap(0.07) == 0.07 and proven_gap(float("inf")) is None
+    assert proven_gap(1.03) is None  # a bound below zero (a 103 % gap was reported) proves nothing
 
 
 def test_a_folder_given_as_scenario_file_is_refused(tmp_path) -> None:  # noqa: ANN001

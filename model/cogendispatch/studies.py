@@ -361,7 +361,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
                                     rep.seconds["build"] + rep.seconds["load"],
                                     rep.seconds["solve"] + rep.seconds.get("start", 0.0)
                                     + rep.seconds.get("strengthen", 0.0), rep.status,
-                                    rep.gap if math.isfinite(rep.gap) else None, tries,
+                                    proven_gap(rep.gap), tries,
                                     reused=tries == 1 and models.reused > reused_before))
         cur = carry_states(cur, sched, cur)
         if on_window:
@@ -370,6 +370,13 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     hourly = pd.concat(costs).fillna(0.0)
     bal_short = int(short_hours(cfg, hourly).sum())
     return ScenarioResult(ps.name, schedule, hourly, bal_short, reports, diagnosis)
+
+
+def proven_gap(gap: float) -> float | None:
+    """A window's gap [-] as a study reports it: None ("none proven") for no finite bound,
+    and for a gap of 100 % or more, whose bound (at or below zero; HiGHS stopped before
+    its root LP) proves nothing about a cost."""
+    return gap if math.isfinite(gap) and gap < 1.0 else None
 
 
 def _short(lm: LoadedModel) -> bool:
