@@ -309,6 +309,15 @@ def test_cli_advise_bad_options_exit_2(args: list[str], where: str, capsys) -> N
     assert printed["error"] == "input" and printed["exit_code"] == 2 and where in printed["message"]
 
 
+def test_a_bad_command_line_with_json_prints_an_object(capsys) -> None:  # noqa: ANN001
+    import json
+    with pytest.raises(SystemExit) as exc:
+        main(["plan", "site.toml", "--series", "s.csv", "--out", "o", "--json", "--bogus"])
+    assert exc.value.code == 2
+    cap = capsys.readouterr()
+    assert json.loads(cap.out)["exit_code"] == 2 and "--bogus" in cap.err
+
+
 def test_what_if_values_may_carry_units() -> None:
     import argparse
 
@@ -823,3 +832,31 @@ def test_the_flip_search_steps_along_each_solves_import() -> None:
 
     assert _flip_prices(Unsaid(), "P1", 100.0, 106.0, None, 0.5)[0] == pytest.approx(47.0, abs=0.5)
     assert len(calls) > 2 * 5  # more steps than along the slopes
+
+
+def test_a_venting_header_is_priced_by_its_vent_though_the_reserve_is_short() -> None:
+    """Two 60 t/h boilers with a full reserve, the pump held on steam: 40 t/h of HP demand
+    plus the turbine's steam leave the reserve short, and its exhaust is vented at LP (no
+    LP demand). HP carries the reserve's penalty; LP's price is the vent's cost (-1 per t:
+    one more t/h there vents one less), and its reason and category say the vent."""
+    from cogendispatch.decisions import price_reasons
+    from cogendispatch.prices import set_by
+
+    def boiler(b: str) -> dict:
+        return {"id": b, "header": "HP", "fuels": ["NG"], "max_steam": "60 t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}, "initial_on": True}
+
+    cfg = _site(boiler=[boiler("B1"), boiler("B2")], reserve={"enabled": True, "cover": 1.0})
+    hm = HourModel(cfg, series(cfg, 1, demand_HP=40.0, demand_LP=0.0), 0, {"B1": 1, "B2": 1})
+    hm.driver_limits = {"P1": (1, 1)}  # on steam, as a minimum time between changes would hold it
+    prices, _, x = hm.marginal_prices()
+    reasons, _ = price_reasons(hm, x)
+    m = hm.sm.model
+
+    def val(v) -> float:  # noqa: ANN001
+        c = hm.lm.col(v)
+        return float(v.value or 0.0) if c is None else float(x[c])
+
+    assert prices["LP"] == pytest.approx(-1.0) and prices["HP"] > 1e4  # the scenario as meant
+    assert reasons["LP"] == "LP: surplus, vented through V" and set_by(m, val, "LP", 0) == "cost"
+    assert "reserve" in reasons["HP"] and set_by(m, val, "HP", 0) == "reserve penalty"

@@ -589,6 +589,7 @@ def test_a_run_never_deletes_a_file_it_did_not_write(demo_site: Path, tmp_path: 
     # files nobody keeps on purpose (a file browser's, an open workbook's lock) do not block it
     (d / ".DS_Store").write_text("")
     (d / "~$plan.xlsx").write_text("")
+    (d / ".~lock.plan.xlsx#").write_text("")  # LibreOffice's, while the workbook is open
     assert main(["inspect", str(demo_site), "--csv", str(d)]) == 0
     # a hidden file of the user's does, and so does a file in a sub-folder
     (d / ".notes.md").write_text("keep")

@@ -303,3 +303,9 @@ def test_a_table_too_wide_breaks_its_headings_before_splitting(capsys: pytest.Ca
     assert "1,914,154" in text and "3,220,659" in text
     _table(Console(width=200, force_terminal=True, color_system=None), "t", df)
     assert "import -20 % in January, carbon +20" in capsys.readouterr().out  # fits: whole
+    # at most three lines a heading, however narrow its numbers
+    heads = pd.DataFrame({"machine": ["CCP"], "driver change (minimum time between changes)": ["allowed"],
+                          "saving against now [EUR/h]": [5.0], "x" * 70: [1.0]})
+    _table(Console(width=60, force_terminal=True, color_system=None), "t", heads)
+    head_lines = [ln for ln in capsys.readouterr().out.splitlines() if ln.startswith("┃")]
+    assert 0 < len(head_lines) <= 2 * 3  # two tables at most (the long one split off), three lines each

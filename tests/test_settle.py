@@ -6,6 +6,8 @@ default slack prices (schema.Penalties), not published values.
 
 from __future__ import annotations
 
+import time
+
 import numpy as np
 import pytest
 
@@ -181,7 +183,8 @@ def test_every_boiler_on_around_a_reserve_shortfall_is_tried() -> None:
     """B1 and B2 run; B3 is cold and costs 1 000 to start. A schedule with B3 held off
     leaves 1.5 t/h of reserve short in hour 1 (10⁴ per t/h, schema.Penalties): far dearer
     than the start. cover_reserve turns every boiler on around the shortfall and returns the
-    cheaper schedule that holds the reserve; given the optimum, it finds nothing cheaper."""
+    cheaper schedule that holds the reserve. With B3 unavailable there is no boiler to add,
+    and it returns at once; given the optimum, nothing is short and it returns too."""
     cfg = site(boiler=[_boiler("B1", True), _boiler("B2", True), _boiler("B3", False, 1_000)],
                reserve={"enabled": True, "cover": 1.0})
     sm = build_site_model(cfg, series(cfg, 5, demand_LP=[30, 30, 64, 30, 30]))
@@ -202,5 +205,9 @@ def test_every_boiler_on_around_a_reserve_shortfall_is_tried() -> None:
     assert np.abs(new_x[lm.slack_cols()]).max() < 1e-6 and new_x[off[2]] == pytest.approx(1.0)
     assert new_obj < held_off.objective - 10_000  # the penalty less the start and B3's fuel
     assert _bounds_restored(lm)
+    lm.col_upper[off] = 0.0  # B3 out (an outage holds it so): the same shortfall, no boiler to add
+    t0 = time.perf_counter()
+    assert lm.cover_reserve(x, held_off.objective, 10.0) is None and time.perf_counter() - t0 < 1.0
+    lm.col_upper[off] = upper
     best = lm.solve_mip(EXACT)
     assert lm.cover_reserve(lm.schedule, best.objective, 10.0) is None  # nothing short: nothing to try

@@ -294,6 +294,7 @@ def test_a_window_without_a_bound_leaves_the_gap_unproven() -> None:
     from cogendispatch.studies import proven_gap
     assert proven_gap(0.07) == 0.07 and proven_gap(float("inf")) is None
     assert proven_gap(1.03) is None  # a bound below zero (a 103 % gap was reported) proves nothing
+    assert proven_gap(1.5, objective=-2.0e5) == 1.5  # an exporting site's negative cost: a real gap
 
 
 def test_a_folder_given_as_scenario_file_is_refused(tmp_path) -> None:  # noqa: ANN001
@@ -372,3 +373,20 @@ load = 1.1
     assert f.series.load.to_numpy() == pytest.approx(1.1 * base.load.to_numpy())  # the site load scaled
     assert c.series.load.to_numpy() == pytest.approx(base.load.to_numpy())
     assert not f.notes
+
+
+def test_outage_times_against_a_series_with_utc_offsets() -> None:
+    """A series with UTC offsets (read as UTC) takes outage times with offsets, compared
+    as instants; a date alone carries no offset and is refused with an example that has
+    one, as is a time without an offset (the comparison once crashed)."""
+    from pathlib import Path
+
+    from cogendispatch.studies import _outage_time
+
+    times = pd.date_range("2027-03-01", periods=48, freq="h", tz="UTC")
+    f = Path("sc.toml")
+    assert _outage_time(f, "x", "2027-03-01T06:00+01:00", times, end=False) == times[5]
+    with pytest.raises(InputError, match="a date alone, which carries no UTC offset"):
+        _outage_time(f, "x", "2027-03-01", times, end=True)
+    with pytest.raises(InputError, match="both have a UTC offset or both not"):
+        _outage_time(f, "x", "2027-03-01T06:00", times, end=False)

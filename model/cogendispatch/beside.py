@@ -36,6 +36,7 @@ class Incumbent:
         self.stop = threading.Event()
         self.started = threading.Event()  # set once the helper's start is made (or failed)
         self.error: str | None = None  # what stopped the helper early, if anything
+        self.lp_bound: float | None = None  # [EUR] the helper's LP relaxation, a valid bound
 
     def offer(self, x: np.ndarray, objective: float, source: str) -> int:
         """Keep ``x`` if it beats the incumbent by more than round-off; the version it
@@ -69,6 +70,7 @@ QUICK_SWEEP = (12, 6, 0)  # (hours per window, hours between windows, first wind
 # share of the time left that a start may take when the LP relaxation itself is short
 # (LoadedModel.rounding_start)
 SHORT_START_SHARE = 0.75
+SHORT_START_MAX = 120.0  # [s] at most, whatever the time limit
 START_GAP = 1e-2  # [-] the rounded start's MILP over the drivers: 1.7 s on the demo week (5.6 s at 1e-3)
 
 
@@ -84,7 +86,8 @@ def helper_search(helper: LoadedModel, best: Incumbent, deadline: float, quick_s
         # a quick start at a loose gap: the passes below improve on it faster than HiGHS closes it
         try:
             x = helper.rounding_start(min(left / 2, 60.0), gap=START_GAP, lp_time_limit=left,
-                                      short_time_limit=SHORT_START_SHARE * left)
+                                      short_time_limit=min(SHORT_START_SHARE * left, SHORT_START_MAX))
+            best.lp_bound = helper.lp_bound  # a valid bound for HiGHS's report, should it have none
             if x is not None and helper.start_objective is not None:
                 best.first_start = helper.start_objective
                 best.offer(x, helper.start_objective, "start")

@@ -555,6 +555,9 @@ def _table(console: Console, title: str, df: pd.DataFrame) -> None:
     if sum(w + 3 for w in widths) + 1 > console.width:  # too wide: headings on several lines first
         widths = [max([len(w) for w in h.split()] + [len(v) for v in col] + [-(-len(h) // HEADING_LINES)])
                   for h, col in zip(heads, cells)]
+        for j, h in enumerate(heads):  # narrowest width that keeps the heading to its lines
+            while len(textwrap.wrap(h, widths[j], break_long_words=False)) > HEADING_LINES:
+                widths[j] += 1
         heads = ["\n".join(textwrap.wrap(h, w, break_long_words=False)) or h for h, w in zip(heads, widths)]
         widths = [max([w] + [len(line) for line in h.split("\n")]) for h, w in zip(heads, widths)]
     numeric = [pd.api.types.is_numeric_dtype(df[c]) or all(_is_number(v) or v is None for v in df[c].tolist())
@@ -729,7 +732,14 @@ def main(argv: list[str] | None = None) -> int:
             print(json_text({"error": kind, "message": message, "exit_code": code}))
 
     try:
-        args = build_parser().parse_args(argv)
+        try:
+            args = build_parser().parse_args(argv)
+        except SystemExit as exc:  # argparse has printed its message; --json wants an object too
+            words = sys.argv[1:] if argv is None else argv
+            if exc.code == EXIT_INPUT and "--json" in words:
+                print(json_text({"error": "input", "message": "bad command line (see standard error)",
+                                 "exit_code": EXIT_INPUT}))
+            raise
         if args.command == "inspect":
             return cmd_inspect(args, out)
         if args.command == "advise":

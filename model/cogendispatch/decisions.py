@@ -429,7 +429,10 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
             out[hid] = f"{hid}: surplus nothing can take, priced at the surplus penalty"
             continue
         reason = None
-        if reserve_short > 1e-6:  # before anything else: the penalty is in every steam price
+        part = getattr(hm, "reserve_part", {}).get(hid, 0.0)
+        if reserve_short > 1e-6 and abs(part) > 0.005:
+            # the penalty is in this price (the same LP without the reserve rows prices it
+            # otherwise); a header that vents, say, does not carry it
             reason = (f"{hid}: the steam reserve is {reserve_short:.2f} t/h short; the price carries its penalty "
                       f"({cfg.penalties.reserve_shortfall:g} per t of reserve), not a cost of steam")
         for vt in cfg.vents:
@@ -456,7 +459,6 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
                 if reason:
                     break
         out[hid] = reason or f"{hid}: no single unit is marginal (the units serving it sit at limits)"
-        part = getattr(hm, "reserve_part", {}).get(hid, 0.0)
         if reserve_short <= 1e-6 and abs(part) > 0.005:
             out[hid] += (f"; the steam reserve binds (the running boilers' spare rating just covers losing the "
                          f"largest) and adds {part:,.2f} {cfg.site.currency}/t")
@@ -649,11 +651,11 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
     estimate ``est``, when it lies on a side, is that side's first step and that side is
     searched first), then narrowed to ``tol`` [currency/MWh]. Once a flip is found, the
     other side is searched only as far from ``p0`` as it lies: each step is two
-    re-solves. A flip between two steps that flips back before the next is missed."""
+    re-solves (count + 1 with ``split``). A flip between two steps that flips back before the next is missed."""
     if abs(d0) <= TIE:
         return p0, None
 
-    def diff(q: float) -> float:
+    def diff(q: float) -> tuple[float, float | None]:
         return _diff(hm, did, q) if split is None else _split_margin(hm, did, *split, q)
 
     bottom, top = _search_range(p0)
@@ -824,6 +826,10 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         if plan_drivers is None:
             raise InputError(None, "--keep-drivers", "needs --plan: the drivers kept are the plan's in the hour")
         hm.driver_limits = {did: (n, n) for did, n in plan_drivers.items() if did in hm.drive_cols}
+        missing = [did for did in hm.drive_cols if did not in plan_drivers]
+        if missing:
+            raise InputError(Path(plan_dir or "") / "schedule.csv", "--keep-drivers",
+                             f"the plan gives no driver for {', '.join(missing)} (no '<machine>.on_steam' column)")
     base = hm.solve()
     prices, power_price, x = hm.marginal_prices()
     reasons, pw_reason = price_reasons(hm, x)

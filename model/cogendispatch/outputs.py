@@ -69,10 +69,12 @@ def check_out_dir(out: Path, kind: str = "plan", option: str = "--out") -> None:
 
 def _ignorable(name: str) -> bool:
     """Names nobody keeps on purpose: a file browser's folder settings ('.DS_Store',
-    Windows' 'Thumbs.db' and 'desktop.ini'), an office program's lock files ('~$...'), the
+    Windows' 'Thumbs.db' and 'desktop.ini'), office programs' lock files ('~$...',
+    '.~lock.<name>#'), the
     folder's own list of names. Other hidden files (notes kept as '.notes.md', say) count
     as the user's."""
-    return name.startswith("~$") or name in (".DS_Store", "Thumbs.db", "desktop.ini", MANIFEST)
+    return (name.startswith("~$") or (name.startswith(".~lock.") and name.endswith("#"))
+            or name in (".DS_Store", "Thumbs.db", "desktop.ini", MANIFEST))
 
 
 def _files(root: Path) -> list[str]:

@@ -39,8 +39,13 @@ def set_by(m: pyo.ConcreteModel, val: Callable[[pyo.Var], float], balance: str, 
         return "surplus penalty"
     reserve = m.component("reserve_short")
     if reserve is not None and val(reserve[t]) > 1e-6:
-        # power bought or sold between the grid's limits is priced by the grid, reserve or not
+        # power bought or sold between the grid's limits is priced by the grid, and a header
+        # that vents by its vent, reserve or not
         if balance == "power" and any(_inside(v, val) for v in (m.grid.imp[t], m.grid.exp[t])):
+            return "cost"
+        if balance != "power" and any(
+                blk.name.startswith("vent_") and getattr(blk.unit, "header", None) == balance
+                and _inside(blk.flow[t], val) for blk in m.component_data_objects(pyo.Block, descend_into=False)):
             return "cost"
         return "reserve penalty"
     return "cost"

@@ -25,7 +25,7 @@ import numpy as np
 import pyomo.environ as pyo
 from pyomo.contrib.solver.solvers.highs import Highs
 
-from .beside import QUICK_SWEEP_LIMIT, SHORT_START_SHARE, Incumbent, helper_search
+from .beside import QUICK_SWEEP_LIMIT, SHORT_START_MAX, SHORT_START_SHARE, Incumbent, helper_search
 from .equipment.common import CommitInfo, held_value, repair_commitment, whole_hours
 from .errors import SolveError
 from .results import TOL as SLACK_TOL
@@ -326,8 +326,8 @@ class LoadedModel:
         """LP relaxation, its commitment rounded up and repaired, the rest (drivers included)
         re-optimised as a small MILP. The LP may take up to ``lp_time_limit`` (default
         ``time_limit``) [s]: without it there is nothing to round. When the LP relaxation
-        itself leaves demand or the reserve short, the whole may take ``short_time_limit``
-        [s] instead, when given and longer.
+        itself uses a slack (demand or the reserve short, steam or power in surplus), the
+        whole may take ``short_time_limit`` [s] instead, when given and longer.
 
         Returns the full column vector of a feasible schedule, or None.
         """
@@ -589,7 +589,9 @@ class LoadedModel:
         few hundredths of a t/h of reserve at its price is a few hundred EUR; a week's
         0.5 % is about 10 000 EUR): the schedule is then within the tolerance, but
         reports the week short. Or, in a week that cannot hold its reserve, a short search
-        can end with the electric bus short too. Here the hours around the shortfalls are
+        can end with the electric bus short too. First, where the reserve is short,
+        :meth:`cover_reserve` tries every boiler on around it (:data:`COVER_SHARE` of the
+        time). Then the hours around the shortfalls are
         freed (everything else held at ``x``, as in :meth:`improve_windows`), every slack
         is held at zero there, and the schedule found is kept if it costs less than ``obj``
         or lies within ``gap`` [-] of the proven ``bound``. Failing that, the same with
@@ -686,6 +688,12 @@ class LoadedModel:
         for t in short:
             near[max(0, t - pad):t + pad + 1] = True
         boilers = {self.col(b.on[t]) for b in self.sm.ctx.boilers for t in m.T} - {None}
+        # boilers off near the shortfall that may run there (not held off by an outage);
+        # none: every boiler that can is on already, and the search would only re-choose
+        # the drivers with the commitment as it is
+        added = [c for c in boilers if near[hours[c]] and x[c] < 0.5 and self.col_upper[c] > 0.5]
+        if not added:
+            return None
 
         def guess(c: int) -> int:
             return 1 if c in boilers and near[hours[c]] else int(round(x[c]))
@@ -796,6 +804,8 @@ class LoadedModel:
         if len(self.int_cols):
             bound = float(info.mip_dual_bound)
             gap = float(info.mip_gap) if has else float("inf")
+            if self.lp_bound is None and best.lp_bound is not None:
+                self.lp_bound = best.lp_bound  # the helper's start (two threads) solved the same LP
             if self.lp_bound is not None and not bound >= self.lp_bound:
                 # HiGHS stopped before its root LP (a start that took most of the time): the
                 # start's LP relaxation of the same rows bounds the schedule as well
@@ -851,9 +861,10 @@ class LoadedModel:
                                           free_until=HINT_FREE_HOURS)
         if start is None:
             # the LP may use the whole limit: a search without a start is far worse
+            left = options.time_limit - (time.perf_counter() - t0)
             start = self.rounding_start(min(options.time_limit / 2, 60.0), gap=gap,
                                         lp_time_limit=options.time_limit,
-                                        short_time_limit=SHORT_START_SHARE * options.time_limit)
+                                        short_time_limit=min(SHORT_START_SHARE * left, SHORT_START_MAX))
         if start is None:
             return None, None
         start_obj = self.start_objective

@@ -239,6 +239,9 @@ def _outage_time(path: Path, where: str, text: str, times: pd.DatetimeIndex, end
         raise InputError(path, where, f"'{text}' is not a date and time, e.g. '2027-03-01T06:00'") from None
     if end and re.fullmatch(r"\s*\d{4}-\d{2}-\d{2}\s*", text):
         t = t + pd.Timedelta(hours=23)
+    if t.tzinfo is None and times.tz is not None and re.fullmatch(r"\s*\d{4}-\d{2}-\d{2}\s*", text):
+        raise InputError(path, where, f"'{text}' is a date alone, which carries no UTC offset, and the series' "
+                         f"times have one: give the time with its offset, e.g. '{text.strip()}T00:00+01:00'")
     if (t.tzinfo is None) != (times.tz is None):
         has = "with" if times.tz is not None else "without"
         raise InputError(path, where, f"'{text}' and the series' times must both have a UTC offset or both "
@@ -361,7 +364,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
                                     rep.seconds["build"] + rep.seconds["load"],
                                     rep.seconds["solve"] + rep.seconds.get("start", 0.0)
                                     + rep.seconds.get("strengthen", 0.0), rep.status,
-                                    proven_gap(rep.gap), tries,
+                                    proven_gap(rep.gap, rep.objective), tries,
                                     reused=tries == 1 and models.reused > reused_before))
         cur = carry_states(cur, sched, cur)
         if on_window:
@@ -372,11 +375,13 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     return ScenarioResult(ps.name, schedule, hourly, bal_short, reports, diagnosis)
 
 
-def proven_gap(gap: float) -> float | None:
+def proven_gap(gap: float, objective: float = 1.0) -> float | None:
     """A window's gap [-] as a study reports it: None ("none proven") for no finite bound,
-    and for a gap of 100 % or more, whose bound (at or below zero; HiGHS stopped before
-    its root LP) proves nothing about a cost."""
-    return gap if math.isfinite(gap) and gap < 1.0 else None
+    and, for a positive cost ``objective``, for a gap of 100 % or more, whose bound (at or
+    below zero; HiGHS stopped before its root LP) proves nothing about it."""
+    if not math.isfinite(gap) or (objective > 0 and gap >= 1.0):
+        return None
+    return gap
 
 
 def _short(lm: LoadedModel) -> bool:

@@ -69,7 +69,7 @@ class Series:
             if self.fuel_price[f].abs().max() > FUEL_PRICE_NOTE:
                 out.append(f"{self.source}: the price of fuel {f} reaches {self.fuel_price[f].abs().max():,.0f} "
                            "per GJ; check the column's unit")
-        if len(self.load) and self.load.max() < LOAD_NOTE:
+        if len(self.load) and 0.0 < self.load.max() < LOAD_NOTE:  # 0: every load is a drive's motor
             out.append(f"{self.source}: the site electric load is at most {self.load.max():.3f} MW; check the "
                        "column's unit (MW, not kW)")
         return out
