@@ -280,7 +280,7 @@ def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
         "time": a.time, "currency": currency, "held_on": a.held, "cost": a.cost,
         "marginal_price": {"steam_per_t": a.prices, "power_per_MWh": a.power_price},
         "reason": {**a.reasons, "power": a.power_reason},
-        "dispatch": a.dispatch,
+        "dispatch": a.dispatch, "notes": a.notes,
         "drivers": a.drivers.to_dict(orient="records"), "what_if": a.what_if, "seconds": a.seconds,
         "note": SAFETY_NOTE,
     }
@@ -323,6 +323,8 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     a = advise(cfg, series, args.at, args.series, args.plan, w,
                BuildOptions(reserve=False if args.no_reserve else None), allow_starts=args.allow_starts,
                keep_drivers=args.keep_drivers)
+    for note in a.notes:
+        err.print(Text(f"note: {note}"))
     d = advice_dict(a, cfg.site.currency)
     cur = cfg.site.currency
     if args.json:

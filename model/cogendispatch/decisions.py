@@ -624,15 +624,20 @@ def _diff(hm: HourModel, did: str, price: float) -> tuple[float, float | None]:
     return cs - cm, (ss - sm if ss is not None and sm is not None else None)
 
 
-def _split_margin(hm: HourModel, did: str, count: int, best: int, price: float) -> tuple[float, float | None]:
+def _split_margin(hm: HourModel, did: str, count: int, best: int,
+                  price: float) -> tuple[float, float | None, list[float]]:
     """Cost with ``best`` of ``count`` spared machines on steam less the cheapest other
     number on steam, at an import price [currency/h]: negative while ``best`` stays the
-    cheapest; and its slope in the import price [MWh]. count + 1 re-solves."""
+    cheapest; its slope in the import price [MWh]; and where each other number's cost line
+    would cross ``best``'s [currency/MWh] (the lines through this price with their slopes).
+    count + 1 re-solves."""
     got = {n: _priced(hm, WhatIf(force={did: "motor" if n == 0 else "steam" if n == count else n},
                                  price_import=price)) for n in range(count + 1)}
     other = min((n for n in got if n != best), key=lambda n: got[n][0])
     slope = got[best][1] - got[other][1] if got[best][1] is not None and got[other][1] is not None else None
-    return got[best][0] - got[other][0], slope
+    cross = [price - (got[best][0] - c) / (got[best][1] - sl) for n, (c, sl) in got.items()
+             if n != best and sl is not None and got[best][1] is not None and abs(got[best][1] - sl) > 1e-9]
+    return got[best][0] - got[other][0], slope, cross
 
 
 def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | None,
@@ -649,13 +654,13 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
     letdowns move with the import price, and with them what the machine's exhaust steam is
     worth. So both sides are searched, stepping out geometrically from ``p0`` (the marginal
     estimate ``est``, when it lies on a side, is that side's first step and that side is
-    searched first), then narrowed to ``tol`` [currency/MWh]. Once a flip is found, the
+    searched first; the steps nearer than it are kept), then narrowed to ``tol`` [currency/MWh]. Once a flip is found, the
     other side is searched only as far from ``p0`` as it lies: each step is two
     re-solves (count + 1 with ``split``). A flip between two steps that flips back before the next is missed."""
     if abs(d0) <= TIE:
         return p0, None
 
-    def diff(q: float) -> tuple[float, float | None]:
+    def diff(q: float) -> tuple[float, float | None] | tuple[float, float | None, list[float]]:
         return _diff(hm, did, q) if split is None else _split_margin(hm, did, *split, q)
 
     bottom, top = _search_range(p0)
@@ -664,10 +669,16 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
     for up in (first_up, not first_up):
         # geometric-like steps out to the end of the range on each side (few: each step is
         # two re-solves)
-        fractions = (0.013, 0.08, 0.37, 1.0) if up else (0.25, 0.6, 1.0)
+        # steps of similar size near the hour's price on both sides (a band where the
+        # other driver wins can be a few tens per MWh wide: steps of 0.25 and 0.6 of the
+        # way to zero stepped over one from 128 to 68 on the demo site)
+        fractions = (0.006, 0.015, 0.03, 0.08, 0.37, 1.0) if up else (0.1, 0.25, 0.45, 0.7, 1.0)
         steps = [p0 + (top - p0) * f if up else p0 - (p0 - bottom) * f for f in fractions]
         if est is not None and bottom <= est <= top and ((est > p0) if up else (est < p0)):
-            steps = [est + 0.02 * abs(est) * (1 if up else -1)] + [q for q in steps if (q > est if up else q < est)]
+            # the estimate is a step, not a leap: the steps nearer than it stay (a band where
+            # the other driver wins can lie between the hour's price and the estimate)
+            q_est = est + 0.02 * abs(est) * (1 if up else -1)
+            steps = sorted([*steps, q_est], key=lambda q: abs(q - p0))
         if found:  # no further than the flip in hand: a nearer one is all that could matter
             reach = abs(found[0] - p0)
             steps = [q for q in steps if abs(q - p0) < reach] + [p0 + reach if up else p0 - reach]
@@ -688,29 +699,45 @@ def _search_range(p0: float) -> tuple[float, float]:
     return p0 - max(abs(p0), 100.0), 1000.0
 
 
-def _bracket_and_bisect(diff: Callable[[float], tuple[float, float | None]], p0: float, d0: float,
+def _bracket_and_bisect(diff: Callable[[float], tuple], p0: float, d0: float,
                         steps: list[float], tol: float) -> float | None:
     """The first price along ``steps`` from ``p0`` where the choice better at ``p0`` stops
     being better by more than :data:`TIE` [currency/h] (``diff``: the cost difference at a
-    price and its slope in the price, ``d0`` its value at ``p0``), narrowed to ``tol`` and
+    price, its slope in the price and, optionally, where the lines of the choices it
+    compares cross; ``d0`` its value at ``p0``), narrowed to ``tol`` and
     interpolated in its last bracket; None without one. (Where steam and motor cost the
     same to a cent over a range of prices, the flip is that range's far edge, not a point
     inside it chosen by round-off.)"""
     shift = TIE if d0 > 0 else -TIE
     slopes: dict[float, float | None] = {}
+    crossings: dict[float, list[float]] = {}
 
     def g(q: float) -> float:
-        v, slopes[q] = diff(q)
+        got = diff(q)
+        v, slopes[q] = got[0], got[1]
+        crossings[q] = list(got[2]) if len(got) > 2 else ([q - v / got[1]] if got[1] else [])
         return v - shift
 
     a, fa = p0, d0 - shift
     slopes[p0] = None
-    for q in steps:
+    queue = list(steps)
+    while queue:
+        q = queue.pop(0)
         fq = g(q)
         if fq * fa <= 0:
             b, fb = q, fq
             break
         a, fa = q, fq
+        # the schedule at q stays optimal over a range of prices, along which the difference
+        # is the line through q with its slope: where that line crosses zero before the next
+        # step, look there first (just past the crossing), or a narrow band where the other
+        # driver wins is stepped over
+        if queue:
+            way = 1.0 if queue[0] > q else -1.0
+            ahead = [r + way * 0.5 * tol for r in crossings.get(q, [])]
+            ahead = [r for r in ahead if (r - q) * way > tol and (queue[0] - r) * way > tol]
+            if ahead:
+                queue.insert(0, min(ahead, key=lambda r: abs(r - q)))
     else:
         return None
     # false position and halving steps in turn (two halvings running when a step did not
@@ -798,6 +825,7 @@ class Advice:
     not_met: list[str] = field(default_factory=list)  # the hour as given: what is short, one line each
     # the hour as given: boilers [t/h], turbo-generators [MW], grid [MW], machines on steam
     dispatch: dict[str, dict[str, float]] = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)  # what the advice changed in what it was given
 
 
 def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir: str | None = None,
@@ -816,6 +844,11 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     t0 = _time.perf_counter()
     i = hour_index(series, at, series_path)
     held, plan_drivers, history = held_states(cfg, series, i, plan_dir, build)
+    held_notes = []
+    for u in (*cfg.boilers, *cfg.turbogenerators):
+        if not u.available and held.get(u.id) == 1:  # the site file has it out since the plan
+            held[u.id] = 0
+            held_notes.append(f"{u.id} runs in the plan but is unavailable in the site file: held off")
     _check_what_if(cfg, what_if)
     if allow_starts and what_if is not None and what_if.trip:
         raise InputError(None, "--allow-starts", "does not go with --trip: after a trip no other unit can "
@@ -893,7 +926,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     dispatch = {"boilers_t_h": base.steam, "turbogenerators_MW": base.power, "grid_MW": base.grid,
                 "machines_on_steam": {k: float(v) for k, v in base.on_steam.items()}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
-                  _time.perf_counter() - t0, categories, not_met, dispatch)
+                  _time.perf_counter() - t0, categories, not_met, dispatch, held_notes)
 
 
 def _blocked_changes(base: HourState, new: HourState, history: dict[str, DriverHistory]) -> list[str]:
