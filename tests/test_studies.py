@@ -390,3 +390,22 @@ def test_outage_times_against_a_series_with_utc_offsets() -> None:
         _outage_time(f, "x", "2027-03-01", times, end=True)
     with pytest.raises(InputError, match="both have a UTC offset or both not"):
         _outage_time(f, "x", "2027-03-01T06:00", times, end=False)
+
+
+def test_scenario_mistakes_a_budget_engineer_makes(tmp_path) -> None:  # noqa: ANN001
+    """Dates with '/' or '.' (day or month first by country) are refused; a factor of 105
+    (meant as per cent) is refused; a price file's non-price columns are named in a note."""
+    cfg = _site()
+    base = series(cfg, 48, demand_LP=50.0)
+    for text, where in (('from = "5/1/2027"\nto = "2027-03-02"', "year-month-day"),
+                        ('from = "2027-03-01"\nto = "02.03.2027"', "year-month-day")):
+        with pytest.raises(InputError, match=where):
+            load_scenarios(_scenario_file(tmp_path, f'[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\n{text}\n'),
+                           cfg, base)
+    with pytest.raises(InputError, match="load"):
+        load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "a"\nload = 105\n'), cfg, base)
+    (tmp_path / "p.csv").write_text("time,price:import [per MWh],demand:LP [t/h]\n" + "".join(
+        f"{t},90,100\n" for t in pd.date_range("2027-03-01", periods=48, freq="h")))
+    (ps,) = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "a"\nprices = "p.csv"\n'), cfg, base)
+    assert ps.series.demand["LP"].to_numpy() == pytest.approx(50.0)  # demand stays the base's
+    assert len(ps.notes) == 1 and "demand:LP [t/h], left out" in ps.notes[0]

@@ -345,3 +345,8 @@ def test_values_beyond_any_site_get_a_note() -> None:
     assert len(notes) == 1 and "import price reaches 170,000 per MWh" in notes[0]
     notes = parse_series(table("per MWh", "0.033"), cfg).notes()
     assert len(notes) == 1 and "load is at most 0.033 MW" in notes[0]
+    notes = parse_series(table("per MWh", "33600"), cfg).notes()  # kW in the MW column
+    assert len(notes) == 1 and "load reaches 33,600 MW" in notes[0]
+    assert parse_series(table("per MWh", "0"), cfg).notes() == []  # every load a drive's motor
+    low = table("per MWh", "5").assign(**{"price:import [per MWh]": ["0.06"]})  # per kWh values
+    assert "import price is at most 0.060 per MWh" in parse_series(low, cfg).notes()[0]

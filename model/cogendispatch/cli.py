@@ -410,7 +410,7 @@ def _driver_change(r: pd.Series, unknown: str) -> str:
     if before is None or before != before:  # NaN: no history before the hour
         return unknown
     target = before if r["better"] == "either" else r["best_on_steam"]
-    if target == before:
+    if target == before or target == r.get("now_on_steam"):  # runs so already (the plan's hour)
         return "none needed"
     if r.get("best_allowed_now", None) is True:
         return "allowed"
@@ -649,7 +649,7 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
     run = run_plan(args.site, args.series, args.out,
                    SolveOptions(gap=args.gap, time_limit=args.time_limit, threads=args.threads),
                    BuildOptions(reserve=False if args.no_reserve else None), progress, args.moisture_limit,
-                   args.units)
+                   args.units, on_note=lambda note: err.print(Text(f"note: {note}")))
     s = run.summary
     if args.json:
         print(json_text(s))
@@ -698,8 +698,6 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                            f"hours around it were searched again and the objective changed by {ch:+,.0f} {cur}"
                            + (" (a dearer schedule within the gap asked, taken because it meets what the first "
                               "left short)" if ch > 0 else "")))
-        for note in s.get("series_notes", []):
-            err.print(Text(f"note: {note}"))
         for note in s.get("start_stops", []):
             out.print(Text(f"start of horizon: {note}"))
         for note in s.get("end_stops", []):

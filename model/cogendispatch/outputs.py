@@ -44,8 +44,10 @@ def check_out_dir(out: Path, kind: str = "plan", option: str = "--out") -> None:
     if out.is_dir() and any(out.iterdir()):
         held = output_kind(out)
         if held is None:
-            raise InputError(out, option, "is a non-empty folder that does not hold cogendispatch results; "
-                             "choose a new or empty folder (nothing was written)")
+            names = sorted(p.name + ("/" if p.is_dir() else "") for p in out.iterdir())  # the top only: it may be large
+            shown = ", ".join(names[:5]) + (f" and {len(names) - 5} more" if len(names) > 5 else "")
+            raise InputError(out, option, "is a non-empty folder that does not hold cogendispatch results "
+                             f"({shown}); choose a new or empty folder (nothing was written)")
         if held != kind:
             raise InputError(out, option, f"holds {_KIND_WORDS.get(held, held)} from cogendispatch, which "
                              f"{_KIND_WORDS.get(kind, kind)} would replace; choose another folder (nothing was written)")

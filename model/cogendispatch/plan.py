@@ -80,11 +80,12 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
 def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | None = None,
              solve_options: SolveOptions = SolveOptions(), build_options: BuildOptions = BuildOptions(),
              progress: Callable[[str], None] | None = None, moisture_limit: float = MOISTURE_LIMIT,
-             units: str = "si") -> PlanRun:
+             units: str = "si", on_note: Callable[[str], None] | None = None) -> PlanRun:
     """Plan the hours of ``series_path`` for the site ``site_path`` and write ``out``.
 
     Raises InputError for bad input (before anything is written) and SolveError when the
-    solver finds no schedule at all.
+    solver finds no schedule at all. ``on_note`` gets each note on the series' values
+    (:meth:`Series.notes`) as soon as it is read.
     """
     say = progress or (lambda msg: None)
     if out is not None:
@@ -92,6 +93,8 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     t0 = time.perf_counter()
     cfg = load_site(site_path)
     series = load_series(series_path, cfg)
+    for note in series.notes():  # said before the solve: a unit mistaken is worth a look first
+        (on_note or say)(note)
     read_s = time.perf_counter() - t0
     say(f"read the site and {series.hours} hours of series in {read_s:.2f} s; building the model")
     sm = build_site_model(cfg, series, build_options)

@@ -250,11 +250,11 @@ def diagnose(sm: SiteModel, upto: int | None = None, first: int = 0) -> list[str
 
     for h in ctx.cfg.headers:
         report(_series(lambda t, h=h.id: m.steam_short[h, t], hours), f"{h.id} header short", "t/h",
-               "the units that feed it are at their limits", limits=True, header=h.id)
+               "in this schedule, the units that feed it are at their limits", limits=True, header=h.id)
         report(_series(lambda t, h=h.id: m.steam_surplus[h, t], hours), f"{h.id} header surplus", "t/h",
                "nothing can take this steam (add a vent or letdown, or lower minimum flows)")
     report(_series(lambda t: m.power_short[t], hours), "electric bus short", "MW",
-           "generation plus the import limit cannot meet the load", limits=True, power=True)
+           "in this schedule, generation plus the import limit fall short of the load", limits=True, power=True)
     report(_series(lambda t: m.power_surplus[t], hours), "electric bus surplus", "MW",
            "generation above load plus the export limit")
     report(_series(lambda t: m.reserve_short[t], hours), "steam reserve short", "t/h",

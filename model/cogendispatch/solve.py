@@ -607,14 +607,21 @@ class LoadedModel:
         if not (x[every] > SLACK_TOL).any():
             return None
         settled: tuple[np.ndarray, float] | None = None
-        covered = self.cover_reserve(x, obj, COVER_SHARE * time_limit)
-        if covered is not None:
-            x, obj = settled = covered
-            if not (x[every] > SLACK_TOL).any():
-                return settled
         empty = np.zeros(0, dtype=np.int32)
+        no_reserve = self.slack_cols(reserve=False)
         # (slacks held at zero near the shortfall, whether only a cheaper schedule will do)
-        levels = [(every, False), (self.slack_cols(reserve=False), False), (empty, True)]
+        levels = [(every, False), (no_reserve, False), (empty, True)]
+        if (x[no_reserve] > SLACK_TOL).any():
+            # steam or power short (priced far above the reserve): meeting the load comes
+            # first, and covering the reserve after it (a 20 s plan with a boiler out left
+            # the bus short while this time went to the reserve)
+            levels = [(no_reserve, False), (every, False), (empty, True)]
+        else:
+            covered = self.cover_reserve(x, obj, COVER_SHARE * time_limit)
+            if covered is not None:
+                x, obj = settled = covered
+                if not (x[every] > SLACK_TOL).any():
+                    return settled
         for level, (held_slacks, cheaper_only) in enumerate(levels):
             # the last level holds none: it searches around whatever is still in use
             watched = held_slacks if len(held_slacks) else every
@@ -659,6 +666,11 @@ class LoadedModel:
                     x, obj = new_x, new_obj
                     settled = (x, obj)
                     break
+            if held_slacks is no_reserve and levels[0][0] is no_reserve:
+                # load met (or not): now the reserve, every boiler on around it first
+                covered = self.cover_reserve(x, obj, COVER_SHARE * (t_end - time.perf_counter()))
+                if covered is not None:
+                    x, obj = settled = covered
             if settled is not None and held_slacks is every:
                 return settled  # nothing left in use
         return settled

@@ -93,8 +93,9 @@ class Scenario(_T):
     import_: PriceChange | None = Field(default=None, alias="import")
     export: PriceChange | None = None
     co2: PriceChange | None = None
-    demand: dict[str, Annotated[float, Field(ge=0.0)]] = Field(default_factory=dict)
-    load: float | None = Field(default=None, ge=0.0, allow_inf_nan=False)  # scales the site electric load
+    # factors, not per cent: above 10 is most likely "105" meant as 105 %
+    demand: dict[str, Annotated[float, Field(ge=0.0, le=10.0)]] = Field(default_factory=dict)
+    load: float | None = Field(default=None, ge=0.0, le=10.0, allow_inf_nan=False)  # scales the site electric load
     prices: str | None = None
     outages: list[Outage] = Field(default_factory=list, alias="outage")
 
@@ -169,6 +170,7 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
     headers = {h.id for h in cfg.headers}
     units = {u.id for u in (*cfg.boilers, *cfg.turbogenerators)}
     s = base
+    notes: list[str] = []
     if sc.prices is not None:
         p = Path(sc.prices)
         if not p.is_absolute():
@@ -176,6 +178,10 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
         if not p.is_file():
             raise InputError(path, here + " > prices", f"'{p}' is not a file")
         repl = load_series(p, cfg, prices_only=True)
+        others = [c for c in _read_columns(p) if c != "time" and not c.strip().startswith("price:")]
+        if others:  # a price file replaces prices only; say what it leaves out
+            notes.append(f"{here} > prices: {p.name} also has {', '.join(others)}, left out (a price file "
+                         "replaces price columns only; demand and load change with 'demand' and 'load')")
         if len(repl.time) != len(base.time) or (repl.time != base.time).any():
             raise InputError(path, here + " > prices", f"{p} does not cover the same hours as the base series")
 
@@ -189,7 +195,6 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
                                            index=s.fuel_price.index),
                    co2_price=kept(repl.co2_price, s.co2_price), duty=s.duty, source=s.source)
     fuel_price = s.fuel_price.copy()
-    notes: list[str] = []
     cur = cfg.site.currency
     for fid, ch in sc.fuel.items():
         if fid not in fuels:
@@ -229,10 +234,20 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
     return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes))
 
 
+def _read_columns(path: Path) -> list[str]:
+    """The heading row of a series file as written (CSV, or an Excel workbook's first sheet)."""
+    from .plant.series import _read_table
+
+    return [str(c).strip() for c in _read_table(path).columns]
+
+
 def _outage_time(path: Path, where: str, text: str, times: pd.DatetimeIndex, end: bool) -> pd.Timestamp:
     """An outage's 'from' or 'to' as a time comparable with the series' ``times``. A date
     alone is the day's first hour for 'from' and its last for 'to' (both inclusive). Times
     with a UTC offset go with a series that has them, times without with one without."""
+    if "/" in text or "." in re.split(r"[T ]", text.strip())[0]:
+        # 5/1/2027 is 1 May in one country and 5 January in another
+        raise InputError(path, where, f"'{text}': write the date as year-month-day, e.g. '2027-01-05T06:00'")
     try:
         t = pd.Timestamp(text)
     except (ValueError, TypeError):

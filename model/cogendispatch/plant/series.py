@@ -31,6 +31,8 @@ _COL_RE = re.compile(r"^\s*([A-Za-z][A-Za-z0-9_:\-]*)\s*\[\s*([^\]]+?)\s*\]\s*$"
 POWER_PRICE_NOTE = 1.0e4  # [currency/MWh] see Series.notes
 FUEL_PRICE_NOTE = 500.0  # [currency/GJ]
 LOAD_NOTE = 0.1  # [MW]
+LOAD_HIGH_NOTE = 2000.0  # [MW] above any industrial site's own load
+POWER_PRICE_LOW_NOTE = 1.0  # [currency/MWh] a whole series below it: a price per kWh
 
 
 @dataclass(frozen=True)
@@ -57,8 +59,8 @@ class Series:
         (a price per kWh headed per MWh reads a thousand times too high): a note each, not
         an error, as a study may mean them. The limits are common practice, no published
         values: power prices beyond 10 000 per MWh (above the day-ahead and intraday price
-        caps of the large European markets, from memory), fuel beyond 500 per GJ, a load
-        below 0.1 MW."""
+        caps of the large European markets, from memory) or an import price below 1 per MWh
+        all through, fuel beyond 500 per GJ, a load below 0.1 MW or above 2 000 MW."""
         out = []
         for what, col, limit in (("import", self.price_import, POWER_PRICE_NOTE),
                                  ("export", self.price_export, POWER_PRICE_NOTE)):
@@ -72,6 +74,12 @@ class Series:
         if len(self.load) and 0.0 < self.load.max() < LOAD_NOTE:  # 0: every load is a drive's motor
             out.append(f"{self.source}: the site electric load is at most {self.load.max():.3f} MW; check the "
                        "column's unit (MW, not kW)")
+        if len(self.load) and self.load.max() > LOAD_HIGH_NOTE:
+            out.append(f"{self.source}: the site electric load reaches {self.load.max():,.0f} MW; check the "
+                       "column's unit (MW, not kW)")
+        if len(self.price_import) and 0.0 < self.price_import.abs().max() < POWER_PRICE_LOW_NOTE:
+            out.append(f"{self.source}: the import price is at most {self.price_import.abs().max():.3f} per MWh; "
+                       "check the column's unit (per MWh, not per kWh)")
         return out
 
 
