@@ -231,6 +231,8 @@ def test_cli_study_writes_the_outputs(tmp_path, capsys, monkeypatch) -> None:  #
     assert bars.sum(axis=1).to_numpy() == pytest.approx(table.cost_total_EUR.to_numpy())
     summary = json.loads((out / "summary.json").read_text())
     assert summary["options"]["time_limit_s"] == 10 and summary["options"]["window_h"] == 6
+    assert summary["first_hour"].startswith("2027-01-04 00:00") and "Saltmarsh" in summary["site_name"]
+    assert "Saltmarsh" in html and "2027-01-04 11:00" in html  # the page says which site and hours
     assert summary["diagnosis"] == {"base": [], "=cheap power": []}  # nothing short in either
     xl = pd.read_excel(out / "study.xlsx", sheet_name=None)
     pd.testing.assert_frame_equal(xl["scenarios"], pd.read_csv(out / "scenarios.csv"), check_dtype=False)
@@ -332,6 +334,9 @@ def test_study_says_a_shortfall_may_be_the_searchs_when_a_window_stopped_early(t
     err = capsys.readouterr().err
     assert "1 of 1 window(s) stopped before proving their schedule (largest gap 18.3 %)" in err
     assert "the search's rather than the site's" in err
+    # and the page says it beside the shortfalls, as the terminal does
+    assert "the search's rather than the site's" in (tmp_path / "stopped" / "report.html").read_text()
+    assert "the search's rather than the site's" not in (tmp_path / "proven" / "report.html").read_text()
 
 
 def test_scenario_inputs_as_an_engineer_writes_them(tmp_path) -> None:  # noqa: ANN001

@@ -468,7 +468,8 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
         (d / "schedules").mkdir()
         for k, r in enumerate(results):
             r.schedule.to_parquet(d / "schedules" / f"{slug(k, r.name)}.parquet")
-        write_json({"kind": "study", "currency": cfg.site.currency,
+        write_json({"kind": "study", "currency": cfg.site.currency, "site_name": cfg.site.name,
+                    "first_hour": str(base.time[0]), "last_hour": str(base.time[-1]),
                     "site": str(Path(args.site).resolve()), "series": str(Path(args.series).resolve()),
                     "scenarios": str(Path(args.scenarios).resolve()), "seconds": secs,
                     "options": {"window_h": args.window, "lookahead_h": args.lookahead, "gap": args.gap,

@@ -213,10 +213,16 @@ def study_report(d: Path, units: Units = Units()) -> str:
     if short:
         items = "".join(f"<li><b>{escape(k)}</b><ul>" + "".join(f"<li>{escape(x)}</li>" for x in v) + "</ul></li>"
                         for k, v in short.items())
-        body.append(f"<h2>Shortfalls</h2><ul>{items}</ul>")
+        open_ = [k for k in short if any(w.get("status") != "optimal" for w in (s.get("windows") or {}).get(k, []))]
+        caveat = ("<p class='meta'>Windows of " + ", ".join(escape(k) for k in open_) + " stopped before proving "
+                  "their schedule: some of the shortfall may be the search's rather than the site's (a longer "
+                  "--time-limit tells).</p>") if open_ else ""
+        body.append(f"<h2>Shortfalls</h2><ul>{items}</ul>{caveat}")
     notes = s.get("scenario_notes") or {}
     if notes:
         body.append("<h2>Notes</h2><ul>" + "".join(f"<li>{escape(x)}</li>" for v in notes.values() for x in v)
                     + "</ul>")
-    meta = f"{len(table)} scenario(s), {float(s.get('seconds', 0)):.0f} s"
+    period = f" &middot; {escape(str(s['first_hour']))} to {escape(str(s['last_hour']))}" if "first_hour" in s else ""
+    meta = (f"{escape(str(s.get('site_name', '')))}{period} &middot; {len(table)} scenario(s), "
+            f"{float(s.get('seconds', 0)):.0f} s")
     return _page("Budget study", meta, body, s.get("note", ""))
