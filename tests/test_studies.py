@@ -217,7 +217,9 @@ def test_cli_study_writes_the_outputs(tmp_path, capsys, monkeypatch) -> None:  #
     assert [c for c in table.columns if c.startswith("cost_") and not c.endswith("_EUR")] == []
     assert (table.largest_window_gap >= 0).all() and (table.largest_window_gap < 0.05).all()
     # driver hours only for machines with a choice (the demo's WGC is steam-only, FANS motor-only)
-    on_steam = {c.removeprefix("machine_hours_on_steam_") for c in table.columns if c.startswith("machine_hours_on_steam_")}
+    on_steam = {c.removesuffix(".machine_hours_on_steam_h") for c in table.columns
+                if c.endswith(".machine_hours_on_steam_h")}
+    assert {"B1.hours_on_h", "TG2.hours_on_h"} <= set(table.columns)  # unit.quantity_unit, as the schedule
     assert on_steam == {"BFWP", "CWP", "CCP", "AIRB", "HCFP", "IAC"}
     monthly = pd.read_csv(out / "monthly.csv")
     assert set(monthly.month) == {"2027-01"}

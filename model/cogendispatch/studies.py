@@ -454,10 +454,10 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
     frame["co2_t"] = sum(frame[f"fuel_{f}_GJ"] * factors[f] for f in fuel_cols)
     frame["boiler_starts"] = sum(s[f"{b.id}.start"] for b in cfg.boilers)
     for u in (*cfg.boilers, *cfg.turbogenerators):
-        frame[f"hours_on_{u.id}"] = s[f"{u.id}.on"]
+        frame[f"{u.id}.hours_on_h"] = s[f"{u.id}.on"]  # named as the schedule's columns: unit.quantity_unit
     for d in cfg.drives:
         if d.steam_turbine is not None and d.motor is not None:  # a choice to report
-            frame[f"machine_hours_on_steam_{d.id}"] = s[f"{d.id}.on_steam"]
+            frame[f"{d.id}.machine_hours_on_steam_h"] = s[f"{d.id}.on_steam"]
     frame["shortfall_hours"] = short_hours(cfg, c).astype(int)
     idx = pd.DatetimeIndex(s.index)
     if by_month:

@@ -186,8 +186,8 @@ def study_report(d: Path, units: Units = Units()) -> str:
     piv = monthly.pivot_table(index="month", columns="scenario", values=money, sort=False)
     title = "Cost per month and scenario" + (", penalties left out" if money != "cost_total" else "")
     body.append("<h2>Monthly cost</h2>" + _chart(plots.grouped_bars(piv, title, f"cost [{cur}/month]")))
-    drv = table.set_index("scenario")[[c for c in table.columns if c.startswith("machine_hours_on_steam_")]]
-    drv.columns = [c.replace("machine_hours_on_steam_", "") for c in drv.columns]
+    drv = table.set_index("scenario")[[c for c in table.columns if c.endswith(".machine_hours_on_steam_h")]]
+    drv.columns = [c.removesuffix(".machine_hours_on_steam_h") for c in drv.columns]
     if not drv.empty:
         body.append("<h2>Drivers</h2>" + _chart(plots.grouped_bars(drv.T, "Machine-hours on steam, by scenario",
                                                                     "machine-hours [h]", horizontal=True)))
