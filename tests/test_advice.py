@@ -111,14 +111,19 @@ def test_a_marginal_estimate_from_penalty_prices_is_left_out_and_said_why() -> N
     assert row.marginal_estimate > 0 and row.note == ""
 
 
-def test_marginal_prices_equal_finite_differences() -> None:
-    # a curved efficiency (operating between its load points) and a turbo-generator, so the
-    # prices are not simply fuel per tonne
+def _tg_site():  # noqa: ANN202
+    # a curved efficiency (operating between its load points) and a back-pressure set HP -> LP
     boilers = [{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "160 t/h", "min_steam": "16 t/h",
                 "efficiency_curve": {"load": [0.1, 0.4, 1.0], "efficiency": [0.80, 0.86, 0.84]}}]
     tg = {"id": "TG", "inlet": "HP", "max_throttle": "60 t/h", "generator_rating": "8 MW",
           "section": [{"to": "LP", "efficiency": 0.75}]}
-    cfg = _site(boiler=boilers, turbogenerator=[tg])
+    return _site(boiler=boilers, turbogenerator=[tg])
+
+
+def test_marginal_prices_equal_finite_differences() -> None:
+    # a curved efficiency (operating between its load points) and a turbo-generator, so the
+    # prices are not simply fuel per tonne
+    cfg = _tg_site()
     ser = series(cfg, 1, demand_HP=17.3, demand_LP=61.7, load=9.0, price_import=90.0)
     a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
     hm = HourModel(cfg, ser, 0, a.held)
@@ -719,11 +724,7 @@ def test_an_estimate_from_steam_prices_a_turbo_generator_sets_is_said_to_move_wi
     set's power per tonne at the power price, so the marginal estimate moves with the import
     price and says little about the flip: here it reads about 96 /MWh while the re-solves
     flip near 60 (and again near 400). The note says which header a turbo-generator prices."""
-    boilers = [{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "160 t/h", "min_steam": "16 t/h",
-                "efficiency_curve": {"load": [0.1, 0.4, 1.0], "efficiency": [0.80, 0.86, 0.84]}}]
-    tg = {"id": "TG", "inlet": "HP", "max_throttle": "60 t/h", "generator_rating": "8 MW",
-          "section": [{"to": "LP", "efficiency": 0.75}]}
-    cfg = _site(boiler=boilers, turbogenerator=[tg])
+    cfg = _tg_site()
     ser = series(cfg, 1, demand_HP=17.3, demand_LP=40.0, load=9.0, price_import=90.0)
     a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
     assert a.reasons["LP"].startswith("LP: exhaust of TG")  # the scenario as meant
@@ -856,7 +857,7 @@ def test_a_venting_header_is_priced_by_its_vent_though_the_reserve_is_short() ->
     plus the turbine's steam leave the reserve short, and its exhaust is vented at LP (no
     LP demand). HP carries the reserve's penalty; LP's price is the vent's cost (-1 per t:
     one more t/h there vents one less), and its reason and category say the vent."""
-    from cogendispatch.decisions import price_reasons
+    from cogendispatch.decisions import price_reasons, valuer
     from cogendispatch.prices import set_by
 
     def boiler(b: str) -> dict:
@@ -868,12 +869,7 @@ def test_a_venting_header_is_priced_by_its_vent_though_the_reserve_is_short() ->
     hm.driver_limits = {"P1": (1, 1)}  # on steam, as a minimum time between changes would hold it
     prices, _, x = hm.marginal_prices()
     reasons, _ = price_reasons(hm, x)
-    m = hm.sm.model
-
-    def val(v) -> float:  # noqa: ANN001
-        c = hm.lm.col(v)
-        return float(v.value or 0.0) if c is None else float(x[c])
-
+    m, val = hm.sm.model, valuer(hm.lm, x)
     assert prices["LP"] == pytest.approx(-1.0) and prices["HP"] > 1e4  # the scenario as meant
     assert reasons["LP"] == "LP: surplus, vented through V" and set_by(m, val, "LP", 0) == "cost"
     assert "reserve" in reasons["HP"] and set_by(m, val, "HP", 0) == "reserve penalty"

@@ -406,14 +406,21 @@ def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | Non
     return on, drivers, driver_history(cfg, pos, sched)
 
 
-def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
-    """One line per header (and for power) saying what sets the marginal price."""
-    cfg, b, m, lm = hm.cfg, hm.blocks, hm.sm.model, hm.lm
-
+def valuer(lm: LoadedModel, x: np.ndarray) -> Callable[[object], float]:
+    """A variable's value in the schedule ``x`` (column values of ``lm``); a variable the
+    solver never saw (fixed in the model) by its own value."""
     def val(var) -> float:  # noqa: ANN001
         c = lm.col(var)
         return float(var.value or 0.0) if c is None else float(x[c])
 
+    return val
+
+
+def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
+    """One line per header (and for power) saying what sets the marginal price."""
+    cfg, b, m, lm = hm.cfg, hm.blocks, hm.sm.model, hm.lm
+
+    val = valuer(lm, x)
     def free(var, lo: float, hi: float) -> bool:  # noqa: ANN001
         v = val(var)
         return lo + 1e-6 < v < hi - 1e-6
@@ -868,10 +875,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     reasons, pw_reason = price_reasons(hm, x)
     m = hm.sm.model
 
-    def val(var) -> float:  # noqa: ANN001
-        c = hm.lm.col(var)
-        return float(var.value or 0.0) if c is None else float(x[c])
-
+    val = valuer(hm.lm, x)
     categories = {b: set_by(m, val, b, 0) for b in [*reasons, "power"]}
     # the reserve is one for the site, though each header's price carries it: named once
     not_met = [reasons[h] for h, v in base.short.items() if v > TOL] + \
