@@ -409,7 +409,7 @@ def test_scenario_mistakes_a_budget_engineer_makes(tmp_path) -> None:  # noqa: A
         with pytest.raises(InputError, match=where):
             load_scenarios(_scenario_file(tmp_path, f'[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\n{text}\n'),
                            cfg, base)
-    with pytest.raises(InputError, match="load"):
+    with pytest.raises(InputError, match=r"\[\[scenario\]\] #1 \('a'\) > load"):  # named, as the others
         load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "a"\nload = 105\n'), cfg, base)
     (tmp_path / "p.csv").write_text("time,price:import [per MWh],demand:LP [t/h]\n" + "".join(
         f"{t},90,100\n" for t in pd.date_range("2027-03-01", periods=48, freq="h")))

@@ -213,7 +213,7 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
         demand[hid] = demand[hid] * f
     outages = []
     for j, o in enumerate(sc.outages):
-        w = here + f" > outage #{j + 1}"
+        w = here + f" > [[outage]] #{j + 1}"  # as the validation messages write it
         if o.unit not in units:
             raise InputError(path, w + " > unit", f"'{o.unit}' is not a boiler or turbo-generator "
                              f"(those are: {', '.join(sorted(units))})")

@@ -39,10 +39,14 @@ def _describe_loc(raw: Any, loc: tuple[Any, ...]) -> str:
                 if isinstance(seq, list) and nxt < len(seq):
                     item = seq[nxt]
             ident = item.get("id") if isinstance(item, dict) else None
+            # a scenario file's tables go by name
+            called = item.get("name") if isinstance(item, dict) and ident is None else None
             # a table of tables reads [[boiler]] #2; a list of values, efficiency (value 4)
             label = f"[[{name}]] #{nxt + 1}" if isinstance(item, dict) else f"{name} (value {nxt + 1})"
             if ident is not None:
                 label += f" (id '{ident}')"
+            elif isinstance(called, str):
+                label += f" ('{called}')"
             parts.append(label)
             node = item
             i += 2
