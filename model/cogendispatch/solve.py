@@ -63,6 +63,14 @@ BESIDE_HIGHS_OPTIONS: dict[str, float | bool] = {
 }
 
 
+def _rel_gap(obj: float, bound: float) -> float:
+    """Relative gap of a schedule of cost ``obj`` to a proven ``bound`` [-], as HiGHS gives
+    it; infinite without a finite bound or schedule."""
+    if not (math.isfinite(obj) and math.isfinite(bound)) or obj == 0:
+        return float("inf")
+    return (obj - bound) / abs(obj)
+
+
 def settle_limit(time_limit: float) -> float:
     """[s] allowed to :meth:`LoadedModel.settle_shortfalls` after a search of
     ``time_limit`` [s]: a quarter of it, at least 2 s (or the whole limit, when shorter: a
@@ -609,20 +617,26 @@ class LoadedModel:
         settled: tuple[np.ndarray, float] | None = None
         empty = np.zeros(0, dtype=np.int32)
         no_reserve = self.slack_cols(reserve=False)
-        # (slacks held at zero near the shortfall, whether only a cheaper schedule will do)
-        levels = [(every, False), (no_reserve, False), (empty, True)]
+        # steps: COVER (every boiler on around a reserve shortfall, :meth:`cover_reserve`),
+        # or (slacks held at zero near the shortfall, whether only a cheaper schedule will do)
+        levels: list[tuple[np.ndarray, bool] | None] = [None, (every, False), (no_reserve, False), (empty, True)]
         if (x[no_reserve] > SLACK_TOL).any():
             # steam or power short (priced far above the reserve): meeting the load comes
             # first, and covering the reserve after it (a 20 s plan with a boiler out left
             # the bus short while this time went to the reserve)
-            levels = [(no_reserve, False), (every, False), (empty, True)]
-        else:
-            covered = self.cover_reserve(x, obj, COVER_SHARE * time_limit)
-            if covered is not None:
-                x, obj = settled = covered
-                if not (x[every] > SLACK_TOL).any():
-                    return settled
-        for level, (held_slacks, cheaper_only) in enumerate(levels):
+            levels = [(no_reserve, False), None, (every, False), (empty, True)]
+        searches = sum(lv is not None for lv in levels)
+        level = -1  # searches so far
+        for step in levels:
+            if step is None:
+                covered = self.cover_reserve(x, obj, COVER_SHARE * (t_end - time.perf_counter()))
+                if covered is not None:
+                    x, obj = settled = covered
+                    if not (x[every] > SLACK_TOL).any():
+                        return settled
+                continue
+            held_slacks, cheaper_only = step
+            level += 1
             # the last level holds none: it searches around whatever is still in use
             watched = held_slacks if len(held_slacks) else every
             short = watched[x[watched] > SLACK_TOL]
@@ -636,7 +650,7 @@ class LoadedModel:
                 # a share of what is left, so that one level (an impossible first one, say)
                 # cannot take the time of the levels after it; a level's wider window gets
                 # what its narrower one left
-                attempts_left = len(levels) - level
+                attempts_left = searches - level
                 near = np.zeros(len(hours), dtype=bool)
                 for t in short_hours:
                     near |= (hours >= t - pad) & (hours <= t + pad)
@@ -666,11 +680,6 @@ class LoadedModel:
                     x, obj = new_x, new_obj
                     settled = (x, obj)
                     break
-            if held_slacks is no_reserve and levels[0][0] is no_reserve:
-                # load met (or not): now the reserve, every boiler on around it first
-                covered = self.cover_reserve(x, obj, COVER_SHARE * (t_end - time.perf_counter()))
-                if covered is not None:
-                    x, obj = settled = covered
             if settled is not None and held_slacks is every:
                 return settled  # nothing left in use
         return settled
@@ -822,7 +831,7 @@ class LoadedModel:
                 # HiGHS stopped before its root LP (a start that took most of the time): the
                 # start's LP relaxation of the same rows bounds the schedule as well
                 bound = self.lp_bound
-                gap = (obj - bound) / abs(obj) if has and obj != 0 else float("inf")
+                gap = _rel_gap(obj, bound)
                 if gap <= options.gap:
                     status = "optimal"
         else:
@@ -832,7 +841,7 @@ class LoadedModel:
             # a schedule HiGHS did not take up: a short time limit stopped it before the
             # start, or the helper found it after HiGHS's last look
             has, obj, x = True, bobj, bx
-            gap = (obj - bound) / abs(obj) if math.isfinite(bound) and obj != 0 else float("inf")
+            gap = _rel_gap(obj, bound)
             if gap <= options.gap:
                 status = "optimal"
         found_by = best.source if has and bx is not None and bobj <= obj + 1e-9 * abs(obj) else "HiGHS"
@@ -846,7 +855,7 @@ class LoadedModel:
                 settle_change = settled[1] - obj
                 x, obj = settled
                 found_by = "shortfall settled"
-                gap = (obj - bound) / abs(obj) if math.isfinite(bound) and obj != 0 else float("inf")
+                gap = _rel_gap(obj, bound)
                 status = "optimal" if gap <= options.gap else status
             secs["solve"] = time.perf_counter() - t1
         if helper is not None:
