@@ -623,14 +623,6 @@ def _priced(hm: HourModel, w: WhatIf) -> tuple[float, float | None]:
     return c, getattr(hm, "last_import", None)
 
 
-def _diff(hm: HourModel, did: str, price: float) -> tuple[float, float | None]:
-    """cost(steam) - cost(motor) at an import price, positive when the motor is cheaper
-    [currency/h], and its slope in the import price [MWh] (None when unknown)."""
-    cs, ss = _priced(hm, WhatIf(force={did: "steam"}, price_import=price))
-    cm, sm = _priced(hm, WhatIf(force={did: "motor"}, price_import=price))
-    return cs - cm, (ss - sm if ss is not None and sm is not None else None)
-
-
 def _split_margin(hm: HourModel, did: str, count: int, best: int,
                   price: float) -> tuple[float, float | None, list[float]]:
     """Cost with ``best`` of ``count`` spared machines on steam less the cheapest other
@@ -651,10 +643,10 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
                  tol: float, split: tuple[int, int] | None = None) -> tuple[float | None, float | None]:
     """Import prices where steam and motor cost the same [currency/MWh]: the nearest to the
     hour's price ``p0``, and one on the other side of it when that side was searched as far
-    (None when no price in :func:`_search_range` flips the answer). With ``split`` = (count,
-    best) for spared machines, where the best number on steam changes instead (``d0`` then
-    from :func:`_split_margin`): 1 of 2 on steam can be the best answer between the prices
-    where all on motor and all on steam are.
+    (None when no price in :func:`_search_range` flips the answer); ``d0`` is steam less
+    motor at ``p0``. With ``split`` = (count, best) for spared machines, where the best
+    number on steam changes instead (``d0`` then from :func:`_split_margin`): 1 of 2 on
+    steam can be the best answer between the prices where all on motor and all on steam are.
 
     A dearer import price usually favours steam, but with the rest of the hour re-solved at
     each price the difference need not be monotone: a turbo-generator's load and the
@@ -662,13 +654,15 @@ def _flip_prices(hm: HourModel, did: str, p0: float, d0: float, est: float | Non
     worth. So both sides are searched, stepping out geometrically from ``p0`` (the marginal
     estimate ``est``, when it lies on a side, is that side's first step and that side is
     searched first; the steps nearer than it are kept), then narrowed to ``tol`` [currency/MWh]. Once a flip is found, the
-    other side is searched only as far from ``p0`` as it lies: each step is two
-    re-solves (count + 1 with ``split``). A flip between two steps that flips back before the next is missed."""
+    other side is searched only as far from ``p0`` as it lies: each step is count + 1
+    re-solves (two for one machine). A flip between two steps that flips back before the next is missed."""
     if abs(d0) <= TIE:
         return p0, None
+    if split is None:  # one machine, d0 = steam less motor: the better of the two against the other
+        split, d0 = (1, 0 if d0 > 0 else 1), -abs(d0)
 
-    def diff(q: float) -> tuple[float, float | None] | tuple[float, float | None, list[float]]:
-        return _diff(hm, did, q) if split is None else _split_margin(hm, did, *split, q)
+    def diff(q: float) -> tuple[float, float | None, list[float]]:
+        return _split_margin(hm, did, *split, q)
 
     bottom, top = _search_range(p0)
     first_up = est is not None and est > p0
