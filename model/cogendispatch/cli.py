@@ -726,20 +726,20 @@ def main(argv: list[str] | None = None) -> int:
         out = Console(width=max(out.width, 240), soft_wrap=True)
     err = Console(stderr=True, soft_wrap=True)  # one message a line, whole, for logs and grep
     args: argparse.Namespace | None = None
+    words = sys.argv[1:] if argv is None else argv
 
     def json_error(kind: str, message: str, code: int) -> None:
-        # --json promises an object on standard output: a failed run gives one too
-        if args is not None and getattr(args, "json", False):
+        # --json promises an object on standard output: a failed run gives one too (the
+        # command line as given, when argparse refused it before there were args)
+        if getattr(args, "json", False) if args is not None else "--json" in words:
             print(json_text({"error": kind, "message": message, "exit_code": code}))
 
     try:
         try:
             args = build_parser().parse_args(argv)
-        except SystemExit as exc:  # argparse has printed its message; --json wants an object too
-            words = sys.argv[1:] if argv is None else argv
-            if exc.code == EXIT_INPUT and "--json" in words:
-                print(json_text({"error": "input", "message": "bad command line (see standard error)",
-                                 "exit_code": EXIT_INPUT}))
+        except SystemExit as exc:  # argparse has printed its message
+            if exc.code == EXIT_INPUT:
+                json_error("input", "bad command line (see standard error)", EXIT_INPUT)
             raise
         if args.command == "inspect":
             return cmd_inspect(args, out)

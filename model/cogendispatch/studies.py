@@ -47,7 +47,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 from .errors import InputError, InputErrors, SolveError
 from .plant.load import validation_problems
 from .plant.schema import SiteConfig
-from .plant.series import Series, load_series
+from .plant.series import Series, parse_series, read_table
 from .results import TOL, cost_frame, diagnose, schedule_frame
 from .site import BuildOptions, build_site_model
 from .reuse import WindowModels
@@ -177,8 +177,9 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
             p = path.parent / p
         if not p.is_file():
             raise InputError(path, here + " > prices", f"'{p}' is not a file")
-        repl = load_series(p, cfg, prices_only=True)
-        others = [c for c in _read_columns(p) if c != "time" and not c.strip().startswith("price:")]
+        raw = read_table(p)  # read once: its columns name what the price file leaves out below
+        repl = parse_series(raw, cfg, p, prices_only=True)
+        others = [c for c in (str(c).strip() for c in raw.columns) if c != "time" and not c.startswith("price:")]
         if others:  # a price file replaces prices only; say what it leaves out
             notes.append(f"{here} > prices: {p.name} also has {', '.join(others)}, left out (a price file "
                          "replaces price columns only; demand and load change with 'demand' and 'load')")
@@ -234,13 +235,6 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
     return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes))
 
 
-def _read_columns(path: Path) -> list[str]:
-    """The heading row of a series file as written (CSV, or an Excel workbook's first sheet)."""
-    from .plant.series import _read_table
-
-    return [str(c).strip() for c in _read_table(path).columns]
-
-
 def _outage_time(path: Path, where: str, text: str, times: pd.DatetimeIndex, end: bool) -> pd.Timestamp:
     """An outage's 'from' or 'to' as a time comparable with the series' ``times``. A date
     alone is the day's first hour for 'from' and its last for 'to' (both inclusive). Times
@@ -252,9 +246,10 @@ def _outage_time(path: Path, where: str, text: str, times: pd.DatetimeIndex, end
         t = pd.Timestamp(text)
     except (ValueError, TypeError):
         raise InputError(path, where, f"'{text}' is not a date and time, e.g. '2027-03-01T06:00'") from None
-    if end and re.fullmatch(r"\s*\d{4}-\d{2}-\d{2}\s*", text):
+    date_alone = re.fullmatch(r"\s*\d{4}-\d{2}-\d{2}\s*", text) is not None
+    if end and date_alone:
         t = t + pd.Timedelta(hours=23)
-    if t.tzinfo is None and times.tz is not None and re.fullmatch(r"\s*\d{4}-\d{2}-\d{2}\s*", text):
+    if t.tzinfo is None and times.tz is not None and date_alone:
         raise InputError(path, where, f"'{text}' is a date alone, which carries no UTC offset, and the series' "
                          f"times have one: give the time with its offset, e.g. '{text.strip()}T00:00+01:00'")
     if (t.tzinfo is None) != (times.tz is None):

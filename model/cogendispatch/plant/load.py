@@ -11,6 +11,7 @@ from pydantic import ValidationError
 
 from ..errors import InputError, InputErrors
 from ..steam import P_CRIT_BAR, SteamPropertyError, header_state, saturation_temperature, theoretical_steam_rate
+from ..units import UnitError, in_site_currency
 from .schema import Header, SiteConfig, TurboGenerator
 
 _TABLE_NAMES = {
@@ -103,21 +104,20 @@ def validation_problems(path: Path, raw: dict[str, Any], err: ValidationError) -
     return out
 
 
-# a price written with the site's currency, "9.0 EUR/GJ" or "9 EUR per GJ"
-_CURRENCY_PRICE = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z]{3})\s*(?:/|per\b)\s*(\S.*)$")
-
-
 def site_currency_prices(node: Any, currency: str) -> Any:
     """``node`` with every price written with the site's own currency ("9.0 EUR/GJ") in
-    the file format's form ("9.0 per GJ"); other text is left as it is."""
+    the file format's form ("9.0 per GJ", :func:`units.in_site_currency`); other text, and
+    a price in another currency (refused with its field's name when the field is read), is
+    left as it is."""
     if isinstance(node, dict):
         return {k: site_currency_prices(v, currency) for k, v in node.items()}
     if isinstance(node, list):
         return [site_currency_prices(v, currency) for v in node]
-    if isinstance(node, str):
-        m = _CURRENCY_PRICE.match(node)
-        if m and m.group(2) == currency:
-            return f"{m.group(1)} per {m.group(3)}"
+    if isinstance(node, str) and re.match(r"\s*[-+]?\.?\d", node):  # a number first: a price, not a name
+        try:
+            return in_site_currency(node, currency)
+        except UnitError:
+            return node
     return node
 
 

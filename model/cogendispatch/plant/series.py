@@ -101,7 +101,7 @@ _KIND = {
 }
 
 
-def _read_table(path: Path) -> pd.DataFrame:
+def read_table(path: Path) -> pd.DataFrame:
     """The table's cells as typed (strings); an Excel workbook's first sheet, whose name
     is kept in ``attrs["sheet"]``."""
     excel = path.suffix.lower() in (".xlsx", ".xlsm", ".xls")
@@ -155,7 +155,7 @@ def load_series(path: str | Path, site: SiteConfig, prices_only: bool = False) -
     InputError naming the file and the column or row at fault.
     """
     path = Path(path)
-    raw = _read_table(path)
+    raw = read_table(path)
     return parse_series(raw, site, path, prices_only)
 
 
