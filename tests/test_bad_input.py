@@ -18,6 +18,8 @@ import pytest
 
 from cogendispatch.cli import main
 from cogendispatch.errors import InputError
+from cogendispatch.plant.load import load_site
+from cogendispatch.plant.series import load_series
 
 DEMO_SITE_TEXT = (Path(__file__).resolve().parents[1] / "plant_configs" / "saltmarsh_refinery.toml").read_text(
     encoding="utf-8")
@@ -153,6 +155,17 @@ SITE_CASES = [
                        sub('  to = "LP"\n  efficiency = 0.72', '  to = "LP"')),
                  ["[[turbogenerator]] #2 (id 'TG2') > envelope > throttle", "742.3 kJ/kg", "514.3 kJ/kg of an isentropic expansion"],
                  id="envelope-beyond-isentropic"),
+    # a maker's line P = -0.9 MW + 80 kWh/t x throttle entered with its sign: the loss is
+    # subtracted, so a negative one would add 1.8 MW to every hour's power
+    pytest.param(chain(sub('fixed_throttle = "40 t/h"', 'fixed_throttle = "40 t/h"\nenvelope = { no_load = "-0.9 MW", throttle = "80 kWh/t" }'),
+                       sub('  to = "LP"\n  efficiency = 0.72', '  to = "LP"'),
+                       sub('no_load_loss = "0.4 MW"\nstartup_cost = 1500', 'startup_cost = 1500')),
+                 ["[[turbogenerator]] #2 (id 'TG2') > envelope > no_load", "must not be negative"],
+                 id="envelope-negative-no-load"),
+    pytest.param(chain(sub('fixed_throttle = "40 t/h"', 'fixed_throttle = "40 t/h"\nenvelope = { no_load = "0.9 MW", throttle = "80 kWh/t" }'),
+                       sub('  to = "LP"\n  efficiency = 0.72', '  to = "LP"')),
+                 ["[[turbogenerator]] #2 (id 'TG2') > no_load_loss", "the loss is the envelope's no_load"],
+                 id="envelope-and-no-load-loss"),
     # --- limits
     pytest.param(sub('min_steam = "12 t/h"', 'min_steam = "70 t/h"'),
                  ["[[boiler]] #4 (id 'B4') > min_steam", "exceeds max_steam"], id="min-steam-above-max"),
@@ -341,10 +354,12 @@ SERIES_CASES = [
     pytest.param(cell(3, "time", "2027-01-04 3pm"),
                  ["row 6, column 'time'", "is before the previous row (row 5 '2027-01-04 3pm' read as 2027-01-04 15:00)"],
                  id="time-read-otherwise"),
-    # a day-first date read month first: 01/04/2027 (1 April) is 4 January
-    pytest.param(lambda df: df.assign(time=pd.to_datetime(df["time"]).dt.strftime("%d/%m/%Y %H:%M")),
-                 ["row 26, column 'time'", "missing hour(s) before 05/01/2027 00:00", "read month first"],
-                 id="day-first-dates"),
+    # day-first dates with an hour missing: hourly neither way round, named as read month
+    # first (the row before the break shows 04/01/2027 read as 1 April)
+    pytest.param(lambda df: df.assign(time=pd.to_datetime(df["time"]).dt.strftime("%d/%m/%Y %H:%M"))
+                 .drop(index=30).reset_index(drop=True),
+                 ["row 26, column 'time'", "missing hour(s) before 05/01/2027 00:00",
+                  "read neither month first nor day first"], id="day-first-dates-with-a-gap"),
     pytest.param(lambda df: df.drop(columns="time"), ["header row", "missing column 'time'"], id="no-time-column"),
     # --- cells
     pytest.param(cell(7, LP, "abc"), [f"row 9, column '{LP}'", "'abc' is not a finite number"], id="non-numeric-cell"),
@@ -390,6 +405,30 @@ def test_bad_series_is_refused(edit: Frame, expected: list[str], demo_site: Path
     out = tmp_path / "out"
     rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out)])
     _assert_refused(rc, capsys, demo_series.name, expected, out)
+
+
+def test_day_first_dates_are_read_the_one_way_that_is_hourly(demo_site: Path, demo_series: Path) -> None:
+    """A week written 04/01/2027 .. 10/01/2027 is hourly only day first (month first, each
+    midnight jumps a month): read so, with a note, to the same times as the ISO file."""
+    iso = load_series(demo_series, load_site(demo_site))
+    df = pd.read_csv(demo_series, dtype=str, keep_default_na=False)
+    df["time"] = pd.to_datetime(df["time"]).dt.strftime("%d/%m/%Y %H:%M")
+    df.to_csv(demo_series, index=False)
+    s = load_series(demo_series, load_site(demo_site))
+    assert (s.time == iso.time).all()
+    assert s.time[0] == pd.Timestamp("2027-01-04 00:00")
+    assert any("read day first" in n and "04 January 2027" in n for n in s.notes())
+    assert not any("day first" in n for n in iso.notes())
+
+
+def test_slashed_dates_within_one_day_must_say_which_way(demo_site: Path, demo_series: Path,
+                                                          capsys: pytest.CaptureFixture[str]) -> None:
+    """24 rows of 04/01/2027 are hourly as 1 April and as 4 January: refused, naming both."""
+    df = pd.read_csv(demo_series, dtype=str, keep_default_na=False).iloc[:24]
+    df["time"] = pd.to_datetime(df["time"]).dt.strftime("%d/%m/%Y %H:%M")
+    df.to_csv(demo_series, index=False)
+    with pytest.raises(InputError, match=r"01 April 2027 \(month first\) or as 04 January 2027 \(day first\)"):
+        load_series(demo_series, load_site(demo_site))
 
 
 @pytest.mark.parametrize(("name", "make", "expected"), [

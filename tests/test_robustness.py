@@ -454,3 +454,25 @@ def test_a_time_limit_without_a_schedule_asks_for_more_time(tmp_path, monkeypatc
     err = capsys.readouterr().err
     assert rc == 4 and "the 5 s time limit ran out before any schedule was found" in err
     assert "contradictory" not in err and not (tmp_path / "out").exists()
+
+
+def test_a_second_ctrl_c_ends_a_run_that_does_not_call_back(tmp_path: Path) -> None:
+    """HiGHS's sub-MIPs never call back, so the first Ctrl-C waits for them; a second one
+    ends the process at once with exit code 130 (here: a block that never looks at the flag)."""
+    code = ("import time\nfrom cogendispatch.solve import _ctrl_c_as_flag\n"
+            "with _ctrl_c_as_flag():\n    print('ready', flush=True)\n    time.sleep(30)\n")
+    proc = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            env={**os.environ, "PYTHONPATH": str(ROOT / "model")},
+                            preexec_fn=_default_sigint_in_child)
+    try:
+        assert proc.stdout is not None and proc.stdout.readline().strip() == "ready"
+        proc.send_signal(signal.SIGINT)
+        time.sleep(0.3)
+        assert proc.poll() is None  # the first only sets the flag
+        t0 = time.perf_counter()
+        proc.send_signal(signal.SIGINT)
+        rc = proc.wait(timeout=10)
+    finally:
+        proc.kill()
+    assert rc == 130 and time.perf_counter() - t0 < 2.0
+    assert "stopped at once (second Ctrl-C); nothing written" in proc.stderr.read()

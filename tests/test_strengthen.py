@@ -7,6 +7,8 @@ hand-worked cases.
 
 from __future__ import annotations
 
+from typing import Callable
+
 import pytest
 from pyomo.core.expr.visitor import identify_variables
 
@@ -41,14 +43,29 @@ def test_set_capacity_by_hand() -> None:
     assert set_capacity(R, (0, 2), 0.0) == pytest.approx(280.0)
 
 
+def _twins() -> list[dict]:
+    return [{**b, "id": i, "max_steam": "100 t/h", "min_steam": "30 t/h"}
+            for b, i in zip(_boilers()[:2], ("T1", "T2"))]
+
+
+@pytest.mark.parametrize(("boilers", "demand"), [
+    (_boilers, [40, 60, 90, 110, 100, 70, 50, 40]),
+    (_boilers, [150, 200, 225, 230, 215, 160, 120, 100]),  # reserve short in the peak
+    # two 100 t/h boilers: with cover c < 1 a set carries 2 x 100 / (1 + c) with its
+    # reserve, and each t/h of reserve shortfall lets 2 / (1 + c) t/h more run (both
+    # reserve rows bind): a set row counting the shortfall at par with steam, as for
+    # c = 1, cut off the optimum here (hand arithmetic, c = 0.6: 125 t/h, 1.25 per t/h)
+    (_twins, [110, 135, 150, 160, 150, 120, 100, 90]),
+], ids=["reserve-kept", "reserve-short", "twins-reserve-short"])
 @pytest.mark.parametrize("rows", ["sets", "covers"])
 @pytest.mark.parametrize("cover", [1.0, 0.6])
-def test_rows_keep_the_optimum(cover: float, rows: str, monkeypatch: pytest.MonkeyPatch) -> None:
+def test_rows_keep_the_optimum(cover: float, rows: str, boilers: Callable[[], list[dict]], demand: list[float],
+                               monkeypatch: pytest.MonkeyPatch) -> None:
     if rows == "covers":  # a site with more boilers than the set weights allow
-        monkeypatch.setattr(reserve, "MAX_SET_BOILERS", 2)
-    cfg = site(boiler=_boilers(), reserve={"enabled": True, "cover": cover},
+        monkeypatch.setattr(reserve, "MAX_SET_BOILERS", 1)
+    cfg = site(boiler=boilers(), reserve={"enabled": True, "cover": cover},
                letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "300 t/h"}])
-    ser = series(cfg, 8, demand_LP=[40, 60, 90, 110, 100, 70, 50, 40])
+    ser = series(cfg, 8, demand_LP=demand)
     objs = []
     for strengthen in (False, True):
         sm = build_site_model(cfg, ser)

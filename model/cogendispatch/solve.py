@@ -13,7 +13,10 @@ from __future__ import annotations
 import contextlib
 import copy
 import math
+import multiprocessing
+import os
 import signal
+import sys
 import threading
 import time
 import weakref
@@ -163,6 +166,19 @@ _SCHEDULER = threading.local()
 _INTERRUPTED = threading.Event()
 
 
+def _on_ctrl_c(signum: int, frame: object) -> None:
+    """First Ctrl-C: set the flag, for HiGHS to stop at its next call back. A second
+    one ends the process at once: HiGHS's sub-MIPs (and the MIP's own LPs) never call
+    back, and a user pressing again does not want to wait for them. Nothing is being
+    written while HiGHS runs, so nothing is left half-written."""
+    if _INTERRUPTED.is_set():
+        if multiprocessing.parent_process() is None:  # a study's workers go quietly
+            sys.stderr.write("\ncogen: stopped at once (second Ctrl-C); nothing written\n")
+            sys.stderr.flush()
+        os._exit(130)
+    _INTERRUPTED.set()
+
+
 @contextlib.contextmanager
 def _ctrl_c_as_flag() -> Iterator[threading.Event]:
     """Within the block, Ctrl-C (SIGINT) sets ``_INTERRUPTED`` instead of raising; HiGHS's
@@ -176,7 +192,7 @@ def _ctrl_c_as_flag() -> Iterator[threading.Event]:
         yield threading.Event()
         return
     _INTERRUPTED.clear()
-    previous = signal.signal(signal.SIGINT, lambda signum, frame: _INTERRUPTED.set())
+    previous = signal.signal(signal.SIGINT, _on_ctrl_c)
     try:
         yield _INTERRUPTED
     finally:
@@ -921,7 +937,7 @@ class LoadedModel:
                     said = now
                     progress(f"still solving: no word from HiGHS for {quiet:.0f} s (it reports between its "
                              "steps, not within one of its sub-searches or an LP; Ctrl-C takes effect when "
-                             "the step ends)")
+                             "the step ends, a second Ctrl-C at once, writing nothing)")
 
         watcher = threading.Thread(target=watch, name="cogen-quiet-notes", daemon=True)
         watcher.start()

@@ -16,9 +16,12 @@ reasoning does better once the hour's total boiler steam S_t is known to be larg
    (:func:`cogendispatch.reserve.set_capacity`), so a set with C_k < L_t can run only on
    slack. With the set weights z_{k,t} of the reserve module, one row per hour says so:
 
-       sum_{k: C_k < L_t} (L_t - C_k) z_{k,t} <= r_t + K_s * steam shortfall_t + K_p * power shortfall_t
+       sum_{k: C_k < L_t} (L_t - C_k) z_{k,t} <= r_t / c + K_s * steam shortfall_t + K_p * power shortfall_t
 
-   Without slack the hour's statuses lie in the convex hull of the sets that can carry
+   With cover c < 1, each t/h of reserve shortfall r_t lets a set carry up to 1/c t/h more
+   (two equal boilers: 2/(1 + c)): take the steam down by r_t / c, shared in any way, and
+   every reserve row gains at least c * r_t / c = r_t, so (S_t - r_t / c) is carried
+   without shortfall and S_t <= C_k + r_t / c. Without slack the hour's statuses lie in the convex hull of the sets that can carry
    L_t, e.g. "at least three boilers" or "the large boiler runs".
 3. On sites with more boilers than the set weights allow, cover rows instead: a set C of
    the other boilers whose joint rating exceeds what may be off,
@@ -86,11 +89,11 @@ def linking_rows(lm: LoadedModel) -> np.ndarray:
     return np.flatnonzero(used & ((first != last) | (first < 0))).astype(np.int32)
 
 
-def _slack_cols(lm: LoadedModel, t: int, k_power: float, reserve: bool = True) -> list[tuple[int, float]]:
-    """(column, weight) of hour t's steam and power shortfalls in L_t, and with ``reserve``
-    the reserve shortfall (weight 1, the rows' own slack)."""
+def _slack_cols(lm: LoadedModel, t: int, k_power: float, reserve: float | None = 1.0) -> list[tuple[int, float]]:
+    """(column, weight) of hour t's steam and power shortfalls in L_t, and unless ``reserve``
+    is None the reserve shortfall, with weight ``reserve``."""
     m = lm.sm.model
-    cols = [(lm.col(m.power_short[t]), k_power)] + ([(lm.col(m.reserve_short[t]), 1.0)] if reserve else [])
+    cols = [(lm.col(m.power_short[t]), k_power)] + ([(lm.col(m.reserve_short[t]), reserve)] if reserve else [])
     cols += [(lm.col(m.steam_short[hh.id, t]), K_SHORT) for hh in lm.sm.ctx.cfg.headers]
     return [(c, a) for c, a in cols if c is not None]
 
@@ -132,7 +135,7 @@ def minimum_steam(lm: LoadedModel, time_limit: float, k_power: float = K_POWER[-
     m = lm.sm.model
     hours = list(m.T)
     steam_cols = [[c for c in (lm.col(b.steam[t]) for b in lm.sm.ctx.boilers) if c is not None] for t in hours]
-    slack_cols = [_slack_cols(lm, t, k_power, reserve=False) for t in hours]
+    slack_cols = [_slack_cols(lm, t, k_power, reserve=None) for t in hours]
     cost = {c: 1.0 for cols in steam_cols for c in cols}
     cost.update({c: a for cols in slack_cols for c, a in cols})
     x = _decoupled_lp(lm, cost, time_limit)
@@ -153,6 +156,10 @@ def add_set_rows(lm: LoadedModel, L: np.ndarray, k_power: float, skip: np.ndarra
     Returns the number of rows added."""
     m = lm.sm.model
     sets = lm.sm.ctx.boiler_sets
+    cover = lm.sm.ctx.cfg.reserve.cover
+    # each t/h of reserve shortfall lets a set carry at most 1/cover t/h more than C_k (module
+    # docstring, item 2); with cover 0 the reserve rows hold nothing back and C_k is the rating
+    per_reserve = 1.0 / cover if cover > 0 else 0.0
     n_rows = 0
     for t in m.T:
         if skip is not None and skip[t]:
@@ -162,7 +169,7 @@ def add_set_rows(lm: LoadedModel, L: np.ndarray, k_power: float, skip: np.ndarra
         terms = [(c, a) for c, a in terms if c is not None and lm.col_upper[c] > 0]
         if not terms:
             continue
-        terms += [(c, -a) for c, a in _slack_cols(lm, t, k_power)]
+        terms += [(c, -a) for c, a in _slack_cols(lm, t, k_power, reserve=per_reserve or None)]
         idx = np.array([c for c, _ in terms], dtype=np.int32)
         lm.h.addRow(-highspy.kHighsInf, 0.0, len(idx), idx, np.array([a for _, a in terms]))
         n_rows += 1

@@ -204,7 +204,7 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
                 lambda t, fu=fu: data.co2_price(t) * factors[fu] * blk.burn[fu, t])
         ctx.fuel_use[fu].append(lambda t, fu=fu: blk.burn[fu, t])
     if b.startup_cost > 0:
-        ctx.cost_terms["start-up"].append(lambda t: b.startup_cost * blk.start[t])
+        ctx.cost_terms["startup"].append(lambda t: b.startup_cost * blk.start[t])
     blk.coefficients = co
     blk.unit = b
     ctx.boilers.append(blk)

@@ -177,7 +177,7 @@ def add_turbogenerator(m: pyo.ConcreteModel, tg: TurboGenerator, ctx: ModelConte
         ctx.add_arrival(last.to, tg.id, f"{tg.id} exhaust", lambda t: blk.flow[n - 1, t], last.outlet.h)
     ctx.power_terms.append(Term(tg.id, f"{tg.id} generation", lambda t: blk.power[t]))
     if tg.startup_cost > 0:
-        ctx.cost_terms["start-up"].append(lambda t: tg.startup_cost * blk.start[t])
+        ctx.cost_terms["startup"].append(lambda t: tg.startup_cost * blk.start[t])
     blk.coefficients = co
     blk.unit = tg
     return blk

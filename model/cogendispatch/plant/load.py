@@ -292,6 +292,13 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
         if t.no_load_loss < 0:
             bad(where("turbogenerator", t.id, "no_load_loss"), "must not be negative")
         if t.envelope is not None:
+            if t.envelope.no_load < 0:
+                bad(where("turbogenerator", t.id, "envelope > no_load"),
+                    "must not be negative: it is the power lost while the set runs, subtracted "
+                    "(a maker's line P = -0.9 MW + 80 kWh/t x throttle is no_load = \"0.9 MW\")")
+            if t.no_load_loss > 0:
+                bad(where("turbogenerator", t.id, "no_load_loss"),
+                    "goes with section efficiencies; with an envelope the loss is the envelope's no_load")
             extr = {s.to for s in t.sections[:-1]}
             for key in t.envelope.extraction:
                 if key not in extr:

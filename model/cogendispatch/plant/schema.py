@@ -103,7 +103,9 @@ class TurbineSection(_Table):
     """One expansion section: from the previous point down to the header or condenser ``to``."""
 
     to: str
-    efficiency: Efficiency | None = None  # isentropic efficiency of this section
+    # the slope of the section's Willans line: isentropic efficiency at full load *before*
+    # the set's no-load loss, which comes on top; a datasheet's overall efficiency is lower
+    efficiency: Efficiency | None = None
     max_extraction: MassFlow | None = None  # only for sections that are not the last
     min_extraction: MassFlow = 0.0
     max_flow: MassFlow | None = None  # through this section
@@ -111,9 +113,9 @@ class TurbineSection(_Table):
 
 
 class TurbineEnvelope(_Table):
-    """Maker's linear performance envelope: MW = no_load*on + a*throttle + sum(b_k*extr_k)."""
+    """Maker's linear performance envelope: MW = a*throttle + sum(b_k*extr_k) - no_load*on."""
 
-    no_load: Power  # power lost when running at zero flow (Willans intercept) [MW]
+    no_load: Power  # power lost while running, given as a positive figure (Willans intercept) [MW]
     throttle: PowerPerFlow  # [MW per t/h]
     extraction: dict[str, PowerPerFlow] = Field(default_factory=dict)
 

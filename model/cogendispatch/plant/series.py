@@ -48,6 +48,7 @@ class Series:
     co2_price: pd.Series  # [currency/t]
     duty: pd.DataFrame  # [MW] columns: drive ids (shaft power of one machine)
     source: str = ""
+    time_note: str = ""  # how dates written with '/' were read, when day first
 
     @property
     def hours(self) -> int:
@@ -61,7 +62,7 @@ class Series:
         values: power prices beyond 10 000 per MWh (above the day-ahead and intraday price
         caps of the large European markets, from memory) or an import price below 1 per MWh
         all through, fuel beyond 500 per GJ, a load below 0.1 MW or above 2 000 MW."""
-        out = []
+        out = [self.time_note] if self.time_note else []
         for what, col, limit in (("import", self.price_import, POWER_PRICE_NOTE),
                                  ("export", self.price_export, POWER_PRICE_NOTE)):
             if len(col) and col.abs().max() > limit:
@@ -90,7 +91,7 @@ class Series:
             time=self.time[sl], demand=self.demand.iloc[sl], load=self.load.iloc[sl],
             price_import=self.price_import.iloc[sl], price_export=self.price_export.iloc[sl],
             fuel_price=self.fuel_price.iloc[sl], co2_price=self.co2_price.iloc[sl],
-            duty=self.duty.iloc[sl], source=self.source,
+            duty=self.duty.iloc[sl], source=self.source, time_note=self.time_note,
         )
 
 
@@ -171,7 +172,7 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
         sheet = raw.attrs.get("sheet")
         where = f" (read from the workbook's first sheet, '{sheet}': the series must be the first sheet)" if sheet else ""
         raise InputError(path, "header row", "missing column 'time'" + where)
-    time = _parse_time(raw["time"], path)
+    time, time_note = _parse_time(raw["time"], path)
 
     headers = {h.id for h in site.headers}
     fuels = {f.id for f in site.fuels}
@@ -248,7 +249,8 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
             raise InputError(path, f"row {row + 2}, column '{written.get(('duty', d.id), 'duty:' + d.id)}'",
                              "duty must not be negative")
     return Series(time=idx, demand=demand, load=load, price_import=price_import, price_export=price_export,
-                  fuel_price=fuel_price, co2_price=co2, duty=duty, source=str(path))
+                  fuel_price=fuel_price, co2_price=co2, duty=duty, source=str(path),
+                  time_note=time_note)
 
 
 # largest magnitude a series cell may have, in its column's unit (t/h, MW, kW, per MWh ...)
@@ -273,13 +275,13 @@ def _numeric(col: pd.Series, path: Path, name: str) -> pd.Series:
     return num.astype(float).reset_index(drop=True)
 
 
-def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
-    """Parse the ``time`` column and check it is strictly hourly with no gap or repeat."""
-    text = col.astype(str).str.strip()
-    parsed = []
+def _read_times(text: pd.Series, path: Path, dayfirst: bool = False) -> list[pd.Timestamp]:
+    """Each cell as a timestamp (UTC when it carries an offset); an unreadable or empty cell,
+    or a column mixing times with and without offsets, is an error naming its row."""
+    parsed: list[pd.Timestamp] = []
     for i, t in enumerate(text):
         try:
-            ts = pd.Timestamp(t)
+            ts = pd.to_datetime(t, dayfirst=True) if dayfirst else pd.Timestamp(t)
         except (ValueError, TypeError):
             raise InputError(path, f"row {i + 2}, column 'time'", f"'{t}' is not a date and time") from None
         if ts is pd.NaT or (isinstance(ts, float) and math.isnan(ts)) or pd.isna(ts):
@@ -288,6 +290,42 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
             raise InputError(path, f"row {i + 2}, column 'time'",
                              "mixes times with and without a UTC offset; give every row an offset or none")
         parsed.append(ts.tz_convert("UTC") if ts.tzinfo is not None else ts)
+    return parsed
+
+
+def _is_hourly(parsed: list[pd.Timestamp]) -> bool:
+    """True when each time is exactly one hour after the one before."""
+    return all(b - a == pd.Timedelta(hours=1) for a, b in zip(parsed, parsed[1:]))
+
+
+def _slashed_reading(text: pd.Series, path: Path, month_first: list[pd.Timestamp]) -> tuple[list[pd.Timestamp], str]:
+    """Dates written with '/' read either way round: the reading that makes the rows
+    hourly, with a note when it is day first. When both do and they differ (a series
+    within one day: 01/03/2027 is 3 January or 1 March) the file must say which."""
+    try:
+        day_first = _read_times(text, path, dayfirst=True)
+    except InputError:
+        return month_first, ""
+    if day_first == month_first or not _is_hourly(day_first):
+        return month_first, ""
+    if _is_hourly(month_first):
+        raise InputError(path, "row 2, column 'time'",
+                         f"'{text.iloc[0]}' reads as {month_first[0]:%d %B %Y} (month first) or as "
+                         f"{day_first[0]:%d %B %Y} (day first), and both make the rows hourly; "
+                         "write dates as year-month-day (2027-03-01)")
+    return day_first, (f"{path}: dates with '/' read day first, the only reading that makes the rows hourly "
+                       f"('{text.iloc[0]}' is {day_first[0]:%d %B %Y})")
+
+
+def _parse_time(col: pd.Series, path: Path) -> tuple[pd.DatetimeIndex, str]:
+    """Parse the ``time`` column and check it is strictly hourly with no gap or repeat;
+    also a note on how dates written with '/' were read ("" when none is needed)."""
+    text = col.astype(str).str.strip()
+    parsed = _read_times(text, path)
+    slash = text.str.contains("/").any()
+    note = ""
+    if slash:
+        parsed, note = _slashed_reading(text, path, parsed)
     idx = pd.DatetimeIndex(parsed)
     if len(idx) > 1:
         step = np.diff(((idx - idx[0]) / pd.Timedelta(hours=1)).to_numpy(dtype=float))  # [h]
@@ -306,12 +344,11 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
             if d < 0:
                 raise InputError(path, f"row {row}, column 'time'",
                                  f"{text.iloc[i + 1]} is before the previous row ({prev}): rows must be in time order")
-            slash = text.str.contains("/").any()
             # one hour missing in a month when clocks change (March/April, September to
             # November, either hemisphere) is most likely the local spring-forward hour,
             # unless the times carry their UTC offsets already
             clocks = d == 2 and parsed[i].month in (3, 4, 9, 10, 11) and parsed[i].tzinfo is None
-            hint = ("dates with '/' are read month first (01/03/2027 is 3 January): write 2027-03-01" if slash
+            hint = ("dates with '/' read neither month first nor day first as hourly rows: write 2027-03-01" if slash
                     else "a daylight-saving gap? give UTC offsets" if clocks
                     else "every hour needs a row")
             if d > 1 and d == round(d):
@@ -320,4 +357,4 @@ def _parse_time(col: pd.Series, path: Path) -> pd.DatetimeIndex:
             raise InputError(path, f"row {row}, column 'time'",
                              f"{text.iloc[i + 1]} is {d * 60:g} min after the previous row ({prev}): rows must be "
                              "exactly one hour apart" + (f"; {hint}" if slash else ""))
-    return idx
+    return idx, note
