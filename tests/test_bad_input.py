@@ -135,7 +135,13 @@ SITE_CASES = [
                  ["[[drive]] #4 (id 'WGC') > steam_turbine > exhaust", "not at a lower pressure than inlet 'LP'"],
                  id="drive-exhaust-above-inlet"),
     pytest.param(sub('from = "MP"\nto = "LP"', 'from = "MP"\nto = "HP"'),
-                 ["[[letdown]] #2 (id 'LD-ML') > to", "'HP' is not at a lower pressure than 'MP'"], id="letdown-upwards"),
+                 ["[[letdown]] #2 (id 'LD-ML') > to", "'HP' (42.00 bar(a)) is not at a lower pressure than 'MP' (12.00 bar(a))"],
+                 id="letdown-upwards"),
+    # 250 degC written as 420 (a degF figure in degC, say): MP 12 bar(a), 420 degC has
+    # h = 3304.1 kJ/kg, above HP's 3210.9 at 42 bar(a), 400 degC (IAPWS-IF97 region 2, computed)
+    pytest.param(sub('temperature = "250 degC"', 'temperature = "420 degC"'),
+                 ["[[letdown]] #1 (id 'LD-HM') > to", "arrives below 'MP''s state (420.0 degC, 3304.1 kJ/kg)",
+                  "a desuperheater cannot heat it"], id="letdown-into-a-hotter-header"),
     pytest.param(sub('temperature = "175 degC"', 'temperature = "120 degC"'),
                  ["[[header]] #3 (id 'LP') > temperature", "saturation temperature"], id="header-below-saturation"),
     pytest.param(sub('pressure = "0.12 bar(a)"', 'pressure = "0.001 bar(a)"'),

@@ -350,3 +350,18 @@ def test_values_beyond_any_site_get_a_note() -> None:
     assert parse_series(table("per MWh", "0"), cfg).notes() == []  # every load a drive's motor
     low = table("per MWh", "5").assign(**{"price:import [per MWh]": ["0.06"]})  # per kWh values
     assert "import price is at most 0.060 per MWh" in parse_series(low, cfg).notes()[0]
+
+
+@pytest.mark.parametrize(("text", "kind", "write"), [
+    ("250 Mlb/h", "mass_flow", "klb"), ("2 Mlbs/h", "mass_flow", "klb"),
+    ("4.2 per MBtu", "price_energy", "MMBtu"), ("5 MBTU", "energy", "MMBtu"), ("900 MBtu/h", "heat_rate", "kBtu"),
+])
+def test_roman_thousand_is_refused_as_ambiguous(text: str, kind: str, write: str) -> None:
+    """'M' before lb or Btu is a thousand in US use (250 Mlb/h, MBtu/h) and a million in SI:
+    read as mega it made a 250 klb/h boiler 113 000 t/h; refused, naming what to write."""
+    with pytest.raises(UnitError, match=rf"ambiguous.*'{write}'"):
+        parse_quantity(text, kind)
+    # the unambiguous spellings stay: klb (a thousand), MMBtu (a million), kBtu
+    assert parse_quantity("250 klb/h", "mass_flow") == pytest.approx(250 * LB_KG, rel=REL)
+    assert parse_quantity("1 MMBtu", "energy") == pytest.approx(1.055056, rel=1e-6)
+    assert parse_quantity("1000 kBtu", "energy") == pytest.approx(1.055056, rel=1e-6)

@@ -102,6 +102,47 @@ def test_wet_exhaust_is_flagged() -> None:
     assert "wet-exhaust" in v.verdict
 
 
+def test_wet_exhaust_of_a_makers_envelope_is_flagged() -> None:
+    """A maker's envelope gives the power, but its exhaust is still steam: 200 kWh/t from
+    40 bar(a), 300 degC (h = 2961 kJ/kg) takes 3600 x 0.2 / 0.97 = 742 kJ/kg out, leaving
+    h = 2219 kJ/kg at 0.1 bar(a), x = (2219 - 191.8) / 2392.1 = 0.85 (IAPWS-IF97 saturation
+    values at 0.1 bar(a); hand arithmetic): below 0.88, flagged as for section efficiencies,
+    and its sections listed."""
+    env = {"no_load": "0.3 MW", "throttle": "200 kWh/t", "extraction": {"LP": "-120 kWh/t"}}
+    cfg = site(header=[{"id": "HP", "pressure": "40 bar(a)", "temperature": "300 degC"},
+                       {"id": "LP", "pressure": "5 bar(a)", "temperature": "180 degC"}],
+               condenser=[{"id": "C", "pressure": "0.1 bar(a)", "cooling_capacity": "100 MW"}],
+               turbogenerator=[{"id": "T", "inlet": "HP", "max_throttle": "100 t/h", "generator_rating": "30 MW",
+                                "section": [{"to": "LP", "max_extraction": "100 t/h"}, {"to": "C"}],
+                                "envelope": env}])
+    ser = series(cfg, 2, demand_LP=20.0, price_import=400.0)
+    sm = build_site_model(cfg, ser)
+    solve(sm, SolveOptions(gap=1e-6))
+    res = plan_results(sm)
+    assert (res.schedule["T.exhaust_C_t_h"] > 0).all()
+    v = verify_schedule(cfg, ser, res.schedule)
+    cond = v.sections[v.sections["to"] == "C"]
+    assert len(cond) == 2 and cond["exhaust_quality"].to_numpy() == pytest.approx(0.847, abs=0.002)
+    assert v.flags and "T section 2 exhaust quality 0.84" in v.flags[0] and "wet-exhaust" in v.verdict
+    # the envelope's power is its own law: no power error is claimed for it
+    assert v.hourly["power_error_MW"].abs().max() < 1e-9
+
+
+def test_sections_file_is_headed_when_no_set_runs() -> None:
+    cfg = _ext_cond("0 MW")
+    ser = series(cfg, 2, demand_LP=20.0, price_import=1.0)
+    sched = plan_results(_solved(cfg, ser)).schedule.copy()
+    sched["T.on"] = 0.0
+    v = verify_schedule(cfg, ser, sched)
+    assert v.sections.empty and list(v.sections.columns)[:3] == ["time", "turbine", "section"]
+
+
+def _solved(cfg, ser):  # noqa: ANN001, ANN202
+    sm = build_site_model(cfg, ser)
+    solve(sm, SolveOptions(gap=1e-6))
+    return sm
+
+
 def test_verify_reports_header_imbalance_and_deaerator_steam() -> None:
     cfg = _ext_cond("1.0 MW")
     ser = series(cfg, 3, demand_LP=[30, 50, 40], price_import=300.0)

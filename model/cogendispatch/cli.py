@@ -601,8 +601,12 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
 
     cfg = load_site(args.site)
     tables = coefficient_tables(cfg)
-    out.print(f"[bold]{escape(cfg.site.name)}[/bold]: valid ({len(cfg.headers)} headers, {len(cfg.boilers)} boilers, "
-              f"{len(cfg.turbogenerators)} turbo-generators, {sum(d.count for d in cfg.drives)} driven machines)")
+    def n(count: int, noun: str) -> str:
+        return f"{count} {noun}{'' if count == 1 else 's'}"
+
+    out.print(f"[bold]{escape(cfg.site.name)}[/bold]: valid ({n(len(cfg.headers), 'header')}, "
+              f"{n(len(cfg.boilers), 'boiler')}, {n(len(cfg.turbogenerators), 'turbo-generator')}, "
+              f"{n(sum(d.count for d in cfg.drives), 'driven machine')})")
     explained: set[str] = set()
     for name, df in tables.items():
         if df.empty:
@@ -689,8 +693,9 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
                 out.print(Text("penalties price demand or reserve not met, not money: the money saved is "
                                f"total_without_penalty, {sv['total_without_penalty']['saving']:,.0f} {cur}"))
             if s["baseline"]["diagnosis"]:
-                out.print(Text("the practice baseline itself leaves demand unmet: "
-                               + "; ".join(s["baseline"]["diagnosis"][:3])))
+                diag = s["baseline"]["diagnosis"]
+                more = f"; and {len(diag) - 3} more in summary.json (baseline > diagnosis)" if len(diag) > 3 else ""
+                out.print(Text("the practice baseline itself leaves demand unmet: " + "; ".join(diag[:3]) + more))
         elif "baseline_note" in s:
             out.print(Text(s["baseline_note"]))
         if s.get("settle_change") is not None:

@@ -65,6 +65,8 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
         "running_hours": t["running_hours"],
         "drive_hours": t["drive_hours"],
         "diagnosis": res.diagnosis,
+        # the one-boiler-trip reserve the schedule keeps (site file's [reserve])
+        "reserve": {"enabled": cfg.reserve.enabled, "cover": cfg.reserve.cover},
         "end_stops": end_stops(cfg, res.schedule),
         "start_stops": start_stops(cfg, res.schedule),
         "seconds": run_report.seconds,

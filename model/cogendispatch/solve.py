@@ -784,7 +784,7 @@ class LoadedModel:
         # the reserve rows serve the search's bound; a window started from a guess with only
         # a few seconds has next to no search for them to serve
         quick = hint is not None and options.time_limit < QUICK_LIMIT
-        if options.strengthen and len(self.int_cols) > 0 and not quick:
+        if options.strengthen and len(self.int_cols) > 0 and not quick and self.sm.model.component("reserve") is not None:
             if progress:
                 progress("bounding each hour's boiler steam; adding reserve rows")
             add_reserve_rows(self, min(options.time_limit / 4, 30.0))

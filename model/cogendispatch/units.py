@@ -33,7 +33,6 @@ _ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
 _ureg.define("MMBtu = 1e6 * Btu_it")
 _ureg.define("MMBTU = MMBtu")
 _ureg.define("klb = 1000 * pound")
-_ureg.define("Mlb = 1e6 * pound")
 
 # kind -> (internal unit, a description for messages)
 KINDS: dict[str, tuple[str, str]] = {
@@ -78,8 +77,19 @@ _KCAL_RE = re.compile(r"\b(k|M|G)?cal\b")  # the International Table calorie of 
 _TON_RE = re.compile(r"\btons?\b", re.IGNORECASE)
 
 
+# "M" before lb or Btu is a thousand in US trade use (the Roman numeral: 250 Mlb/h, MBtu/h;
+# MMBtu a million) and a million (mega) in SI: refused until the writer says which
+_ROMAN_M_RE = re.compile(r"(?<![A-Za-z])M(lbs?|btu)\b", re.IGNORECASE)
+
+
 def _normalise_unit(unit: str) -> tuple[str, bool]:
     """Map trade spellings onto pint; return (pint unit, is_gauge)."""
+    roman = _ROMAN_M_RE.search(unit)
+    if roman and roman.group(0)[0] == "M":
+        what = "lb" if roman.group(1).lower().startswith("lb") else "Btu"
+        raise UnitError(f"'{unit}' is ambiguous ('M{roman.group(1)}' is a thousand {what} in US use, a "
+                        f"million in SI); write " + ("'klb' for a thousand pounds" if what == "lb"
+                                                     else "'kBtu' for a thousand Btu or 'MMBtu' for a million"))
     if _TON_RE.search(unit):
         raise UnitError(f"'{unit}' is ambiguous (short, long or metric ton); write 't' for the metric "
                         "tonne, or 'short_ton' or 'long_ton'")

@@ -328,7 +328,8 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
             ok = need_header("drive", d.id, "steam_turbine > exhaust", st.exhaust) and ok
             if ok and headers[st.exhaust].pressure >= headers[st.inlet].pressure:
                 bad(where("drive", d.id, "steam_turbine > exhaust"),
-                    f"exhaust header '{st.exhaust}' is not at a lower pressure than inlet '{st.inlet}'")
+                    f"exhaust header '{st.exhaust}' ({headers[st.exhaust].pressure:.2f} bar(a)) is not at a lower "
+                    f"pressure than inlet '{st.inlet}' ({headers[st.inlet].pressure:.2f} bar(a))")
                 ok = False
             if st.steam_rate is not None and st.steam_rate <= 0:
                 bad(where("drive", d.id, "steam_turbine > steam_rate"), "must be positive")
@@ -353,7 +354,22 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
         ok = need_header("letdown", ld.id, "from", ld.source)
         ok = need_header("letdown", ld.id, "to", ld.to) and ok
         if ok and headers[ld.to].pressure >= headers[ld.source].pressure:
-            bad(where("letdown", ld.id, "to"), f"'{ld.to}' is not at a lower pressure than '{ld.source}'")
+            bad(where("letdown", ld.id, "to"), f"'{ld.to}' ({headers[ld.to].pressure:.2f} bar(a)) is not at a lower "
+                f"pressure than '{ld.source}' ({headers[ld.source].pressure:.2f} bar(a))")
+        elif ok and headers[ld.to].temperature is not None:
+            # a valve keeps the enthalpy and a desuperheater can only cool: steam let down
+            # below a superheated header's enthalpy cannot reach its state (a degC/degF
+            # slip, typically, that otherwise shows only as an unexplained shortfall)
+            try:
+                src, to = (header_state(headers[x].pressure, headers[x].temperature) for x in (ld.source, ld.to))
+            except SteamPropertyError:
+                pass  # the header itself is reported above
+            else:
+                if src.h < to.h:
+                    bad(where("letdown", ld.id, "to"),
+                        f"steam let down from '{ld.source}' ({src.T:.1f} degC, {src.h:.1f} kJ/kg) arrives below "
+                        f"'{ld.to}''s state ({to.T:.1f} degC, {to.h:.1f} kJ/kg); a desuperheater cannot heat it "
+                        "(check the header temperatures and their units)")
         if ld.max_flow <= 0:
             bad(where("letdown", ld.id, "max_flow"), "must be positive")
         if ld.min_flow > ld.max_flow:
