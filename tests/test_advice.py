@@ -892,3 +892,25 @@ def test_a_unit_the_site_file_has_out_is_held_off_though_the_plan_runs_it(tmp_pa
     assert a.held["B3"] == 0 and a.dispatch["boilers_t_h"]["B3"] == 0.0
     assert a.notes == ["B3 runs in the plan but is unavailable in the site file: held off"]
     assert a.not_met  # two boilers cannot make it: the hour says so
+
+
+def test_a_boiler_at_its_fuels_supply_limit_is_not_named_as_marginal() -> None:
+    """B1 burns a cheap fuel whose site-wide supply (60 GJ/h) runs out below the boiler's
+    steam limits; the gas boiler B2 makes the rest. B2 sets the HP price, at its fuel cost
+    per tonne (flat efficiency: price x heat per tonne / efficiency, by hand), and B1 must
+    not be named for it."""
+    from cogendispatch.equipment import boiler as boiler_mod
+
+    boilers = [{"id": "B1", "header": "HP", "fuels": ["BARK"], "max_steam": "150 t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.05, 1.0], "efficiency": [0.80, 0.80]}},
+               {**_boiler()[0], "id": "B2"}]
+    cfg = _site(boiler=boilers, fuel=[{"id": "NG", "price": f"{FUEL} per GJ"},
+                                      {"id": "BARK", "price": "2 per GJ", "max_supply": "60 GJ/h"}],
+                reserve={"enabled": False})
+    ser = series(cfg, 1, demand_HP=D_HP, demand_LP=D_LP, price_import=100.0)
+    a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
+    assert a.reasons["HP"] == "HP: boiler B2 on its efficiency curve"
+    q = boiler_mod.coefficients(cfg.boilers[1], SiteStates.of(cfg)).heat_per_t  # [GJ/t]
+    # the HP price is B2's fuel per tonne plus the feedwater it draws (make-up and deaerator
+    # steam), so at least the fuel part
+    assert a.prices["HP"] > FUEL * q / ETA_B

@@ -532,3 +532,13 @@ def test_a_unit_on_before_the_plan_and_stopped_at_its_first_hour_is_named() -> N
                      "2027-01-04 00:00; off 2 of 6 h"]
     assert start_stops(site(turbogenerator=[{**TG, "initial_on": False}]), s) == []  # off before: no stop
     assert start_stops(site(turbogenerator=[{**TG, "initial_on": True}]), s.assign(**{"TG.on": 1})) == []
+
+
+def test_diagnosis_names_a_fuel_supply_limit():
+    """A boiler far below its rating but out of fuel (a site-wide max_supply of 100 GJ/h
+    gives about 100 x 0.85 / 2.9 = 29 t/h) is the limit a shortfall names."""
+    cfg = site(fuel=[{"id": "NG", "price": "10 per GJ", "max_supply": "100 GJ/h"}],
+               letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
+    _, rep, res = run(cfg, series(cfg, 2, demand_LP=[20, 60]))
+    assert len(res.diagnosis) == 1 and "LP header short" in res.diagnosis[0]
+    assert "binding in hour 1: B1 at its fuel's supply limit (NG 100 GJ/h)" in res.diagnosis[0]

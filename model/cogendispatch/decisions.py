@@ -426,6 +426,10 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
         return lo + 1e-6 < v < hi - 1e-6
 
     out: dict[str, str] = {}
+    # fuels burnt up to their site-wide max_supply this hour: a boiler on them alone is not
+    # at the margin, however far it sits from its steam limits
+    capped = {f.id for f in cfg.fuels if f.max_supply is not None
+              and sum(val(b[bo.id].burn[f.id, 0]) for bo in cfg.boilers if f.id in bo.fuels) >= f.max_supply - 1e-6}
     reserve_short = val(m.reserve_short[0]) if m.component("reserve_short") is not None else 0.0
     for hh in cfg.headers:
         hid = hh.id
@@ -448,6 +452,8 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
         if reason is None:
             for bo in cfg.boilers:
                 if bo.header == hid and val(b[bo.id].on[0]) > 0.5 and free(b[bo.id].steam[0], bo.min_steam, bo.max_steam):
+                    if all(fu in capped for fu in bo.fuels):  # between its limits, but no more fuel
+                        continue
                     reason = f"{hid}: boiler {bo.id} on its efficiency curve"
                     break
         if reason is None:
@@ -465,7 +471,11 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
                     reason = f"{hid}: exhaust of {tg.id} (the inlet price less the power it makes)"
                 if reason:
                     break
-        out[hid] = reason or f"{hid}: no single unit is marginal (the units serving it sit at limits)"
+        at_supply = [bo.id for bo in cfg.boilers if bo.header == hid and val(b[bo.id].on[0]) > 0.5
+                     and all(fu in capped for fu in bo.fuels)]
+        out[hid] = reason or (f"{hid}: no single unit is marginal (the units serving it sit at limits"
+                              + (f"; {', '.join(at_supply)} at {'their' if len(at_supply) > 1 else 'its'} fuel's "
+                                 "max_supply" if at_supply else "") + ")")
         if reserve_short <= 1e-6 and abs(part) > 0.005:
             out[hid] += (f"; the steam reserve binds (the running boilers' spare rating just covers losing the "
                          f"largest) and adds {part:,.2f} {cfg.site.currency}/t")

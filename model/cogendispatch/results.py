@@ -176,6 +176,9 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False, header: str | Non
     cfg, b = sm.ctx.cfg, sm.blocks
     up = _supplying(cfg, header) if header is not None else None
     out = []
+    # fuels burnt up to their site-wide supply: a boiler on them alone can make no more
+    burnt = {f.id: sum(_val(b[bo.id].burn[f.id, t]) for bo in cfg.boilers if f.id in bo.fuels) for f in cfg.fuels}
+    capped = {f.id: f.max_supply for f in cfg.fuels if f.max_supply is not None and burnt[f.id] >= f.max_supply - 1e-4}
     for bo in cfg.boilers:
         if up is not None and bo.header not in up:
             continue
@@ -184,6 +187,9 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False, header: str | Non
             out.append(f"{bo.id} {_off(bo.available, blk.on[t])}")
         elif _val(blk.steam[t]) >= bo.max_steam - 1e-4:
             out.append(f"{bo.id} at its {bo.max_steam:g} t/h rating")
+        elif all(fu in capped for fu in bo.fuels):
+            out.append(f"{bo.id} at its fuel's supply limit ("
+                       + ", ".join(f"{fu} {capped[fu]:g} GJ/h" for fu in bo.fuels) + ")")
     for tg in cfg.turbogenerators:
         blk = b[tg.id]
         if up is not None and not any(sec.to in up for sec in tg.sections):
