@@ -150,6 +150,11 @@ SITE_CASES = [
                  ["[deaerator] > makeup_temperature", "above 0 degC"], id="deaerator-makeup-frozen"),
     pytest.param(sub('condensate_temperature = "85 degC"', 'condensate_temperature = "150 degC"'),
                  ["[deaerator] > condensate_temperature", "saturation temperature"], id="deaerator-condensate-too-hot"),
+    # 5 psia (0.345 bar(a)) where 5 psig was meant: saturation at 72.3 degC (IAPWS-IF97,
+    # computed) is below the 85 degC condensate, and the message says why
+    pytest.param(sub('pressure = "2.2 bar(a)"', 'pressure = "5 psia"'),
+                 ["[deaerator] > condensate_temperature", "at 0.345 bar(a)", "below the atmosphere"],
+                 id="deaerator-below-the-atmosphere"),
     # --- a maker's envelope must be one a turbine could have (first law)
     pytest.param(sub('fixed_throttle = "40 t/h"', 'fixed_throttle = "40 t/h"\nenvelope = { no_load = "0.4 MW", throttle = "100 kWh/t" }'),
                  ["[[turbogenerator]] #2 (id 'TG2') > [[section]] #1 > efficiency", "not used with an 'envelope'"],
@@ -367,6 +372,10 @@ SERIES_CASES = [
                  ["row 26, column 'time'", "missing hour(s) before 05/01/2027 00:00",
                   "read neither month first nor day first"], id="day-first-dates-with-a-gap"),
     pytest.param(lambda df: df.drop(columns="time"), ["header row", "missing column 'time'"], id="no-time-column"),
+    pytest.param(lambda df: pd.concat([pd.DataFrame([df.columns.tolist()], columns=df.columns), df], ignore_index=True)
+                 .set_axis(["Saltmarsh week forecast"] + [""] * (len(df.columns) - 1), axis=1),
+                 ["header row", "missing column 'time', which appears in row 2", "headings must be the first row"],
+                 id="title-row-above-the-table"),
     # --- cells
     pytest.param(cell(7, LP, "abc"), [f"row 9, column '{LP}'", "'abc' is not a finite number"], id="non-numeric-cell"),
     pytest.param(cell(3, LOAD, ""), [f"row 5, column '{LOAD}'", "empty cell"], id="empty-cell"),

@@ -135,6 +135,11 @@ def test_plan_prints_its_fuel_total_in_the_units_asked(tmp_path: Path, capsys: p
     gj = json.loads((tmp_path / "out" / "summary.json").read_text())["fuel_total_GJ"]
     # 1 MMBtu = 1.05505585 GJ (NIST SP 811, International Table Btu: 2.326 kJ/kg per Btu/lb)
     assert f"fuel {gj / (2.326 * 0.45359237):,.0f} MMBtu" in out
+    # the folder remembers its units: a rebuild without --units keeps them, one with it changes them
+    d = tmp_path / "out"
+    assert json.loads((d / "summary.json").read_text())["units"] == "us"
+    assert main(["report", str(d)]) == 0 and "klb/h" in (d / "report.html").read_text()
+    assert main(["report", str(d), "--units", "si"]) == 0 and "klb/h" not in (d / "report.html").read_text()
 
 
 def test_penalties_stay_out_of_the_cost_and_price_charts(tmp_path: Path) -> None:

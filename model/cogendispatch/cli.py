@@ -8,6 +8,7 @@ schedule; 130 interrupted.
 from __future__ import annotations
 
 import argparse
+import json
 import os
 import sys
 import textwrap
@@ -80,11 +81,12 @@ def _count(text: str) -> int:
     return v
 
 
-def _units_option(p: argparse.ArgumentParser, prints_fuel: bool = True) -> None:
+def _units_option(p: argparse.ArgumentParser, prints_fuel: bool = True, remembered: bool = False) -> None:
     what = "report.html and of the fuel total printed here" if prints_fuel else "report.html"
-    p.add_argument("--units", choices=["si", "us"], default="si",
+    p.add_argument("--units", choices=["si", "us"], default=None if remembered else "si",
                    help=f"units of {what}: t/h and GJ, or klb/h and MMBtu (the CSV, JSON and workbook files "
-                        "and the messages stay in t/h and GJ)")
+                        "and the messages stay in t/h and GJ)"
+                        + ("; default: the units the plan or study was run with" if remembered else ""))
 
 
 def _site_and_series(p: argparse.ArgumentParser, series_help: str) -> None:
@@ -161,7 +163,7 @@ def build_parser() -> argparse.ArgumentParser:
                         description="Rebuild report.html and plan.xlsx or study.xlsx from the files of a plan or "
                         "study folder.")
     rp.add_argument("dir", help="a folder written by cogen plan or cogen study")
-    _units_option(rp, prints_fuel=False)
+    _units_option(rp, prints_fuel=False, remembered=True)
     ve = sub.add_parser("verify", help="re-check a plan's schedule with full IAPWS-IF97 physics",
                         description="Re-evaluate every hour of a plan folder's schedule with IAPWS-IF97: turbine "
                         "sections along the actual expansion line, desuperheater and deaerator water from energy "
@@ -289,7 +291,6 @@ def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
 def _warn_other_inputs(plan: Path, site: Path, series: Path, err: Console) -> None:
     """Warn when a plan folder was made from another site or series file than the advice
     is asked on: its commitment may not fit the hour (a new forecast may be meant)."""
-    import json
 
     try:
         s = json.loads((plan / "summary.json").read_text())
@@ -471,7 +472,7 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
         write_json({"kind": "study", "currency": cfg.site.currency, "site_name": cfg.site.name,
                     "first_hour": str(base.time[0]), "last_hour": str(base.time[-1]),
                     "site": str(Path(args.site).resolve()), "series": str(Path(args.series).resolve()),
-                    "scenarios": str(Path(args.scenarios).resolve()), "seconds": secs,
+                    "scenarios": str(Path(args.scenarios).resolve()), "seconds": secs, "units": args.units,
                     "options": {"window_h": args.window, "lookahead_h": args.lookahead, "gap": args.gap,
                                 "time_limit_s": args.time_limit, "first_window_min_s": COLD_MIN,
                                 "reserve": "off (--no-reserve)" if args.no_reserve else "as the site file says"},
@@ -756,7 +757,14 @@ def main(argv: list[str] | None = None) -> int:
             d = Path(args.dir)
             if not (d / "summary.json").is_file():
                 raise InputError(d, "", "not a plan or study folder (no summary.json)")
-            for f in write_reports(d, args.units):
+            units = args.units
+            if units is None:  # as the plan or study was run (older folders: SI)
+                try:
+                    units = json.loads((d / "summary.json").read_text(encoding="utf-8")).get("units", "si")
+                except (OSError, ValueError, AttributeError):
+                    units = "si"
+                units = units if units in ("si", "us") else "si"
+            for f in write_reports(d, units):
                 out.print(f"wrote {f}")
             return EXIT_OK
         if args.command == "study":

@@ -116,6 +116,7 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     summary = summary_dict(rep, res, cfg, series, str(site_path), str(series_path))
     summary["verify"] = ver.summary()
     summary["series_notes"] = series.notes()  # values most likely in a wrong unit (Series.notes)
+    summary["units"] = units  # of report.html, kept for `cogen report` to rebuild it alike
     say(f"verification: {ver.verdict}")
     say("pricing the practice baseline (merit-order boilers, fixed turbine throttles, normal drivers)")
     try:

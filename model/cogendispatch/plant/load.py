@@ -11,7 +11,7 @@ from pydantic import ValidationError
 
 from ..errors import InputError, InputErrors
 from ..steam import P_CRIT_BAR, SteamPropertyError, header_state, saturation_temperature, theoretical_steam_rate
-from ..units import UnitError, in_site_currency
+from ..units import STANDARD_ATMOSPHERE_BAR, UnitError, in_site_currency
 from .schema import Header, SiteConfig, TurboGenerator
 
 _TABLE_NAMES = {
@@ -405,7 +405,10 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
         for key in ("makeup_temperature", "condensate_temperature"):
             t_w = getattr(da, key)
             if t_w >= t_da:
-                bad(f"[deaerator] > {key}", f"{t_w:g} degC is not below the deaerator saturation temperature {t_da:.1f} degC")
+                vacuum = (f"; the deaerator pressure, {da.pressure:.3f} bar(a), is below the atmosphere: "
+                          "psia or bar(a) meant as gauge?" if da.pressure < STANDARD_ATMOSPHERE_BAR else "")
+                bad(f"[deaerator] > {key}", f"{t_w:g} degC is not below the deaerator saturation temperature "
+                    f"{t_da:.1f} degC at {da.pressure:.3f} bar(a)" + vacuum)
             elif t_w <= 0:
                 bad(f"[deaerator] > {key}", f"{t_w:g} degC: liquid water must be above 0 degC")
     except SteamPropertyError as exc:

@@ -169,6 +169,12 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
         raise InputError(path, "", "no rows")
     cols = [str(c) for c in raw.columns]
     if "time" not in cols:
+        # a title or notes above the table: the headings are further down
+        below = [i for i in range(min(len(raw), 20))
+                 if any(str(v).strip().lower() == "time" for v in raw.iloc[i].to_numpy())]
+        if below:
+            raise InputError(path, "header row", f"missing column 'time', which appears in row {below[0] + 2}: "
+                             "the headings must be the first row (a title above the table?)")
         sheet = raw.attrs.get("sheet")
         where = f" (read from the workbook's first sheet, '{sheet}': the series must be the first sheet)" if sheet else ""
         raise InputError(path, "header row", "missing column 'time'" + where)
