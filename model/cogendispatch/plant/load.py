@@ -457,11 +457,17 @@ def _check_envelope_work(t: TurboGenerator, pressures: dict[str, float], states:
                     f"steam leaving at the {leaving}{hint} would do {w:.1f} kJ/kg of work, no more than steam "
                     f"leaving at '{prev_at}' ({prev:.1f} kJ/kg): each section must do some")
             elif w - prev > ideal + 1e-9:
-                src = f"'{t.inlet}'" if k == 0 else f"the state at '{prev_at}'"
-                bad(where("turbogenerator", t.id, key),
-                    f"steam leaving at the {leaving}{hint} would do {w:.1f} kJ/kg of work (generator efficiency "
-                    f"included), more than the {prev + ideal:.1f} kJ/kg of an isentropic expansion from {src} "
-                    f"to '{sec.to}'")
+                if k == 0:
+                    bad(where("turbogenerator", t.id, key),
+                        f"steam leaving at the {leaving}{hint} would do {w:.1f} kJ/kg of work (generator efficiency "
+                        f"included), more than the {ideal:.1f} kJ/kg of an isentropic expansion from '{t.inlet}' "
+                        f"to '{sec.to}'")
+                else:  # figures of this section alone, from where the one before leaves the steam
+                    bad(where("turbogenerator", t.id, key),
+                        f"steam leaving at the {leaving}{hint} would do {w:.1f} kJ/kg of work from '{t.inlet}' "
+                        f"(generator efficiency included), {w - prev:.1f} of it in this section: more than the "
+                        f"{ideal:.1f} kJ/kg of an isentropic expansion from the state at '{prev_at}' "
+                        f"({state.h:.1f} kJ/kg, where the section before leaves it, not the header's) to '{sec.to}'")
                 return  # later sections would start from an impossible state
             state = state_ph(pressures[sec.to], h_in - w)
             prev, prev_at = w, sec.to
