@@ -365,3 +365,44 @@ def test_roman_thousand_is_refused_as_ambiguous(text: str, kind: str, write: str
     assert parse_quantity("250 klb/h", "mass_flow") == pytest.approx(250 * LB_KG, rel=REL)
     assert parse_quantity("1 MMBtu", "energy") == pytest.approx(1.055056, rel=1e-6)
     assert parse_quantity("1000 kBtu", "energy") == pytest.approx(1.055056, rel=1e-6)
+
+
+def test_tables_in_us_units_by_hand() -> None:
+    """Factors from NIST SP 811 App. B: 1 lb = 0.45359237 kg, 1 psi = 6.894757 kPa,
+    1 Btu_IT/lb = 2.326 kJ/kg and 1 Btu_IT/(lb degR) = 4.1868 kJ/(kg K) exactly."""
+    import pandas as pd
+
+    from cogendispatch.us_columns import in_us_units
+
+    si = pd.DataFrame({"unit": ["X"], "pressure_bar_a": [42.0], "temperature_C": [400.0], "superheat_K": [100.0],
+                       "enthalpy_kJ_kg": [2326.0], "entropy_kJ_kgK": [4.1868], "max_flow_t_h": [100.0],
+                       "steam_rate_kg_kWh": [10.0], "fuel_GJ_h": [105.505585262], "fuel_GJ_per_t": [1.0],
+                       "shaft_kW_per_t_h": [100.0], "price_EUR_GJ": [10.0], "cost_EUR_t": [1.0],
+                       "header_t_per_t": [1.05], "duty_kW": [650.0], "state": ["superheated"]})
+    us = in_us_units(si).iloc[0]
+    assert us["pressure_psia"] == pytest.approx(4200.0 / 6.894757, rel=1e-6)  # 609.2 psia
+    assert us["temperature_F"] == pytest.approx(752.0) and us["superheat_F"] == pytest.approx(180.0)
+    assert us["enthalpy_Btu_lb"] == pytest.approx(1000.0, rel=1e-9)
+    assert us["entropy_Btu_lbR"] == pytest.approx(1.0, rel=1e-9)
+    assert us["max_flow_klb_h"] == pytest.approx(100.0 / LB_KG, rel=1e-9)  # 220.46 klb/h
+    assert us["steam_rate_lb_kWh"] == pytest.approx(10.0 / LB_KG, rel=1e-9)
+    assert us["fuel_MMBtu_h"] == pytest.approx(100.0, rel=1e-9)
+    # 1 GJ/t = 1/1.05505585 MMBtu per 2.2046 klb
+    assert us["fuel_MMBtu_per_klb"] == pytest.approx(LB_KG / 1.05505585262, rel=1e-9)
+    assert us["shaft_kW_per_klb_h"] == pytest.approx(100.0 * LB_KG, rel=1e-9)
+    assert us["price_EUR_MMBtu"] == pytest.approx(10.55055853, rel=1e-9)
+    assert us["cost_EUR_klb"] == pytest.approx(LB_KG, rel=1e-9)
+    # ratios, powers and text as they were
+    assert us["header_t_per_t"] == 1.05 and us["duty_kW"] == 650.0 and us["state"] == "superheated"
+
+
+def test_inspect_prints_us_units_and_keeps_the_csv_si(tmp_path, capsys) -> None:  # noqa: ANN001
+    from pathlib import Path
+
+    from cogendispatch.cli import main
+
+    site = Path(__file__).resolve().parents[1] / "plant_configs" / "saltmarsh_refinery.toml"
+    assert main(["inspect", str(site), "--units", "us", "--csv", str(tmp_path / "c")]) == 0
+    out = capsys.readouterr().out
+    assert "pressure_psia" in out and "609.2" in out and "steam_rate_lb_kWh" in out
+    assert "pressure_bar_a" in (tmp_path / "c" / "headers.csv").read_text()

@@ -116,6 +116,9 @@ def build_parser() -> argparse.ArgumentParser:
                          "rates, letdown water ratios, deaerator steam ratio, condenser heat per t/h of exhaust) and the fuels and grid limits as read.")
     ins.add_argument("site", help="site file (TOML)")
     ins.add_argument("--csv", metavar="DIR", help="also write each table as CSV into the folder DIR (created, or replaced if an earlier inspect wrote it)")
+    ins.add_argument("--units", choices=["si", "us"], default="si",
+                     help="units of the tables printed: SI (t/h, bar(a), degC, kJ/kg, GJ) or US customary "
+                          "(klb/h, psia, degF, Btu/lb, MMBtu, lb/kWh); the CSV files stay SI")
 
     pl = sub.add_parser("plan", help="lowest-cost hourly schedule for the hours of a series",
                         description="Plan every unit hour by hour for the hours in --series and write "
@@ -599,6 +602,7 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
     """``cogen inspect``: validate a site and print its linear coefficients; returns the exit code."""
     from .coefficients import coefficient_tables
     from .plant.load import load_site
+    from .us_columns import in_us_units
 
     cfg = load_site(args.site)
     tables = coefficient_tables(cfg)
@@ -612,6 +616,8 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
     for name, df in tables.items():
         if df.empty:
             continue
+        if args.units == "us":
+            df = in_us_units(df)
         if name in ("boilers",):
             _table(out, name, df)
         else:  # one column per unit, one row per quantity: fits a terminal
