@@ -139,6 +139,36 @@ def test_outage_keeps_the_unit_off() -> None:
     assert (r.schedule["B1.on"].iloc[10:31] == 0).all()
 
 
+@pytest.mark.parametrize(("span", "lookahead"), [((0, 10), 6), ((24, 40), 0)])
+def test_an_outage_at_a_windows_first_hour_stops_a_boiler_at_load(span: tuple[int, int], lookahead: int) -> None:
+    """B1 runs at 40 t/h or more with a 30 t/h ramp down: an outage from the first hour of
+    a window (of the series, or after a window that did not see it coming, look-ahead 0)
+    stops it from that load, a trip rather than a planned ramp; the window used to be
+    infeasible and the study to stop."""
+    cfg = _site()
+    ser = series(cfg, 48, demand_LP=90.0)
+    r = rolling_horizon(cfg, PreparedScenario("o", ser, (("B1", *span),)), FAST, window=24, lookahead=lookahead)
+    assert (r.schedule["B1.on"].iloc[span[0]:span[1] + 1] == 0).all()
+    if span[0] > 0:  # it ran at load up to the outage
+        assert r.schedule["B1.steam_t_h"].iloc[span[0] - 1] > 30.0
+
+
+def test_a_unit_out_of_service_stops_from_its_initial_load() -> None:
+    """A plan whose site file marks a running boiler out of service (initial_steam above
+    what its ramp down allows in one hour) stops it in the first hour; it was infeasible."""
+    from cogendispatch.site import build_site_model
+    from cogendispatch.solve import solve
+
+    raw = _site()
+    b1 = next(b for b in raw.boilers if b.id == "B1")
+    assert b1.initial_on and b1.initial_steam > max(b1.ramp_down, b1.min_steam)
+    cfg = raw.model_copy(update={"boilers": [b.model_copy(update={"available": False}) if b.id == "B1" else b
+                                             for b in raw.boilers]})
+    sm = build_site_model(cfg, series(cfg, 6, demand_LP=40.0))
+    rep = solve(sm, FAST)
+    assert rep.has_solution and all(sm.blocks["B1"].on[t].value < 0.5 for t in range(6))
+
+
 def _three(cfg):  # noqa: ANN001, ANN202
     ser = _two_weeks(cfg, seed=3)
     ser = ser.window(0, 72)

@@ -154,4 +154,7 @@ def fix_statuses(blocks: dict[str, pyo.Block], cfg: SiteConfig, hours: int,
         spans = [(a, b) for uid, a, b in outages if uid == u.id]
         wanted = wanted_status(blk.commit_info, hours, u.available, getattr(u, "must_run", False), spans)
         changed += apply_fixings(blk.on, wanted, list(range(hours)))
+        if blk.component("stop_room0") is not None:
+            forced_stop = blk.commit_info.initial_on and wanted.get(0) == 0
+            blk.stop_room0 = max(blk.stop_ramp, pyo.value(blk.s0)) if forced_stop else blk.stop_ramp
     return changed

@@ -181,12 +181,17 @@ def add_boiler(m: pyo.ConcreteModel, b: Boiler, ctx: ModelContext) -> pyo.Block:
         blk.ramp_up = pyo.Constraint(T, rule=_up)
     if b.ramp_down is not None:
         sd = max(b.ramp_down, b.min_steam)
+        blk.stop_ramp = sd  # [t/h] the most a planned stop may drop from
+        # a stop in the first hour forced by an outage or by the unit being out of service
+        # comes from whatever load it had (a trip, not a planned ramp down): fix_statuses
+        # raises this to s0 then, so that the data do not make the hour infeasible
+        blk.stop_room0 = pyo.Param(mutable=True, initialize=sd)
 
         def _down(k: pyo.Block, t: int) -> RuleResult:
             if t == 0:
                 if s0 is None:
                     return pyo.Constraint.Skip
-                return k.s0 - k.steam[t] <= b.ramp_down * k.on[t] + sd * k.stop[t]
+                return k.s0 - k.steam[t] <= b.ramp_down * k.on[t] + k.stop_room0 * k.stop[t]
             return k.steam[t - 1] - k.steam[t] <= b.ramp_down * k.on[t] + sd * k.stop[t]
 
         blk.ramp_down = pyo.Constraint(T, rule=_down)
