@@ -191,6 +191,23 @@ def test_baseline_keeps_a_boiler_on_while_its_ramp_brings_it_down() -> None:
     assert base.results.schedule["POOR.on"].tolist() == [1, 1, 1, 1, 1, 0, 0, 0]
 
 
+def test_baseline_keeps_the_statuses_the_model_holds_at_the_start() -> None:
+    """A turbo-generator with a fixed throttle (the practice: run it) stopped 1 h before the
+    horizon with a 6 h minimum down time, and a machine normally on steam switched to its
+    motor 1 h before with 6 h between switches: the practice rule applies only once those
+    times are served (5 h in), or the baseline prices a schedule the plant cannot run."""
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "80 t/h", "min_throttle": "10 t/h", "generator_rating": "10 MW",
+          "no_load_loss": "0.3 MW", "min_up": "8 h", "min_down": "6 h", "fixed_throttle": "40 t/h",
+          "initial_on": False, "initial_hours": "1 h", "section": [{"to": "LP", "efficiency": 0.75}]}
+    drive = {"id": "P", "duty": "500 kW", "normal": "steam", "motor": {"efficiency": 0.95},
+             "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": 0.5},
+             "min_hours_between_switches": "6 h", "initial_on_steam": 0, "initial_hours_since_switch": "1 h"}
+    cfg = site(turbogenerator=[tg], drive=[drive])
+    s = practice_baseline(cfg, series(cfg, 10, demand_LP=50.0), time_limit=20).results.schedule
+    assert s["TG.on"].tolist() == [0] * 5 + [1] * 5
+    assert s["P.on_steam"].tolist() == [0] * 5 + [1] * 5
+
+
 def test_baseline_ranks_boilers_by_steam_cost_not_efficiency() -> None:
     """A less efficient boiler on a fuel at a third of the price makes cheaper steam
     (4/0.75 = 5.3 against 12/0.9 = 13.3 per GJ of steam): the practice rule commits it

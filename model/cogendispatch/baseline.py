@@ -66,21 +66,29 @@ def practice_baseline(cfg: SiteConfig, series: Series, build: BuildOptions = Bui
             fixed_cols.append(c)
             fixed_vals.append(value)
 
+    # the practice rule applies where the model leaves the choice open: a status it holds
+    # (a minimum down time or a minimum time between driver changes not yet served at the
+    # start, an outage) stays, or the baseline would be a schedule the plant cannot run
+    def rule(var, value: float) -> float:  # noqa: ANN001
+        held = held_value(var)
+        return value if held is None else float(held)
+
     for d in cfg.drives:
         blk = blocks[d.id]
         if hasattr(blk, "on_steam"):
             v = 0.0 if d.normal == "motor" else 1.0
             for k in range(d.count):
                 for t in hours:
-                    fix(blk.on_steam[k, t], v)
+                    fix(blk.on_steam[k, t], rule(blk.on_steam[k, t], v))
     for tg in cfg.turbogenerators:
         blk = blocks[tg.id]
         on = 1.0 if tg.fixed_throttle is not None else float(tg.initial_on)
         if not tg.available:
             on = 0.0
         for t in hours:
-            fix(blk.on[t], on)
-            if tg.fixed_throttle is not None and on:
+            on_t = rule(blk.on[t], on)
+            fix(blk.on[t], on_t)
+            if tg.fixed_throttle is not None and on_t:
                 fix(blk.throttle[t], tg.fixed_throttle)
     base_cols = np.array(fixed_cols, dtype=np.int32)
     base_vals = np.array(fixed_vals)
