@@ -120,6 +120,10 @@ demand = { LP = 1.1 }
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "2027-03-01T00:00+01:00"\nto = "2027-03-01T05:00+01:00"\n',
      "both have a UTC offset or both not"),
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "tuesday"\nto = "2027-03-01"\n', "from"),
+    # spellings pandas reads but not as a whole day: 2027-3-01 would end at 00:00, not 23:00
+    ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "2027-03-01"\nto = "2027-3-01"\n',
+     "write a date as '2027-03-14' (the whole day)"),
+    ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "20270301"\nto = "2027-03-01"\n', "from"),
     ('[[scenario]]\nname = "a"\nprices = "nothere.csv"\n', "prices"),
     ('[[scenarios]]\nname = "a"\n', "scenarios"),  # the documented keys only, no synonyms
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nstart = "2027-03-01"\nto = "2027-03-01"\n', "start"),
@@ -427,6 +431,28 @@ def test_outage_times_against_a_series_with_utc_offsets() -> None:
         _outage_time(f, "x", "2027-03-01", times, end=True)
     with pytest.raises(InputError, match="both have a UTC offset or both not"):
         _outage_time(f, "x", "2027-03-01T06:00", times, end=False)
+
+
+def test_months_are_the_sites_when_the_series_has_utc_offsets(tmp_path) -> None:  # noqa: ANN001
+    """A series written with its UTC offset (+02:00) is held in UTC, where April begins two
+    hours late: a scenario's `months` and the monthly summary go by the site's clock."""
+    from cogendispatch.plant.series import parse_series
+
+    cfg = _site()
+    base = series(cfg, 8, demand_LP=50.0, price_import=100.0)
+    raw = pd.DataFrame({"time": [f"{t.isoformat()}+02:00" for t in pd.date_range("2027-03-31 20:00", periods=8, freq="h")],
+                        "demand:HP [t/h]": "0", "demand:LP [t/h]": "50", "load [MW]": "5",
+                        "price:import [per MWh]": "100"})
+    ser = parse_series(raw, cfg, "<offsets>")
+    assert ser.time[0] == pd.Timestamp("2027-03-31 18:00", tz="UTC") and ser.wall_time[4] == pd.Timestamp("2027-04-01")
+    assert base.wall_time.equals(base.time)  # without offsets the wall clock is the time column
+    sc = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "april"\nimport = { add = "50 per MWh", months = [4] }\n'),
+                        cfg, ser)[0]
+    assert sc.series.price_import.tolist() == [100.0] * 4 + [150.0] * 4
+    r = rolling_horizon(cfg, sc, FAST, window=8, lookahead=0)
+    monthly = summarise(cfg, r, by_month=True)
+    assert monthly["month"].tolist() == ["2027-03", "2027-04"]
+    assert (monthly["cost_import"] > 0).all()
 
 
 def test_scenario_mistakes_a_budget_engineer_makes(tmp_path) -> None:  # noqa: ANN001

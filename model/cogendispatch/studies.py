@@ -145,7 +145,7 @@ def load_scenarios(path: str | Path, cfg: SiteConfig, base: Series, site_path: s
 
 
 def _price(path: Path, where: str, ch: PriceChange, kind: str, values: pd.Series, currency: str,
-           notes: list[str]) -> pd.Series:
+           notes: list[str], months: np.ndarray) -> pd.Series:
     from .plant.load import site_currency_prices
     from .units import UnitError, parse_price
 
@@ -157,7 +157,7 @@ def _price(path: Path, where: str, ch: PriceChange, kind: str, values: pd.Series
             raise InputError(path, where + " > add", str(exc)) from None
     new = values * ch.multiply + add
     if ch.months:
-        mask = values.index.month.isin(ch.months)
+        mask = np.isin(months, ch.months)  # the site's months (wall clock), not UTC's
         if not mask.any():  # a year's scenario file tried on a shorter series, or a slip
             notes.append(f"{where} > months {ch.months} has no hour in the series: the change does nothing")
         new = values.where(~mask, new)
@@ -194,18 +194,20 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
                    price_export=kept(repl.price_export, s.price_export),
                    fuel_price=pd.DataFrame({f: kept(repl.fuel_price[f], s.fuel_price[f]) for f in s.fuel_price},
                                            index=s.fuel_price.index),
-                   co2_price=kept(repl.co2_price, s.co2_price), duty=s.duty, source=s.source)
+                   co2_price=kept(repl.co2_price, s.co2_price), duty=s.duty, source=s.source, wall=s.wall)
     fuel_price = s.fuel_price.copy()
     cur = cfg.site.currency
+    months = base.wall_time.month.to_numpy()
     for fid, ch in sc.fuel.items():
         if fid not in fuels:
             raise InputError(path, here + f" > fuel > {fid}", f"unknown fuel '{fid}' (fuels: {', '.join(sorted(fuels))})")
-        fuel_price[fid] = _price(path, here + f" > fuel > {fid}", ch, "price_energy", fuel_price[fid], cur, notes)
-    imp = _price(path, here + " > import", sc.import_, "price_power", s.price_import, cur, notes) \
+        fuel_price[fid] = _price(path, here + f" > fuel > {fid}", ch, "price_energy", fuel_price[fid], cur, notes,
+                                 months)
+    imp = _price(path, here + " > import", sc.import_, "price_power", s.price_import, cur, notes, months) \
         if sc.import_ else s.price_import
-    exp = _price(path, here + " > export", sc.export, "price_power", s.price_export, cur, notes) \
+    exp = _price(path, here + " > export", sc.export, "price_power", s.price_export, cur, notes, months) \
         if sc.export else s.price_export
-    co2 = _price(path, here + " > co2", sc.co2, "price_mass", s.co2_price, cur, notes) if sc.co2 else s.co2_price
+    co2 = _price(path, here + " > co2", sc.co2, "price_mass", s.co2_price, cur, notes, months) if sc.co2 else s.co2_price
     demand = s.demand.copy()
     for hid, f in sc.demand.items():
         if hid not in headers:
@@ -231,7 +233,7 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
         outages.append((o.unit, i0, i1))
     load = s.load * sc.load if sc.load is not None else s.load
     ser = Series(time=s.time, demand=demand, load=load, price_import=imp, price_export=exp,
-                 fuel_price=fuel_price, co2_price=co2, duty=s.duty, source=s.source)
+                 fuel_price=fuel_price, co2_price=co2, duty=s.duty, source=s.source, wall=s.wall)
     return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes))
 
 
@@ -242,6 +244,11 @@ def _outage_time(path: Path, where: str, text: str, times: pd.DatetimeIndex, end
     if "/" in text or "." in re.split(r"[T ]", text.strip())[0]:
         # 5/1/2027 is 1 May in one country and 5 January in another
         raise InputError(path, where, f"'{text}': write the date as year-month-day, e.g. '2027-01-05T06:00'")
+    # year-month-day in full, then optionally the hour: other spellings pandas reads
+    # ('2027-3-14', '20270314', '2027-03') lose the whole-day reading of a date alone
+    if not re.fullmatch(r"\s*\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2})?(?:Z|[+-]\d{2}:?\d{2})?)?\s*", text):
+        raise InputError(path, where, f"'{text}': write a date as '2027-03-14' (the whole day) or a time as "
+                         "'2027-03-14T06:00', optionally with its UTC offset ('+01:00')")
     try:
         t = pd.Timestamp(text)
     except (ValueError, TypeError):
@@ -281,6 +288,8 @@ class ScenarioResult:
     shortfall_hours: int
     windows: list[WindowReport] = field(default_factory=list)
     diagnosis: list[str] = field(default_factory=list)  # as for a plan; hours of the whole series
+    # each hour's month ("2027-04") on the site's wall clock, for the monthly summary
+    months: list[str] | None = None
 
 
 def carry_states(cfg: SiteConfig, sched: pd.DataFrame, prev: SiteConfig) -> SiteConfig:
@@ -382,7 +391,8 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     schedule = pd.concat(scheds)
     hourly = pd.concat(costs).fillna(0.0)
     bal_short = int(short_hours(cfg, hourly).sum())
-    return ScenarioResult(ps.name, schedule, hourly, bal_short, reports, diagnosis)
+    months = ps.series.wall_time.to_period("M").astype(str).tolist()
+    return ScenarioResult(ps.name, schedule, hourly, bal_short, reports, diagnosis, months)
 
 
 def proven_gap(gap: float, objective: float = 1.0) -> float | None:
@@ -454,9 +464,12 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
         if d.steam_turbine is not None and d.motor is not None:  # a choice to report
             frame[f"{d.id}.machine_hours_on_steam_h"] = s[f"{d.id}.on_steam"]
     frame["shortfall_hours"] = short_hours(cfg, c).astype(int)
-    idx = pd.DatetimeIndex(s.index)
     if by_month:
-        out = frame.groupby(idx.to_period("M").astype(str)).sum()
+        # the site's months: a series with UTC offsets is held in UTC, whose months begin
+        # an hour or two off the site's
+        months = r.months if r.months is not None and len(r.months) == len(frame) else \
+            pd.DatetimeIndex(s.index).tz_localize(None).to_period("M").astype(str)
+        out = frame.groupby(np.asarray(months)).sum()
         out.index.name = "month"
         out.insert(0, "scenario", r.name)
         return out.reset_index()

@@ -49,6 +49,14 @@ class Series:
     duty: pd.DataFrame  # [MW] columns: drive ids (shaft power of one machine)
     source: str = ""
     time_note: str = ""  # how dates written with '/' were read, when day first
+    # the wall-clock times as written, when the file gave UTC offsets (``time`` is then
+    # UTC): a month or a day is the site's, not Greenwich's
+    wall: pd.DatetimeIndex | None = None
+
+    @property
+    def wall_time(self) -> pd.DatetimeIndex:
+        """The site's wall-clock time of each hour (naive)."""
+        return self.wall if self.wall is not None else self.time
 
     @property
     def hours(self) -> int:
@@ -92,6 +100,7 @@ class Series:
             price_import=self.price_import.iloc[sl], price_export=self.price_export.iloc[sl],
             fuel_price=self.fuel_price.iloc[sl], co2_price=self.co2_price.iloc[sl],
             duty=self.duty.iloc[sl], source=self.source, time_note=self.time_note,
+            wall=self.wall[sl] if self.wall is not None else None,
         )
 
 
@@ -178,7 +187,7 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
         sheet = raw.attrs.get("sheet")
         where = f" (read from the workbook's first sheet, '{sheet}': the series must be the first sheet)" if sheet else ""
         raise InputError(path, "header row", "missing column 'time'" + where)
-    time, time_note = _parse_time(raw["time"], path)
+    time, time_note, wall = _parse_time(raw["time"], path)
 
     headers = {h.id for h in site.headers}
     fuels = {f.id for f in site.fuels}
@@ -256,7 +265,7 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
                              "duty must not be negative")
     return Series(time=idx, demand=demand, load=load, price_import=price_import, price_export=price_export,
                   fuel_price=fuel_price, co2_price=co2, duty=duty, source=str(path),
-                  time_note=time_note)
+                  time_note=time_note, wall=wall)
 
 
 # largest magnitude a series cell may have, in its column's unit (t/h, MW, kW, per MWh ...)
@@ -295,7 +304,7 @@ def _read_times(text: pd.Series, path: Path, dayfirst: bool = False) -> list[pd.
         if parsed and (ts.tzinfo is None) != (parsed[0].tzinfo is None):
             raise InputError(path, f"row {i + 2}, column 'time'",
                              "mixes times with and without a UTC offset; give every row an offset or none")
-        parsed.append(ts.tz_convert("UTC") if ts.tzinfo is not None else ts)
+        parsed.append(ts)
     return parsed
 
 
@@ -323,15 +332,20 @@ def _slashed_reading(text: pd.Series, path: Path, month_first: list[pd.Timestamp
                        f"('{text.iloc[0]}' is {day_first[0]:%d %B %Y})")
 
 
-def _parse_time(col: pd.Series, path: Path) -> tuple[pd.DatetimeIndex, str]:
-    """Parse the ``time`` column and check it is strictly hourly with no gap or repeat;
-    also a note on how dates written with '/' were read ("" when none is needed)."""
+def _parse_time(col: pd.Series, path: Path) -> tuple[pd.DatetimeIndex, str, pd.DatetimeIndex | None]:
+    """Parse the ``time`` column and check it is strictly hourly with no gap or repeat.
+    Returns the times (UTC when the file gives offsets), a note on how dates written with
+    '/' were read ("" when none is needed) and, with offsets, the wall-clock times."""
     text = col.astype(str).str.strip()
     parsed = _read_times(text, path)
     slash = text.str.contains("/").any()
     note = ""
     if slash:
         parsed, note = _slashed_reading(text, path, parsed)
+    wall = None
+    if parsed and parsed[0].tzinfo is not None:
+        wall = pd.DatetimeIndex([t.tz_localize(None) for t in parsed])
+        parsed = [t.tz_convert("UTC") for t in parsed]
     idx = pd.DatetimeIndex(parsed)
     if len(idx) > 1:
         step = np.diff(((idx - idx[0]) / pd.Timedelta(hours=1)).to_numpy(dtype=float))  # [h]
@@ -363,4 +377,4 @@ def _parse_time(col: pd.Series, path: Path) -> tuple[pd.DatetimeIndex, str]:
             raise InputError(path, f"row {row}, column 'time'",
                              f"{text.iloc[i + 1]} is {d * 60:g} min after the previous row ({prev}): rows must be "
                              "exactly one hour apart" + (f"; {hint}" if slash else ""))
-    return idx, note
+    return idx, note, wall
