@@ -472,3 +472,25 @@ def test_scenario_mistakes_a_budget_engineer_makes(tmp_path) -> None:  # noqa: A
     (ps,) = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "a"\nprices = "p.csv"\n'), cfg, base)
     assert ps.series.demand["LP"].to_numpy() == pytest.approx(50.0)  # demand stays the base's
     assert len(ps.notes) == 1 and "demand:LP [t/h], left out" in ps.notes[0]
+
+
+def test_each_machine_of_a_spared_pair_carries_its_own_time_since_a_change() -> None:
+    """Two pumps on steam for 1000 h and more; the second goes to its motor 2 h before the
+    window ends. The next window holds the second (2 of its 6 h served) for 4 h, but not the
+    first, which has kept steam for 1022 h (it was held too, by the pair's one figure)."""
+    from cogendispatch.equipment.drive import wanted_drivers
+    from cogendispatch.studies import carry_states
+
+    drive = {"id": "P", "duty": "500 kW", "count": 2, "normal": "steam", "motor": {"efficiency": 0.95},
+             "steam_turbine": {"inlet": "HP", "exhaust": "LP", "efficiency": 0.5},
+             "min_hours_between_switches": "6 h", "initial_on_steam": 2, "initial_hours_since_switch": "1000 h"}
+    cfg = site(drive=[drive])
+    sched = pd.DataFrame({"B1.on": [1] * 24, "B1.steam_t_h": [50.0] * 24, "P.on_steam": [2] * 22 + [1] * 2})
+    d = carry_states(cfg, sched, cfg).drives[0]
+    assert d.initial_on_steam == 1 and d.initial_hours_since_switch == [1024.0, 2.0]
+    held = wanted_drivers(d, list(range(10)))
+    assert held == {(1, t): 0 for t in range(4)}
+    # a site file may give one figure per machine too; a wrong number of them is refused
+    assert site(drive=[{**drive, "initial_hours_since_switch": ["30 h", "2 h"]}]).drives[0].hours_since_switch(1) == 2.0
+    with pytest.raises(InputError, match="initial_hours_since_switch.*3 figures for 2 machine"):
+        site(drive=[{**drive, "initial_hours_since_switch": ["30 h", "2 h", "1 h"]}])

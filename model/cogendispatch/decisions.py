@@ -346,7 +346,7 @@ def driver_history(cfg: SiteConfig, index: int, sched: pd.DataFrame | None) -> d
         init = d.initial_on_steam
         if index == 0:
             if init is not None:
-                out[d.id] = DriverHistory(tuple((int(k < init), d.initial_hours_since_switch) for k in range(d.count)),
+                out[d.id] = DriverHistory(tuple((int(k < init), d.hours_since_switch(k)) for k in range(d.count)),
                                           L)
             continue
         if sched is None or f"{d.id}.on_steam" not in sched or len(sched) < index:
@@ -362,7 +362,7 @@ def driver_history(cfg: SiteConfig, index: int, sched: pd.DataFrame | None) -> d
                 if init is None:
                     n = float("inf")
                 elif int(k < init) == last:
-                    n += d.initial_hours_since_switch
+                    n += d.hours_since_switch(k)
             positions.append((last, n))
         out[d.id] = DriverHistory(tuple(positions), L)
     return out

@@ -410,7 +410,7 @@ class LoadedModel:
                     if d.initial_on_steam is None:  # no history: take the guess's first hour as it
                         was = CommitInfo(L, L, bool(guess(self.col(blk.on_steam[k, 0]))), float(L))
                     else:
-                        was = CommitInfo(L, L, k < d.initial_on_steam, float(d.initial_hours_since_switch))
+                        was = CommitInfo(L, L, k < d.initial_on_steam, d.hours_since_switch(k))
                     positions.append(([], []))
                     self._repaired([blk.on_steam[k, t] for t in m.T], was, guess, free_until, *positions[-1])
                 # positions repaired one by one may break the order of identical machines

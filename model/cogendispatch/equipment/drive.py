@@ -78,7 +78,7 @@ def wanted_drivers(d: Drive, hours: list[int]) -> dict[tuple[int, int], int]:
     if init is None or L <= 1:
         return {}
     return {(k, t): (1 if k < init else 0) for k in range(d.count) for t in hours
-            if t < L - d.initial_hours_since_switch}
+            if t < L - d.hours_since_switch(k)}
 
 
 def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:

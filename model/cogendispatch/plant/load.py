@@ -347,6 +347,10 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
             bad(where("drive", d.id, "normal"), "'steam' but the machine has no steam_turbine")
         if d.normal == "motor" and d.motor is None:
             bad(where("drive", d.id, "normal"), "'motor' but the machine has no motor")
+        if isinstance(d.initial_hours_since_switch, list) and len(d.initial_hours_since_switch) != d.count:
+            bad(where("drive", d.id, "initial_hours_since_switch"),
+                f"{len(d.initial_hours_since_switch)} figures for {d.count} machine(s): give one for all or one "
+                "per machine")
         if d.initial_on_steam is not None and not (0 <= d.initial_on_steam <= d.count):
             bad(where("drive", d.id, "initial_on_steam"), f"must be between 0 and count ({d.count})")
 

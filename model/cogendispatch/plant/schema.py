@@ -26,6 +26,16 @@ SteamRate = Annotated[float, _q("steam_rate")]  # [kg/kWh]
 EmissionFactor = Annotated[float, _q("emission_factor")]  # [t/GJ]
 PowerPerFlow = Annotated[float, _q("power_per_flow")]  # [MWh/t] = MW per t/h
 Hours = Annotated[float, _q("time")]  # [h]
+
+
+def _hours_each(v: object) -> object:
+    """A duration, or a list of them (one per machine of a drive)."""
+    if isinstance(v, list):
+        return [parse_quantity(x, "time") for x in v]
+    return parse_quantity(v, "time")
+
+
+HoursEach = Annotated[float | list[float], BeforeValidator(_hours_each)]  # [h]
 EnergyPrice = Annotated[float, _q("price_energy")]  # [currency/GJ]
 PowerPrice = Annotated[float, _q("price_power")]  # [currency/MWh]
 MassPrice = Annotated[float, _q("price_mass")]  # [currency/t]
@@ -167,7 +177,15 @@ class Drive(_Unit):
     normal: Literal["steam", "motor"] | None = None  # driver in the practice baseline
     min_hours_between_switches: Hours = 1.0
     initial_on_steam: int | None = None  # machines on steam before the horizon
-    initial_hours_since_switch: Hours = 1000.0  # [h] since the last change of driver
+    # [h] since the last change of driver: one figure for every machine, or one per machine
+    # in the order the machines on steam come first (machine 1 is on steam if any is)
+    initial_hours_since_switch: HoursEach = 1000.0
+
+    def hours_since_switch(self, k: int) -> float:
+        """[h] since machine position ``k`` (0-based, machines on steam first) last changed
+        driver before the horizon."""
+        v = self.initial_hours_since_switch
+        return float(v[k]) if isinstance(v, list) else float(v)
 
     @model_validator(mode="after")
     def _drivers(self) -> "Drive":
