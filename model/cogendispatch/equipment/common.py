@@ -205,8 +205,13 @@ def apply_fixings(var: pyo.Var, wanted: dict, keys: list) -> list:
     changed = []
     for k in keys:
         v = var[k]
-        want = (float(wanted[k]), float(wanted[k])) if k in wanted else (None, None)
-        if (pyo.value(v.lower), pyo.value(v.upper)) != want:
+        if k in wanted:
+            want = (float(wanted[k]), float(wanted[k]))
+            seen = want
+        else:  # free: no bounds of its own, its domain's (0 and 1 for a binary) apply
+            want = (None, None)
+            seen = tuple(v.domain.bounds())
+        if (pyo.value(v.lb), pyo.value(v.ub)) != seen:
             v.setlb(want[0])
             v.setub(want[1])
             changed.append(v)
