@@ -520,7 +520,8 @@ def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: Solve
     # one thread per window (windows run side by side); a window's accuracy rests on its
     # start, so no time is held back from improving it for a bound
     opts = SolveOptions(gap=options.gap, time_limit=options.time_limit, threads=1,
-                        warm_start=options.warm_start, strengthen=options.strengthen, search_share=0.0)
+                        warm_start=options.warm_start, strengthen=options.strengthen, search_share=0.0,
+                        settle=options.settle)
     if cluster is not None:
         from distributed import Client
 
