@@ -914,3 +914,28 @@ def test_a_boiler_at_its_fuels_supply_limit_is_not_named_as_marginal() -> None:
     # the HP price is B2's fuel per tonne plus the feedwater it draws (make-up and deaerator
     # steam), so at least the fuel part
     assert a.prices["HP"] > FUEL * q / ETA_B
+
+
+def test_a_demand_what_if_returns_its_share_of_condensate() -> None:
+    """Half of the process steam comes back as condensate (the tiny site's deaerator): a
+    what-if of 10 t/h more LP demand costs what the hour costs with the series itself
+    raised by 10 t/h, the extra return included (it once moved the header row alone)."""
+    cfg = _site(boiler=_boiler(), fuel=[{"id": "NG", "price": f"{FUEL} per GJ"}])
+    ser = series(cfg, 1, demand_HP=D_HP, demand_LP=D_LP, price_import=100.0)
+    more = series(cfg, 1, demand_HP=D_HP, demand_LP=D_LP + 10.0, price_import=100.0)
+    at = str(ser.time[0])
+    a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(demand={"LP": 10.0}))
+    assert a.what_if["cost"] == pytest.approx(advise(cfg, more, at, "<tiny>").cost, rel=1e-9)
+    # the header row alone would have bought the deaerator steam for 5 t/h of make-up too
+    hm = HourModel(cfg, ser, 0, a.held)
+    assert hm.cost(WhatIf(demand={"LP": 10.0})) > a.what_if["cost"] + 1.0
+
+
+def test_a_demand_change_needs_its_sign(capsys) -> None:  # noqa: ANN001
+    from pathlib import Path
+
+    from cogendispatch.cli import main
+    site_path = Path(__file__).resolve().parents[1] / "plant_configs" / "saltmarsh_refinery.toml"
+    series_path = site_path.with_name("saltmarsh_week.csv")
+    rc = main(["advise", str(site_path), "--series", str(series_path), "--at", "2027-01-04T03:00", "--demand", "LP=5"])
+    assert rc == 2 and "give the change with its sign, e.g. 'LP=+5'" in capsys.readouterr().err

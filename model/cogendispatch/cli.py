@@ -265,6 +265,9 @@ def what_if_from_args(args: argparse.Namespace, currency: str = "") -> "WhatIf":
         else:
             raise InputError(None, "--price", f"'{k}' is not import, export or fuel:<id>")
     for k, v in _pairs(args.demand, "--demand"):
+        if not v.strip().startswith(("+", "-")):  # 'LP=5' reads as 'set LP to 5' as easily
+            raise InputError(None, "--demand", f"'{k}={v}': give the change with its sign, e.g. '{k}=+{v.strip()}' "
+                             f"or '{k}=-{v.strip()}'")
         w.demand[k] = _amount(v, "--demand", "mass_flow")
     return w
 

@@ -839,6 +839,14 @@ class Advice:
     notes: list[str] = field(default_factory=list)  # what the advice changed in what it was given
 
 
+def _with_demand(series: Series, i: int, change: dict[str, float]) -> Series:
+    """``series`` with hour ``i``'s process demand changed by ``change`` [t/h per header]."""
+    demand = series.demand.copy()
+    for hid, d in change.items():
+        demand.iloc[i, demand.columns.get_loc(hid)] += d
+    return replace(series, demand=demand)
+
+
 def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir: str | None = None,
            what_if: WhatIf | None = None, build: BuildOptions = BuildOptions(), allow_starts: bool = False,
            keep_drivers: bool = False) -> Advice:
@@ -895,7 +903,14 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         # the change is measured against the hour as held; the what-if holds it too unless
         # starts are asked for (never with a trip: advise refuses that above)
         base_free = hm.solve(hold="all")
-        new = hm.solve(what_if, hold="on" if allow_starts else "all")
+        if what_if.demand:
+            # more (or less) process steam also returns more (or less) condensate to the
+            # deaerator: the hour is built again on the changed demand, not just its rows
+            hw = HourModel(cfg, _with_demand(series, i, what_if.demand), i, held, build)
+            hw.driver_limits = hm.driver_limits
+            new = hw.solve(replace(what_if, demand={}), hold="on" if allow_starts else "all")
+        else:
+            new = hm.solve(what_if, hold="on" if allow_starts else "all")
         notes = [f"{u} was already off" for u in what_if.trip if held.get(u) == 0]
         reserve_change = cfg.penalties.reserve_shortfall * (new.reserve_short - base_free.reserve_short)
         if hm.trips_a_boiler(what_if) and len(hm.reserve_rows):
