@@ -198,6 +198,22 @@ def test_what_if_keeps_the_commitment_unless_starts_are_allowed() -> None:
     assert free.what_if["asked"]["demand"] == {"LP": 40.0} and free.what_if["asked"]["allow_starts"] is True
 
 
+def test_what_if_may_stop_a_running_unit_when_stops_are_allowed() -> None:
+    """Two of three boilers run for 75 t/h of LP without the reserve; 40 t/h less demand is
+    one boiler's work. Held, both stay on; with stops allowed the poorer one stops, and the
+    hour is cheaper by at least its no-load fuel (both boilers' curves lose efficiency at
+    low load, so one boiler at 35 t/h beats two at their minimum 15 t/h each)."""
+    cfg = site(boiler=_three_boilers(), reserve={"enabled": False})
+    ser = series(cfg, 1, demand_LP=75.0)
+    at = str(ser.time[0])
+    held = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(demand={"LP": -40.0}))
+    free = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(demand={"LP": -40.0}), allow_stops=True)
+    assert not any("stopped" in c for c in held.what_if["changes"])
+    assert any("stopped" in c for c in free.what_if["changes"])
+    assert free.what_if["cost"] < held.what_if["cost"] - 1.0
+    assert free.what_if["asked"]["allow_stops"] is True
+
+
 def test_trip_says_the_reserve_is_dropped_and_names_a_unit_already_off() -> None:
     cfg = site(boiler=_three_boilers(), reserve={"enabled": False})
     ser = series(cfg, 1, demand_LP=75.0)

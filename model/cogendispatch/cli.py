@@ -196,6 +196,9 @@ def build_parser() -> argparse.ArgumentParser:
     ad.add_argument("--allow-starts", action="store_true",
                     help="let a what-if start a stopped boiler or turbo-generator, its whole start-up cost "
                          "charged to the hour (by default every unit keeps its on/off state)")
+    ad.add_argument("--allow-stops", action="store_true",
+                    help="let a what-if stop a running boiler or turbo-generator for the hour (its minimum up "
+                         "time and what the stop means for the hours after are not weighed)")
     ad.add_argument("--keep-drivers", action="store_true",
                     help="with --plan: hold every machine's driver as the plan has it in the hour (by default the "
                          "hour re-chooses the drivers the minimum time between changes allows); a row of the "
@@ -329,7 +332,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
         _warn_other_inputs(Path(args.plan), Path(args.site), Path(args.series), err)
     a = advise(cfg, series, args.at, args.series, args.plan, w,
                BuildOptions(reserve=False if args.no_reserve else None), allow_starts=args.allow_starts,
-               keep_drivers=args.keep_drivers)
+               keep_drivers=args.keep_drivers, allow_stops=args.allow_stops)
     for note in a.notes:
         err.print(Text(f"note: {note}"))
     d = advice_dict(a, cfg.site.currency)

@@ -152,7 +152,7 @@ class HourModel:
         for uid, c in self.on_col.items():
             if uid in w.trip:
                 self._fix(c, 0.0)
-            elif hold == "all" or (hold == "on" and self.held[uid] == 1):
+            elif hold == "all" or (hold == "on" and self.held[uid] == 1) or (hold == "off" and self.held[uid] == 0):
                 self._fix(c, float(self.held[uid]))
         for did, (lo, hi) in self.driver_limits.items():
             if did in w.force or did not in self.drive_cols:
@@ -193,7 +193,8 @@ class HourModel:
     def solve(self, w: WhatIf = WhatIf(), hold: str = "all") -> HourState:
         """Re-solve the hour under ``w``. ``hold``: "all" keeps every unit's held on/off
         state; "on" keeps running units on but lets stopped ones start (paying their start-up
-        cost); "none" frees the commitment. Tripped units are off in every case."""
+        cost); "off" keeps stopped units off but lets running ones stop; "none" frees the
+        commitment. Tripped units are off in every case."""
         c = self.cost(w, hold)
         return self._state(self.lm.solution(), c)
 
@@ -849,13 +850,14 @@ def _with_demand(series: Series, i: int, change: dict[str, float]) -> Series:
 
 def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir: str | None = None,
            what_if: WhatIf | None = None, build: BuildOptions = BuildOptions(), allow_starts: bool = False,
-           keep_drivers: bool = False) -> Advice:
+           keep_drivers: bool = False, allow_stops: bool = False) -> Advice:
     """Advice for the hour ``at``: marginal prices, driver table and an optional what-if.
 
     The what-if holds every boiler's and turbo-generator's on/off state: within the hour a
     cold unit cannot take load, and a running one is not stopped on a whim. With
     ``allow_starts`` a stopped unit may start (its whole start-up cost charged to the hour),
-    to ask whether a change would be worth a start. With ``keep_drivers`` (a plan needed)
+    to ask whether a change would be worth a start; with ``allow_stops`` a running unit may
+    stop for the hour. With ``keep_drivers`` (a plan needed)
     every machine keeps the plan's drivers in the hour, except the machine a row of the
     driver table or the what-if forces."""
     import time as _time
@@ -903,14 +905,17 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         # the change is measured against the hour as held; the what-if holds it too unless
         # starts are asked for (never with a trip: advise refuses that above)
         base_free = hm.solve(hold="all")
+        # which held states the what-if may change: starts, stops, both or neither
+        hold = {(False, False): "all", (True, False): "on", (False, True): "off", (True, True): "none"}[
+            (allow_starts, allow_stops)]
         if what_if.demand:
             # more (or less) process steam also returns more (or less) condensate to the
             # deaerator: the hour is built again on the changed demand, not just its rows
             hw = HourModel(cfg, _with_demand(series, i, what_if.demand), i, held, build)
             hw.driver_limits = hm.driver_limits
-            new = hw.solve(replace(what_if, demand={}), hold="on" if allow_starts else "all")
+            new = hw.solve(replace(what_if, demand={}), hold=hold)
         else:
-            new = hm.solve(what_if, hold="on" if allow_starts else "all")
+            new = hm.solve(what_if, hold=hold)
         notes = [f"{u} was already off" for u in what_if.trip if held.get(u) == 0]
         reserve_change = cfg.penalties.reserve_shortfall * (new.reserve_short - base_free.reserve_short)
         if hm.trips_a_boiler(what_if) and len(hm.reserve_rows):
@@ -934,7 +939,8 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
                          f"{reserve_change:,.0f} of the change is its "
                          "penalty, not money spent"
                          + (f"; starting {', '.join(idle)} (--allow-starts) may keep it" if idle and not allow_starts
-                            else ""))
+                            else "")
+                         + ("; stopping a unit (--allow-stops) may too" if not allow_stops else ""))
         slack_change = new.penalty - base_free.penalty - reserve_change  # header and bus slacks
         if slack_change > 1.0:  # a penalty of 10^6 per t turns solver round-off into cents
             notes.append(f"{slack_change:,.0f} of the change is the penalty for steam or power the site "
@@ -945,7 +951,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
               "surplus": any(s > 1e-4 for s in new.surplus.values()) or new.power_surplus > 1e-4,
               "reserve_short_t_h": new.reserve_short,
               "penalty_change": new.penalty - base_free.penalty,
-              "asked": {**asdict(what_if), "allow_starts": allow_starts}}
+              "asked": {**asdict(what_if), "allow_starts": allow_starts, "allow_stops": allow_stops}}
     dispatch = {"boilers_t_h": base.steam, "turbogenerators_MW": base.power, "grid_MW": base.grid,
                 "machines_on_steam": {k: float(v) for k, v in base.on_steam.items()}}
     return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
