@@ -387,14 +387,15 @@ def test_advice_holds_the_plans_states(tmp_path) -> None:  # noqa: ANN001
 
 def test_a_reserve_penalty_is_named_not_passed_off_as_cost() -> None:
     # Three 60 t/h boilers keep a one-boiler-trip reserve for 75 t/h of LP (deaerator
-    # steam on top). 50 t/h more demand is beyond what two can carry: with every boiler
-    # already running, the reserve goes short and the hour's cost jumps by its penalty
-    # (10^4 per t of reserve by default), which the advice must call a penalty.
+    # steam on top). 60 t/h more demand (half of it back as condensate, less deaerator
+    # steam) is beyond what two can carry: with every boiler already running, the reserve
+    # goes short and the hour's cost jumps by its penalty (10^4 per t of reserve by
+    # default), which the advice must call a penalty.
     cfg = site(boiler=_three_boilers(), reserve={"enabled": True},
                letdown=[{"id": "LD", "from": "HP", "to": "LP", "max_flow": "200 t/h"}])
     ser = series(cfg, 1, demand_LP=75.0)
     at = str(ser.time[0])
-    a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(demand={"LP": 50.0}))
+    a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(demand={"LP": 60.0}))
     wi = a.what_if
     assert wi["short"] is False and wi["reserve_short_t_h"] > 1.0
     assert wi["penalty_change"] == pytest.approx(1e4 * wi["reserve_short_t_h"], rel=1e-9)
@@ -942,6 +943,9 @@ def test_a_demand_what_if_returns_its_share_of_condensate() -> None:
     at = str(ser.time[0])
     a = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(demand={"LP": 10.0}))
     assert a.what_if["cost"] == pytest.approx(advise(cfg, more, at, "<tiny>").cost, rel=1e-9)
+    assert a.what_if["changes"][0] == f"LP demand {D_LP:.1f} -> {D_LP + 10:.1f} t/h"
+    p = advise(cfg, ser, at, "<tiny>", what_if=WhatIf(price_import=250.0)).what_if["changes"]
+    assert p[0] == "import price 100.00 -> 250.00 EUR/MWh"  # the price change is named first
     # the header row alone would have bought the deaerator steam for 5 t/h of make-up too
     hm = HourModel(cfg, ser, 0, a.held)
     assert hm.cost(WhatIf(demand={"LP": 10.0})) > a.what_if["cost"] + 1.0

@@ -383,7 +383,8 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                     out.print(f"{', '.join(machines)}: {note}", highlight=False)
         if a.what_if:
             wi = a.what_if
-            out.print(Text(f"what-if: hour cost {wi['cost']:,.0f} {cur} ({wi['change']:+,.0f} against "
+            change = round(wi["change"]) + 0.0  # + 0.0: no "-0"
+            out.print(Text(f"what-if: hour cost {wi['cost']:,.0f} {cur} ({change:+,.0f} against "
                            f"{wi['base_cost']:,.0f}); " + ("; ".join(wi["changes"]) or "nothing else changed")))
         out.print(f"advice in {a.seconds:.2f} s")
         out.print(f"[italic]{SAFETY_NOTE}[/italic]")

@@ -806,8 +806,9 @@ def what_if_changes(base: HourState, new: HourState) -> list[str]:
                                           ("grid", base.grid, new.grid, "MW", 2)):
         for uid, f in now.items():
             b = was.get(uid, 0.0)
-            if abs(f - b) > 0.5 * 10.0 ** -digits:  # a change that shows at the digits printed
-                out.append(f"{label} {uid} {b:.{digits}f} -> {f:.{digits}f} {unit}")
+            before, after = f"{b:.{digits}f}", f"{f:.{digits}f}"
+            if before != after:  # a change that shows at the digits printed
+                out.append(f"{label} {uid} {before} -> {after} {unit}")
     for h, s in new.short.items():
         if s > 1e-4:
             out.append(f"{h} header SHORT {s:.2f} t/h")
@@ -838,6 +839,21 @@ class Advice:
     # the hour as given: boilers [t/h], turbo-generators [MW], grid [MW], machines on steam
     dispatch: dict[str, dict[str, float]] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)  # what the advice changed in what it was given
+
+
+def _asked_prices(w: WhatIf, series: Series, i: int, cur: str) -> list[str]:
+    """A line per price the what-if sets, with the hour's own beside it: the change it
+    reports is then read as the price's doing, not the dispatch's alone."""
+    out = []
+    for what, new, was in (("import", w.price_import, series.price_import.iloc[i]),
+                           ("export", w.price_export, series.price_export.iloc[i])):
+        if new is not None:
+            out.append(f"{what} price {was:,.2f} -> {new:,.2f} {cur}/MWh")
+    for f, p in w.fuel_price.items():
+        out.append(f"fuel {f} price {series.fuel_price[f].iloc[i]:,.2f} -> {p:,.2f} {cur}/GJ")
+    for hid, d in w.demand.items():
+        out.append(f"{hid} demand {series.demand[hid].iloc[i]:,.1f} -> {series.demand[hid].iloc[i] + d:,.1f} t/h")
+    return out
 
 
 def _with_demand(series: Series, i: int, change: dict[str, float]) -> Series:
@@ -946,7 +962,8 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
             notes.append(f"{slack_change:,.0f} of the change is the penalty for steam or power the site "
                          "cannot supply or take, not money spent")
         wi = {"cost": new.cost, "base_cost": base_free.cost, "change": new.cost - base_free.cost,
-              "changes": notes + what_if_changes(base_free, new) + _blocked_changes(base_free, new, history),
+              "changes": _asked_prices(what_if, series, i, cfg.site.currency) + notes
+              + what_if_changes(base_free, new) + _blocked_changes(base_free, new, history),
               "short": any(s > 1e-4 for s in new.short.values()) or new.power_short > 1e-4,
               "surplus": any(s > 1e-4 for s in new.surplus.values()) or new.power_surplus > 1e-4,
               "reserve_short_t_h": new.reserve_short,
