@@ -296,11 +296,25 @@ def test_advice_on_a_plan_made_from_another_series_says_so(tmp_path, capsys) -> 
     assert main(["advise", str(site), "--series", str(newer), *args]) == 0
     err = capsys.readouterr().err
     assert f"was made from the series file {ser.resolve()}, not {newer}" in err
+    # the same file edited since the plan (a new forecast written over it) is named too
+    ser.write_text(ser.read_text().replace(",5,", ",6,", 1))
+    assert main(["advise", str(site), "--series", str(ser), *args]) == 0
+    assert f"the series file {ser} has changed since the plan in {plan} was made from it" in capsys.readouterr().err
+    # an hour the plan does not hold is an error alone, without a note that its states are held
+    short = tmp_path / "six.csv"
+    short.write_text("".join(newer.read_text().splitlines(keepends=True)[:7]))
+    assert main(["plan", str(site), "--series", str(short), "--out", str(tmp_path / "p6"), "--quiet"]) == 0
+    capsys.readouterr()
+    assert main(["advise", str(site), "--series", str(newer), "--at", "2027-03-01T10:00", "--plan",
+                 str(tmp_path / "p6")]) == 2
+    err = capsys.readouterr().err
+    assert "note:" not in err and "2027-03-01" in err
 
 
 @pytest.mark.parametrize("args, where", [
     (["--at", "2030-01-01T00:00"], "--at"),
     (["--at", "2027-01-05"], "gives no hour"),
+    (["--at", "10:00"], "'10:00' gives no date; write the date and the hour, e.g. '2027-01-04T10:00'"),
     (["--at", "2027-01-05T10:00", "--trip", "B1", "--allow-starts"], "does not go with --trip"),
     (["--at", "2027-01-05T10:00", "--force", "WGC=steam"], "--force"),
     (["--at", "2027-01-05T10:00", "--trip", "NOPE"], "--trip"),

@@ -543,3 +543,16 @@ def test_diagnosis_names_a_fuel_supply_limit():
     _, rep, res = run(cfg, series(cfg, 2, demand_LP=[20, 60]))
     assert len(res.diagnosis) == 1 and "LP header short" in res.diagnosis[0]
     assert "binding in hour 1: B1 at its fuel's supply limit (NG 100 GJ/h)" in res.diagnosis[0]
+
+
+def test_a_turbo_generator_may_be_must_run():
+    """must_run holds a turbo-generator on, as it does a boiler: with power at 1 per MWh
+    the set would otherwise stay off (its no-load loss costs more than it makes)."""
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "60 t/h", "min_throttle": "10 t/h", "generator_rating": "10 MW",
+          "no_load_loss": "0.5 MW", "initial_on": False, "section": [{"to": "LP", "efficiency": 0.7}]}
+    free = site(turbogenerator=[tg])
+    _, _, res = run(free, series(free, 3, demand_LP=30.0, price_import=1.0))
+    assert (res.schedule["TG.on"] == 0).all()
+    held = site(turbogenerator=[{**tg, "must_run": True}])
+    _, _, res = run(held, series(held, 3, demand_LP=30.0, price_import=1.0))
+    assert (res.schedule["TG.on"] == 1).all()

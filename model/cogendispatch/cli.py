@@ -297,21 +297,28 @@ def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
     }
 
 
-def _warn_other_inputs(plan: Path, site: Path, series: Path, err: Console) -> None:
-    """Warn when a plan folder was made from another site or series file than the advice
-    is asked on: its commitment may not fit the hour (a new forecast may be meant)."""
+def _other_inputs(plan: Path, site: Path, series: Path) -> list[str]:
+    """Notes when a plan folder was made from another site or series file than the advice
+    is asked on, or from the same file since changed: its commitment may not fit the hour
+    (a new forecast may be meant)."""
+    from .plan import file_digest
 
     try:
         s = json.loads((plan / "summary.json").read_text())
     except (OSError, ValueError):
-        return  # advise reads the plan's schedule itself and says what is wrong with it
+        return []  # advise reads the plan's schedule itself and says what is wrong with it
     if not isinstance(s, dict):
-        return
+        return []
+    out = []
     for key, given in (("site", site), ("series", series)):
         made = s.get(key)
         if made and Path(made).resolve() != given.resolve():
-            err.print(f"note: the plan in {plan} was made from the {key} file {made}, not {given}; "
-                      "its units' on/off states are held as planned", highlight=False)
+            out.append(f"the plan in {plan} was made from the {key} file {made}, not {given}; "
+                       "its units' on/off states are held as planned")
+        elif made and s.get(f"{key}_sha256") not in (None, file_digest(given)):
+            out.append(f"the {key} file {given} has changed since the plan in {plan} was made from it; "
+                       "the plan's on/off states are held as planned")
+    return out
 
 
 def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
@@ -328,12 +335,12 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     for note in series.notes():
         err.print(Text(f"note: {note}"))
     w = what_if_from_args(args, cfg.site.currency)
-    if args.plan:
-        _warn_other_inputs(Path(args.plan), Path(args.site), Path(args.series), err)
     a = advise(cfg, series, args.at, args.series, args.plan, w,
                BuildOptions(reserve=False if args.no_reserve else None), allow_starts=args.allow_starts,
                keep_drivers=args.keep_drivers, allow_stops=args.allow_stops)
-    for note in a.notes:
+    # said once the hour is known to be in the plan, not before an error that it is not
+    notes = _other_inputs(Path(args.plan), Path(args.site), Path(args.series)) if args.plan else []
+    for note in notes + a.notes:
         err.print(Text(f"note: {note}"))
     d = advice_dict(a, cfg.site.currency)
     cur = cfg.site.currency

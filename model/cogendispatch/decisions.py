@@ -281,6 +281,11 @@ def hour_index(series: Series, at: str, path: str) -> int:
     if "/" in at or "." in at.split("T")[0].split(" ")[0]:
         # 5/1/2027 is 1 May in one country and 5 January in another
         raise InputError(None, "--at", f"'{at}': write the date as year-month-day, e.g. '2027-01-05T10:00'")
+    first = pd.Timestamp(series.time[0])
+    if not re.search(r"\d{4}-\d{2}-\d{2}", at):  # '10:00' reads as today, not as a day of the series
+        raise InputError(None, "--at", f"'{at}' gives no date; write the date and the hour, e.g. "
+                         f"'{first:%Y-%m-%d}T{ts:%H:%M}' (the series runs {first:%Y-%m-%d %H:%M} to "
+                         f"{pd.Timestamp(series.time[-1]):%Y-%m-%d %H:%M})")
     if not re.search(r"\d[T ]\d", at.strip()):  # a date alone would silently mean midnight
         raise InputError(None, "--at", f"'{at}' gives no hour; write e.g. '{ts:%Y-%m-%d}T10:00'")
     if ts.tzinfo is not None:
@@ -1005,7 +1010,8 @@ def _check_what_if(cfg: SiteConfig, w: WhatIf | None) -> None:
     units = {u.id for u in (*cfg.boilers, *cfg.turbogenerators)}
     for u in w.trip:
         if u not in units:
-            raise InputError(None, "--trip", f"'{u}' is not a boiler or turbo-generator")
+            raise InputError(None, "--trip", f"'{u}' is not a boiler or turbo-generator "
+                             f"({', '.join(x.id for x in (*cfg.boilers, *cfg.turbogenerators))})")
     fuels = {f.id for f in cfg.fuels}
     for f in w.fuel_price:
         if f not in fuels:

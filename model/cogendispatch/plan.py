@@ -79,6 +79,16 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
     }
 
 
+def file_digest(path: str | Path) -> str | None:
+    """SHA-256 of a file's bytes, hex (None when it cannot be read)."""
+    import hashlib
+
+    try:
+        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    except OSError:
+        return None
+
+
 def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | None = None,
              solve_options: SolveOptions = SolveOptions(), build_options: BuildOptions = BuildOptions(),
              progress: Callable[[str], None] | None = None, moisture_limit: float = MOISTURE_LIMIT,
@@ -117,6 +127,8 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     summary["verify"] = ver.summary()
     summary["series_notes"] = series.notes()  # values most likely in a wrong unit (Series.notes)
     summary["units"] = units  # of report.html, kept for `cogen report` to rebuild it alike
+    # what the files held when planned: advice on a file changed since says so
+    summary["site_sha256"], summary["series_sha256"] = file_digest(site_path), file_digest(series_path)
     say(f"verification: {ver.verdict}")
     say("pricing the practice baseline (merit-order boilers, fixed turbine throttles, normal drivers)")
     try:

@@ -145,6 +145,7 @@ class TurboGenerator(_Unit):
     initial_on: bool = True
     initial_hours: Hours = 1000.0
     available: bool = True
+    must_run: bool = False
     fixed_throttle: MassFlow | None = None  # set-point used by the rule-based baseline
 
     model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
