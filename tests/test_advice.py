@@ -973,3 +973,82 @@ def test_a_demand_change_needs_its_sign(capsys) -> None:  # noqa: ANN001
     series_path = site_path.with_name("saltmarsh_week.csv")
     rc = main(["advise", str(site_path), "--series", str(series_path), "--at", "2027-01-04T03:00", "--demand", "LP=5"])
     assert rc == 2 and "give the change with its sign, e.g. 'LP=+5'" in capsys.readouterr().err
+
+
+RAMP_SITE = """
+[site]
+name = "ramp test"
+currency = "EUR"
+[deaerator]
+pressure = "2 bar(a)"
+heating_steam = "LP"
+makeup_temperature = "20 degC"
+[grid]
+max_import = "50 MW"
+[reserve]
+enabled = false
+[[header]]
+id = "HP"
+pressure = "40 bar(a)"
+temperature = "400 degC"
+[[header]]
+id = "LP"
+pressure = "5 bar(a)"
+temperature = "180 degC"
+[[fuel]]
+id = "NG"
+price = "10 per GJ"
+[[boiler]]
+id = "B1"
+header = "HP"
+fuels = ["NG"]
+max_steam = "100 t/h"
+min_steam = "10 t/h"
+must_run = true
+ramp_down = "5 t/h"
+efficiency_curve = { load = [0.1, 1.0], efficiency = [0.9, 0.9] }
+[[boiler]]
+id = "B2"
+header = "HP"
+fuels = ["NG"]
+max_steam = "100 t/h"
+min_steam = "10 t/h"
+must_run = true
+ramp_up = "10 t/h"
+efficiency_curve = { load = [0.1, 1.0], efficiency = [0.8, 0.8] }
+[[letdown]]
+id = "LD"
+from = "HP"
+to = "LP"
+max_flow = "100 t/h"
+"""
+
+
+def test_a_trip_is_covered_only_as_fast_as_the_others_ramp(tmp_path) -> None:  # noqa: ANN001
+    """With a plan, the hour before is known: B2 (ramp up 10 t/h an hour) cannot take B1's
+    load within the hour B1 trips, so the LP header is short by what B2 cannot pick up;
+    the tripped B1 stops from its load, whatever its own ramp down. Without a plan, the
+    hour has no ramp history and B2 takes it all (the README says so)."""
+    import pandas as pd
+
+    from cogendispatch.plan import run_plan
+    from cogendispatch.plant.load import load_site
+    from cogendispatch.plant.series import load_series
+    from cogendispatch.solve import SolveOptions
+
+    site_file, ser_file = tmp_path / "site.toml", tmp_path / "s.csv"
+    site_file.write_text(RAMP_SITE)
+    ser_file.write_text("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n" + "".join(
+        f"2027-03-01T0{h}:00,0,50,5,100\n" for h in range(4)))
+    cfg = load_site(site_file)
+    ser = load_series(ser_file, cfg)
+    run_plan(site_file, ser_file, tmp_path / "plan", SolveOptions(time_limit=20, gap=1e-6))
+    planned = pd.read_csv(tmp_path / "plan" / "schedule.csv")
+    b2_before = float(planned["B2.steam_t_h"].iloc[1])
+    at = str(ser.time[2])
+    a = advise(cfg, ser, at, str(ser_file), str(tmp_path / "plan"), what_if=WhatIf(trip=["B1"]))
+    assert a.what_if["short"] is True
+    b2 = next(c for c in a.what_if["changes"] if c.startswith("boiler B2"))
+    assert float(b2.split("-> ")[1].split()[0]) == pytest.approx(b2_before + 10.0, abs=0.11)
+    free = advise(cfg, ser, at, str(ser_file), what_if=WhatIf(trip=["B1"]))
+    assert free.what_if["short"] is False

@@ -78,8 +78,8 @@ class HourModel:
     """One hour of the site, loaded once into HiGHS, re-solved under changes."""
 
     def __init__(self, cfg: SiteConfig, series: Series, index: int, held: dict[str, int],
-                 build: BuildOptions = BuildOptions()) -> None:
-        self.cfg = _hold_initial_states(cfg, held)
+                 build: BuildOptions = BuildOptions(), steam_before: dict[str, float] | None = None) -> None:
+        self.cfg = _hold_initial_states(cfg, held, steam_before)
         self.series1 = series.window(index, 1)
         # what-ifs change prices on the loaded model: import and export kept apart always
         self.sm: SiteModel = build_site_model(self.cfg, self.series1, replace(build, grid_exclusive=True))
@@ -101,6 +101,10 @@ class HourModel:
         # the model's own penalty term (site.py), linear in the slacks: (variable, price) pairs
         repn = generate_standard_repn(sum(term(0) for term in self.sm.ctx.cost_terms["penalty"]))
         self.penalty_terms = list(zip(repn.linear_vars, repn.linear_coefs))
+        # each boiler's ramp-down row of the hour: a trip stops a boiler from any load
+        self.stop_rows = {b.id: self.lm.opt._pyomo_con_to_solver_con_map[self.blocks[b.id].ramp_down[0]]
+                          for b in self.cfg.boilers if self.blocks[b.id].component("ramp_down") is not None
+                          and 0 in self.blocks[b.id].ramp_down}
         res = m.component("reserve")
         self.reserve_rows = np.array([] if res is None else [
             self.lm.opt._pyomo_con_to_solver_con_map[c] for c in res.values()], dtype=np.int32)
@@ -152,6 +156,8 @@ class HourModel:
         for uid, c in self.on_col.items():
             if uid in w.trip:
                 self._fix(c, 0.0)
+                if uid in self.stop_rows:  # a trip, not a planned ramp down
+                    self.h.changeRowBounds(self.stop_rows[uid], -highspy.kHighsInf, highspy.kHighsInf)
             elif hold == "all" or (hold == "on" and self.held[uid] == 1) or (hold == "off" and self.held[uid] == 0):
                 self._fix(c, float(self.held[uid]))
         for did, (lo, hi) in self.driver_limits.items():
@@ -261,11 +267,16 @@ class HourModel:
         return prices, power, x
 
 
-def _hold_initial_states(cfg: SiteConfig, held: dict[str, int]) -> SiteConfig:
-    """The site with each committed unit's initial state set to its held state, no ramp
-    history and free drivers: one hour seen on its own."""
+def _hold_initial_states(cfg: SiteConfig, held: dict[str, int],
+                         steam_before: dict[str, float] | None = None) -> SiteConfig:
+    """The site with each committed unit's initial state set to its held state and free
+    drivers: one hour seen on its own. A boiler running in the hour before and held on
+    keeps its ramp limits from its steam then (``steam_before`` [t/h]); the others have
+    no ramp history."""
+    before = steam_before or {}
     boilers = [b.model_copy(update={"initial_on": bool(held.get(b.id, b.initial_on)), "initial_hours": 1e6,
-                                    "initial_steam": None}) for b in cfg.boilers]
+                                    "initial_steam": before.get(b.id) if held.get(b.id) == 1 else None})
+               for b in cfg.boilers]
     tgs = [t.model_copy(update={"initial_on": bool(held.get(t.id, t.initial_on)), "initial_hours": 1e6})
            for t in cfg.turbogenerators]
     drives = [d.model_copy(update={"initial_on_steam": None}) for d in cfg.drives]
@@ -410,6 +421,26 @@ def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | Non
     drivers = {d.id: int(round(float(row[f"{d.id}.on_steam"]))) for d in cfg.drives if f"{d.id}.on_steam" in row}
     pos = int(idx.get_loc(t))  # the plan's own hour: it may have begun before the series
     return on, drivers, driver_history(cfg, pos, sched)
+
+
+def steam_before(cfg: SiteConfig, series: Series, index: int, plan_dir: str | None) -> dict[str, float]:
+    """Steam [t/h] of each boiler running in the hour before ``index``: from the plan's
+    schedule, or for the series' first hour from the site file's ``initial_steam``; empty
+    when neither says (the hour then has no ramp history)."""
+    if plan_dir is None:
+        if index != 0:
+            return {}
+        return {b.id: b.initial_steam for b in cfg.boilers if b.initial_on and b.initial_steam is not None}
+    sched = pd.read_csv(Path(plan_dir) / "schedule.csv", index_col="time", parse_dates=["time"])
+    t = series.time[index]
+    if getattr(sched.index, "tz", None) is not None and t.tzinfo is None:
+        t = t.tz_localize("UTC")
+    pos = int(sched.index.get_loc(t))  # held_states has found the hour in the plan
+    if pos == 0:
+        return steam_before(cfg, series, 0, None) if index == 0 else {}
+    row = sched.iloc[pos - 1]
+    return {b.id: float(row[f"{b.id}.steam_t_h"]) for b in cfg.boilers
+            if f"{b.id}.steam_t_h" in row and round(float(row[f"{b.id}.on"])) == 1}
 
 
 def valuer(lm: LoadedModel, x: np.ndarray) -> Callable[[object], float]:
@@ -895,7 +926,8 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     if allow_starts and what_if is not None and what_if.trip:
         raise InputError(None, "--allow-starts", "does not go with --trip: after a trip no other unit can "
                          "start within the hour")
-    hm = HourModel(cfg, series, i, held, build)
+    before = steam_before(cfg, series, i, plan_dir)
+    hm = HourModel(cfg, series, i, held, build, before)
     hm.driver_limits = {did: h.allowed() for did, h in history.items()}
     if keep_drivers:
         if plan_drivers is None:
@@ -932,7 +964,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
         if what_if.demand:
             # more (or less) process steam also returns more (or less) condensate to the
             # deaerator: the hour is built again on the changed demand, not just its rows
-            hw = HourModel(cfg, _with_demand(series, i, what_if.demand), i, held, build)
+            hw = HourModel(cfg, _with_demand(series, i, what_if.demand), i, held, build, before)
             hw.driver_limits = hm.driver_limits
             new = hw.solve(replace(what_if, demand={}), hold=hold)
         else:
