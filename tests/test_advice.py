@@ -1052,3 +1052,28 @@ def test_a_trip_is_covered_only_as_fast_as_the_others_ramp(tmp_path) -> None:  #
     assert float(b2.split("-> ")[1].split()[0]) == pytest.approx(b2_before + 10.0, abs=0.11)
     free = advise(cfg, ser, at, str(ser_file), what_if=WhatIf(trip=["B1"]))
     assert free.what_if["short"] is False
+
+
+def test_a_header_fed_only_at_its_limits_is_priced_through_the_letdown_below_it() -> None:
+    """MP gets a steam-only compressor's exhaust and HP-MP letdown held at its 2 t/h
+    minimum; what MP does not use goes on down the MP-LP letdown, and LP is set by the
+    back-pressure set's exhaust. MP's price is LP's carried back through the MP-LP
+    letdown (it read 'no single unit is marginal'), and LP names the set, not the letdown."""
+    from test_plan_small import THREE_HEADERS
+
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "80 t/h", "min_throttle": "5 t/h", "generator_rating": "20 MW",
+          "section": [{"to": "LP", "efficiency": 0.7}]}
+    drive = {"id": "C", "duty": "2 MW", "steam_turbine": {"inlet": "HP", "exhaust": "MP", "efficiency": 0.6}}
+    cfg = site(header=THREE_HEADERS, boiler=_boiler(), fuel=[{"id": "NG", "price": f"{FUEL} per GJ"}],
+               turbogenerator=[tg], drive=[drive],
+               letdown=[{"id": "LD-HM", "from": "HP", "to": "MP", "max_flow": "50 t/h", "min_flow": "2 t/h"},
+                        {"id": "LD-ML", "from": "MP", "to": "LP", "max_flow": "80 t/h"}])
+    ser = series(cfg, 1, demand_MP=5.0, demand_LP=80.0, price_import=100.0)
+    a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
+    assert a.reasons["LP"].startswith("LP: exhaust of TG")
+    assert a.reasons["MP"] == "MP: letdown LD-ML to LP (the LP price carried back through it)"
+    # carried back: one t/h more at MP is one less t/h let down, r t/h less at LP (less the
+    # r - 1 t/h of spray water it no longer takes): between the LP price and r times it
+    st = SiteStates.of(cfg)
+    r = (st.headers["MP"].h - st.h_feedwater) / (st.headers["LP"].h - st.h_feedwater)
+    assert a.prices["LP"] < a.prices["MP"] < r * a.prices["LP"]

@@ -486,27 +486,38 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
         for vt in cfg.vents:
             if reason is None and vt.header == hid and val(b[vt.id].flow[0]) > 1e-6:
                 reason = f"{hid}: surplus, vented through {vt.id}"
+        # boilers between their limits with fuel to burn: one inside a segment of its curve
+        # first (one sitting on a curve point has no single slope: the other moves)
+        marginal = [bo for bo in cfg.boilers
+                    if reason is None and bo.header == hid and val(b[bo.id].on[0]) > 0.5
+                    and free(b[bo.id].steam[0], bo.min_steam, bo.max_steam) and not all(fu in capped for fu in bo.fuels)]
+        for bo in sorted(marginal, key=lambda bo: any(abs(val(b[bo.id].steam[0]) - s) < 1e-6
+                                                      for s in b[bo.id].coefficients.steam)):
+            reason = f"{hid}: boiler {bo.id} on its efficiency curve"
+            break
         if reason is None:
-            for bo in cfg.boilers:
-                if bo.header == hid and val(b[bo.id].on[0]) > 0.5 and free(b[bo.id].steam[0], bo.min_steam, bo.max_steam):
-                    if all(fu in capped for fu in bo.fuels):  # between its limits, but no more fuel
-                        continue
-                    reason = f"{hid}: boiler {bo.id} on its efficiency curve"
+            for tg in cfg.turbogenerators:
+                if val(b[tg.id].on[0]) < 0.5 or val(b[tg.id].power[0]) >= tg.generator_rating - 1e-6:
+                    continue
+                co = b[tg.id].coefficients
+                for k, sec in enumerate(co.sections[:-1]):
+                    hi = sec.max_extraction if sec.max_extraction is not None else math.inf
+                    if sec.to == hid and free(b[tg.id].extraction[k, 0], sec.min_extraction, hi):
+                        reason = f"{hid}: extraction from {tg.id} (the inlet price less the power it makes)"
+                if reason is None and co.sections[-1].to == hid \
+                        and free(b[tg.id].throttle[0], tg.min_throttle, tg.max_throttle):
+                    reason = f"{hid}: exhaust of {tg.id} (the inlet price less the power it makes)"
+                if reason:
                     break
         if reason is None:
             for ld in cfg.letdowns:
                 if ld.to == hid and free(b[ld.id].flow[0], ld.min_flow, ld.max_flow):
                     reason = f"{hid}: letdown {ld.id} from {ld.source} (the {ld.source} price, spread over the desuperheated flow)"
                     break
-        if reason is None:
-            for tg in cfg.turbogenerators:
-                co = b[tg.id].coefficients
-                for k, sec in enumerate(co.sections[:-1]):
-                    if sec.to == hid and val(b[tg.id].on[0]) > 0.5 and val(b[tg.id].extraction[k, 0]) > 1e-6:
-                        reason = f"{hid}: extraction from {tg.id} (the inlet price less the power it makes)"
-                if reason is None and co.sections[-1].to == hid and val(b[tg.id].on[0]) > 0.5:
-                    reason = f"{hid}: exhaust of {tg.id} (the inlet price less the power it makes)"
-                if reason:
+        if reason is None:  # nothing into the header moves: a letdown out of it can
+            for ld in cfg.letdowns:
+                if ld.source == hid and free(b[ld.id].flow[0], ld.min_flow, ld.max_flow):
+                    reason = f"{hid}: letdown {ld.id} to {ld.to} (the {ld.to} price carried back through it)"
                     break
         at_supply = [bo.id for bo in cfg.boilers if bo.header == hid and val(b[bo.id].on[0]) > 0.5
                      and all(fu in capped for fu in bo.fuels)]
