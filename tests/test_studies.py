@@ -494,3 +494,28 @@ def test_each_machine_of_a_spared_pair_carries_its_own_time_since_a_change() -> 
     assert site(drive=[{**drive, "initial_hours_since_switch": ["30 h", "2 h"]}]).drives[0].hours_since_switch(1) == 2.0
     with pytest.raises(InputError, match="initial_hours_since_switch.*3 figures for 2 machine"):
         site(drive=[{**drive, "initial_hours_since_switch": ["30 h", "2 h", "1 h"]}])
+
+
+def test_the_window_after_an_outage_is_not_a_copy_of_the_outage_week(monkeypatch: pytest.MonkeyPatch) -> None:
+    """A window started from the week before solves again from its own LP relaxation when an
+    outage sets the two apart (the outage week's dispatch, copied hour for hour into a
+    normal week, cost a trial's study 2 % in a week with no outage)."""
+    import cogendispatch.studies as st
+
+    calls: list[bool] = []
+    real = st._second_opinion
+
+    def spy(lm, rep, options):  # noqa: ANN001, ANN202
+        calls.append(True)
+        return real(lm, rep, options)
+
+    monkeypatch.setattr(st, "_second_opinion", spy)
+    monkeypatch.setattr(st, "COLD_MIN", 2.0)
+    cfg = _site()
+    ser = series(cfg, 72, demand_LP=60.0)
+    rolling_horizon(cfg, PreparedScenario("o", ser, (("B2", 5, 20),)), FAST, window=24, lookahead=6)
+    # window 1 has the outage (no hint: cold); window 2 follows it; window 3 neither
+    assert len(calls) == 1
+    calls.clear()
+    rolling_horizon(cfg, PreparedScenario("base", ser, ()), FAST, window=24, lookahead=6)
+    assert not calls  # no outage, no shortfall: the week before is kept as the guess

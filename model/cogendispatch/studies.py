@@ -345,6 +345,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     cur = cfg
     models = WindowModels(options.threads)
     last_lm, last_x = None, None
+    last_outs: tuple[tuple[str, int, int], ...] = ()
     for w, s0 in enumerate(starts):
         length = min(window + lookahead, n - s0)
         keep = min(window, n - s0)
@@ -374,14 +375,17 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
                 rep = lm.solve_mip(o, hint=hint)
                 if not rep.has_solution:
                     raise SolveError(f"HiGHS stopped ({rep.status}) without any schedule")
-                if hint is not None and _short(lm):
+                # the week before is a poor guess where it left demand unmet, or where an
+                # outage sets this window or the one before apart: its odd week (a unit out,
+                # the others carrying it) would otherwise be copied into a normal one
+                if hint is not None and (_short(lm) or outs or last_outs):
                     rep = _second_opinion(lm, rep, replace(options, time_limit=max(COLD_MIN, options.time_limit)))
                 break
             except (SolveError, RuntimeError) as exc:  # retried once, then reported
                 last_err = exc
         else:
             raise SolveError(f"scenario '{ps.name}': window {ser.time[0]} to {ser.time[-1]} failed twice: {last_err}")
-        last_lm, last_x = lm, lm.schedule
+        last_lm, last_x, last_outs = lm, lm.schedule, outs
         # the schedule and costs only: a study writes no balances
         schedule, hourly = schedule_frame(sm), cost_frame(sm)
         diagnosis += diagnose(sm, keep, first=s0)
@@ -425,6 +429,7 @@ def _second_opinion(lm: LoadedModel, rep: SolveReport, options: SolveOptions) ->
     its own LP relaxation: the week before may have had a unit out that is back now. The
     cheaper of the two schedules is kept (and loaded into the model)."""
     first = lm.schedule
+    lm.refresh()  # the first solve's reserve rows: the second adds its own
     again = lm.solve_mip(options)
     if again.has_solution and again.objective < rep.objective:
         again.seconds["solve"] += rep.seconds["solve"] + rep.seconds.get("start", 0.0)
