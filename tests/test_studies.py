@@ -519,3 +519,16 @@ def test_the_window_after_an_outage_is_not_a_copy_of_the_outage_week(monkeypatch
     calls.clear()
     rolling_horizon(cfg, PreparedScenario("base", ser, ()), FAST, window=24, lookahead=6)
     assert not calls  # no outage, no shortfall: the week before is kept as the guess
+
+
+def test_a_scenario_price_beyond_any_market_gets_the_series_note(tmp_path) -> None:  # noqa: ANN001
+    """multiply = 120 (a per cent meant) makes gas 1 200 per GJ: the note the base series
+    would get above 500 per GJ (Series.notes, common practice) is given for the scenario."""
+    cfg = _site()
+    base = series(cfg, 24, demand_LP=50.0)
+    ps = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "gas"\nfuel.NG = { multiply = 120 }\n'),
+                        cfg, base)[0]
+    assert any("('gas')" in n and "the price of fuel NG reaches 1,200 per GJ" in n for n in ps.notes)
+    ok = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "gas"\nfuel.NG = { multiply = 1.2 }\n'),
+                        cfg, base)[0]
+    assert not ok.notes

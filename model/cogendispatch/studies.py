@@ -234,6 +234,10 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
     load = s.load * sc.load if sc.load is not None else s.load
     ser = Series(time=s.time, demand=demand, load=load, price_import=imp, price_export=exp,
                  fuel_price=fuel_price, co2_price=co2, duty=s.duty, source=s.source, wall=s.wall)
+    # the base series' plausibility notes, for the prices and load the scenario made: a
+    # factor given as a per cent (multiply = 120) reads a hundred times too high
+    said = set(base.notes())
+    notes += [f"{path}: {here}: {n.split(': ', 1)[-1]}" for n in ser.notes() if n not in said]
     return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes))
 
 
