@@ -154,12 +154,25 @@ def test_a_failing_helper_leaves_highs_to_finish_alone(case, optimum, monkeypatc
         raise RuntimeError("no start today")
 
     monkeypatch.setattr(LoadedModel, "rounding_start", broken)
-    said: list[str] = []
     lm = LoadedModel(build_site_model(*case))
-    rep = lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60, threads=2), progress=said.append)
+    rep = lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60, threads=2))  # no progress: --quiet
     assert rep.status == "optimal" and rep.found_by == "HiGHS"
     assert rep.objective == pytest.approx(optimum, rel=1e-7)
-    assert any("helper search stopped early (RuntimeError: no start today)" in s for s in said)
+    # said in the report (summary.json's solver_notes, standard error) with or without progress
+    assert any("helper search stopped early (RuntimeError: no start today)" in s for s in rep.notes)
+
+
+def test_a_progress_callback_that_raises_does_not_end_the_search(case, optimum) -> None:
+    """A progress line that cannot be written (stderr piped into a closed `head`) raised
+    inside HiGHS's callback, which ended the run as an error and lost the schedule."""
+    def broken(msg: str) -> None:
+        if msg.startswith("solving:"):
+            raise BrokenPipeError("stderr closed")
+
+    lm = LoadedModel(build_site_model(*case))
+    rep = lm.solve_mip(SolveOptions(gap=1e-9, time_limit=60, threads=1, warm_start=False), progress=broken)
+    assert rep.has_solution and rep.objective == pytest.approx(optimum, rel=1e-7)
+    assert any("progress callback failed (BrokenPipeError: stderr closed)" in n for n in rep.notes)
 
 
 @pytest.mark.parametrize("threads", [1, 2])

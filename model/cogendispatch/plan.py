@@ -52,6 +52,7 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
         "start_objective": run_report.start_objective,
         "found_by": run_report.found_by,
         "settle_change": run_report.settle_change,
+        "solver_notes": run_report.notes,
         "currency": cfg.site.currency,
         "cost": t["cost"],
         "cost_total": float(sum(t["cost"].values())),
@@ -114,6 +115,8 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     lm, rep = solve_loaded(sm, solve_options, progress=say)
     rep.seconds["read"] = read_s
     say(f"{rep.status}: cost {rep.objective:,.0f}, gap {100 * rep.gap:.3f} %")
+    for note in rep.notes:  # said even with --quiet: the run went otherwise than it should
+        (on_note or say)(note)
     res = plan_results(sm)
     say("pricing steam and power hour by hour (the LP around the schedule)")
     t1 = time.perf_counter()

@@ -126,6 +126,9 @@ class SolveReport:
     # [currency] objective change of settle_shortfalls (new less old; None: not settled).
     # Positive: a dearer schedule, within the gap, taken to meet demand and reserve
     settle_change: float | None = None
+    # what went wrong beside the search without stopping it (the helper failed, a callback
+    # raised): said in summary.json and on standard error, --quiet or not
+    notes: list[str] = field(default_factory=list)
 
     @property
     def has_solution(self) -> bool:
@@ -172,11 +175,16 @@ def _on_ctrl_c(signum: int, frame: object) -> None:
     back, and a user pressing again does not want to wait for them. Nothing is being
     written while HiGHS runs, so nothing is left half-written."""
     if _INTERRUPTED.is_set():
-        if multiprocessing.parent_process() is None:  # a study's workers go quietly
-            sys.stderr.write("\ncogen: stopped at once (second Ctrl-C); nothing written\n")
-            sys.stderr.flush()
-        os._exit(130)
+        _exit_at_once()
     _INTERRUPTED.set()
+
+
+def _exit_at_once() -> None:
+    """End the process with exit code 130 after a second Ctrl-C, saying so."""
+    if multiprocessing.parent_process() is None:  # a study's workers go quietly
+        sys.stderr.write("\ncogen: stopped at once (second Ctrl-C); nothing written\n")
+        sys.stderr.flush()
+    os._exit(130)
 
 
 @contextlib.contextmanager
@@ -258,6 +266,7 @@ class LoadedModel:
         self.stop: threading.Event | None = None  # set: every run of this instance stops soon
         self.last_callback = time.perf_counter()  # [perf_counter s] of HiGHS's last call back
         self._mip_cb: Callable[..., None] | None = None  # a plan's MIP callback (_callbacks)
+        self.callback_error: str | None = None  # what stopped the plan's MIP callback, if anything
         self._listen()
         self.load_seconds = time.perf_counter() - t0
 
@@ -288,7 +297,14 @@ class LoadedModel:
             if data_in.user_interrupt:
                 return
         if self._mip_cb is not None and callback_type in _MIP_CALLBACKS:
-            self._mip_cb(callback_type, message, data_out, data_in, user_data)
+            try:
+                self._mip_cb(callback_type, message, data_out, data_in, user_data)
+            except Exception as exc:  # noqa: BLE001
+                # an exception raised into HiGHS ends its run as an error and is lost (a
+                # progress line on a closed pipe, say): the search goes on without that
+                # callback, and the plan says so
+                self.callback_error = f"{type(exc).__name__}: {exc}"
+                self._mip_cb = None
 
     def spare(self) -> "LoadedModel":
         """A copy of this loaded model (rows added so far included) in a HiGHS instance of
@@ -825,13 +841,21 @@ class LoadedModel:
                 try:
                     helper.join(0.5)
                 except KeyboardInterrupt:  # the helper stops at its next callback: wait for it
+                    if interrupted:  # a second Ctrl-C: at once, as during HiGHS's own run
+                        _exit_at_once()
                     interrupted = True
             self._stop_callbacks()
             self._set_options(kept)
         if interrupted:  # Ctrl-C while waiting for the helper still stops the plan
             raise KeyboardInterrupt
-        if best.error and progress:
-            progress(f"the helper search stopped early ({best.error}); HiGHS went on alone")
+        notes = []
+        if best.error:
+            notes.append(f"the helper search stopped early ({best.error}); HiGHS went on alone, without "
+                         "its own heuristics, so the schedule may be poorer than usual")
+        if self.callback_error:
+            notes.append(f"the search's progress callback failed ({self.callback_error}); the search went on "
+                         "without it")
+            self.callback_error = None
         secs["solve"] = time.perf_counter() - t1
         status = _STATUS.get(self.h.getModelStatus(), str(self.h.getModelStatus()).split(".")[-1])
         info = self.h.getInfo()
@@ -883,7 +907,7 @@ class LoadedModel:
         secs["total"] = sum(secs[k] for k in ("build", "load", "strengthen", "start", "solve"))
         return SolveReport(status=status, objective=obj, bound=bound, gap=gap, seconds=secs,
                            start_objective=start_obj, found_by=found_by if has else "",
-                           settle_change=settle_change)
+                           settle_change=settle_change, notes=notes)
 
     def _start_before(self, options: SolveOptions, t0: float, hint: Callable[[int], int] | None,
                       progress: Progress | None) -> tuple[np.ndarray | None, float | None]:
