@@ -326,7 +326,10 @@ def test_a_window_without_a_bound_leaves_the_gap_unproven() -> None:
                      + [f"{t.id}.on" for t in cfg.turbogenerators] + ["P1.on_steam"])
     c = pd.DataFrame({"fuel": [1.0, 1.0]}, index=ser.time)
     win = [WindowReport("a", "b", 0.1, 1.0, "time limit", 0.004, 1), WindowReport("c", "d", 0.1, 1.0, "time limit", None, 1)]
-    assert np.isnan(summarise(cfg, ScenarioResult("x", s, c, 0, win)).largest_window_gap.iloc[0])
+    row = summarise(cfg, ScenarioResult("x", s, c, 0, win)).iloc[0]
+    assert np.isnan(row.largest_window_gap)
+    # what the proven windows proved is kept beside it
+    assert (row.windows_proven, row.windows) == (1, 2) and row.largest_proven_window_gap == pytest.approx(0.004)
     win[1] = WindowReport("c", "d", 0.1, 1.0, "optimal", 0.001, 1)
     assert summarise(cfg, ScenarioResult("x", s, c, 0, win)).largest_window_gap.iloc[0] == pytest.approx(0.004)
     from cogendispatch.studies import proven_gap

@@ -197,7 +197,13 @@ def study_report(d: Path, units: Units = Units()) -> str:
     if "fuel_GJ" in tab:
         tab["fuel_GJ"] = tab["fuel_GJ"] * units.ke
     if "largest_window_gap" in tab:
-        tab["largest_window_gap"] = 100.0 * tab["largest_window_gap"]
+        # a number where every window proved one, words where some did not (not "nan")
+        tab["largest_window_gap"] = [
+            f"{100 * g:.2f}" if g == g else
+            f"none proven in {int(r.windows - r.windows_proven)} of {int(r.windows)}"
+            + (f" (others {100 * r.largest_proven_window_gap:.2f})" if r.windows_proven else "")
+            if "windows" in table else "none proven"
+            for g, (_, r) in zip(table["largest_window_gap"], table.iterrows())]
     # one style of heading, with the unit in brackets, as the page's other tables
     tab = tab.rename(columns={"cost_total": f"cost [{cur}]", "cost_penalty": f"of it penalty [{cur}]",
                               "cost_total_without_penalty": f"cost without penalty [{cur}]",
@@ -208,7 +214,8 @@ def study_report(d: Path, units: Units = Units()) -> str:
     body.append("<h2>Totals</h2>" + _table(tab)
                 + "<p class='meta'>Largest window gap: how far the weakest window's search stayed from its "
                   "proven bound; cost differences smaller than it are within the search's tolerance "
-                  "(empty: a window ended with no bound).</p>")
+                  "(none proven: a window ended with no bound, which a window started from the week "
+                  "before often does within a short limit).</p>")
     short = {k: v for k, v in (s.get("diagnosis") or {}).items() if v}
     if short:
         items = "".join(f"<li><b>{escape(k)}</b><ul>" + "".join(f"<li>{escape(x)}</li>" for x in v) + "</ul></li>"
