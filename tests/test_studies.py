@@ -250,6 +250,9 @@ def test_cli_study_writes_the_outputs(tmp_path, capsys, monkeypatch) -> None:  #
     assert table.cost_import_EUR.iloc[1] < table.cost_import_EUR.iloc[0]  # money columns name the currency
     assert [c for c in table.columns if c.startswith("cost_") and not c.endswith("_EUR")] == []
     assert (table.largest_window_gap >= 0).all() and (table.largest_window_gap < 0.05).all()
+    assert (table.windows_proven == table.windows).all()
+    # every start is counted: cost_startup is boilers' and turbo-generators' start-up costs
+    assert {"boiler_starts", "turbogenerator_starts"} <= set(table.columns)
     # driver hours only for machines with a choice (the demo's WGC is steam-only, FANS motor-only)
     on_steam = {c.removesuffix(".machine_hours_on_steam_h") for c in table.columns
                 if c.endswith(".machine_hours_on_steam_h")}

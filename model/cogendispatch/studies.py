@@ -476,6 +476,9 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
     frame["export_MWh"] = s["grid.export_MW"]
     frame["co2_t"] = sum(frame[f"fuel_{f}_GJ"] * factors[f] for f in fuel_cols)
     frame["boiler_starts"] = sum(s[f"{b.id}.start"] for b in cfg.boilers)
+    # cost_startup counts these too
+    frame["turbogenerator_starts"] = sum((s[f"{t.id}.start"] for t in cfg.turbogenerators
+                                          if f"{t.id}.start" in s), start=pd.Series(0.0, index=s.index))
     for u in (*cfg.boilers, *cfg.turbogenerators):
         frame[f"{u.id}.hours_on_h"] = s[f"{u.id}.on"]  # named as the schedule's columns: unit.quantity_unit
     for d in cfg.drives:
