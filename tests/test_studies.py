@@ -538,3 +538,12 @@ def test_a_scenario_price_beyond_any_market_gets_the_series_note(tmp_path) -> No
     ok = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "gas"\nfuel.NG = { multiply = 1.2 }\n'),
                         cfg, base)[0]
     assert not ok.notes
+
+
+def test_a_short_price_file_says_which_hours_it_lacks(tmp_path) -> None:  # noqa: ANN001
+    cfg = _site()
+    base = series(cfg, 24, demand_LP=50.0)
+    (tmp_path / "p.csv").write_text("time,price:import [per MWh]\n" + "".join(
+        f"{t},{100 + k}\n" for k, t in enumerate(pd.date_range("2027-03-01", periods=20, freq="h"))))
+    with pytest.raises(InputError, match=r"4 hour\(s\) of the series missing, the first 2027-03-01 20:00"):
+        load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "a"\nprices = "p.csv"\n'), cfg, base)

@@ -184,7 +184,12 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
             notes.append(f"{here} > prices: {p.name} also has {', '.join(others)}, left out (a price file "
                          "replaces price columns only; demand and load change with 'demand' and 'load')")
         if len(repl.time) != len(base.time) or (repl.time != base.time).any():
-            raise InputError(path, here + " > prices", f"{p} does not cover the same hours as the base series")
+            missing, extra = base.time.difference(repl.time), repl.time.difference(base.time)
+            what = "; ".join(part for part in (
+                f"{len(missing)} hour(s) of the series missing, the first {missing[0]}" if len(missing) else "",
+                f"{len(extra)} hour(s) not in the series, the first {extra[0]}" if len(extra) else "") if part)
+            raise InputError(path, here + " > prices", f"{p} does not cover the same hours as the base series"
+                             + (f": {what}" if what else ""))
 
         def kept(new: pd.Series, old: pd.Series) -> pd.Series:  # a column the file leaves out keeps the base's
             return old if new.isna().all() else pd.Series(new.to_numpy(), index=old.index)
