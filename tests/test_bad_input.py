@@ -533,6 +533,21 @@ def _snapshot(folder: Path) -> dict[str, tuple[bytes, int]]:
             for p in sorted(folder.rglob("*"))}
 
 
+def test_a_folder_with_someone_elses_summary_is_not_taken_for_a_plan(demo_site: Path, demo_series: Path,
+                                                                     tmp_path: Path,
+                                                                     capsys: pytest.CaptureFixture[str]) -> None:
+    """A summary.json of another program (no kind, no list of files, not our note) made the
+    folder read as a plan, and the plan replaced the user's summary.json and schedule.csv."""
+    out = tmp_path / "mine"
+    out.mkdir()
+    (out / "summary.json").write_text('{"experiment": "mine"}')
+    (out / "schedule.csv").write_text("my,data\n")
+    before = _snapshot(out)
+    rc = main(["plan", str(demo_site), "--series", str(demo_series), "--out", str(out), "--time-limit", "1"])
+    assert rc == 2 and "does not hold cogendispatch results" in capsys.readouterr().err
+    assert _snapshot(out) == before
+
+
 def test_foreign_out_folder_is_refused(demo_site: Path, demo_series: Path, tmp_path: Path,
                                        capsys: pytest.CaptureFixture[str]) -> None:
     out = tmp_path / "results"

@@ -476,3 +476,45 @@ def test_a_second_ctrl_c_ends_a_run_that_does_not_call_back(tmp_path: Path) -> N
         proc.kill()
     assert rc == 130 and time.perf_counter() - t0 < 2.0
     assert "stopped at once (second Ctrl-C); nothing written" in proc.stderr.read()
+
+
+def test_a_stop_between_the_two_renames_puts_the_old_folder_back(tmp_path, monkeypatch) -> None:  # noqa: ANN001
+    """The old folder is moved aside, then the new one into its place: a Ctrl-C between
+    the two left no folder at all (the old one stranded under a hidden name)."""
+    from cogendispatch import outputs
+
+    out = outputs.atomic_dir(tmp_path / "p", lambda d: (d / "summary.json").write_text('{"kind": "plan", "v": 1}'))
+    real = os.replace
+    calls = []
+
+    def second_fails(a, b):  # noqa: ANN001, ANN202
+        calls.append((a, b))
+        if len(calls) == 2:
+            raise KeyboardInterrupt
+        return real(a, b)
+
+    monkeypatch.setattr(outputs.os, "replace", second_fails)
+    with pytest.raises(KeyboardInterrupt):
+        outputs.atomic_dir(out, lambda d: (d / "summary.json").write_text('{"kind": "plan", "v": 2}'))
+    monkeypatch.setattr(outputs.os, "replace", real)
+    assert '"v": 1' in (out / "summary.json").read_text()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["p"]  # nothing stranded beside it
+
+
+def test_an_interrupted_report_leaves_no_temporary_file(tmp_path, monkeypatch) -> None:  # noqa: ANN001
+    """A Ctrl-C while the workbook is written left '.report.html.tmp' in the plan folder,
+    which then refused the next plan as a file cogendispatch did not write."""
+    import cogendispatch.report as rep
+    from cogendispatch.cli import main
+
+    site, ser = _files(tmp_path)
+    out = tmp_path / "plan"
+    assert main(["plan", str(site), "--series", str(ser), "--out", str(out), "--quiet"]) == 0
+
+    def stopped(d, path):  # noqa: ANN001, ANN202
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(rep, "write_plan_xlsx", stopped)
+    with pytest.raises(KeyboardInterrupt):
+        rep.write_reports(out)
+    assert not any(p.name.endswith(".tmp") for p in out.iterdir())

@@ -27,7 +27,14 @@ def output_kind(d: Path) -> str | None:
         summary = json.loads((d / MARKER).read_text(encoding="utf-8"))
     except (OSError, ValueError):
         return None
-    return str(summary.get("kind", "plan")) if isinstance(summary, dict) else None
+    if not isinstance(summary, dict):
+        return None
+    if "kind" in summary:
+        return str(summary["kind"])
+    # a plan's summary names no kind: it is ours by the list of files the run wrote or by
+    # the advice-only note every plan carries; anyone's summary.json is not a plan
+    ours = (d / MANIFEST).is_file() or str(summary.get("note", "")).startswith("Advice only: cogendispatch")
+    return "plan" if ours else None
 
 
 # what each kind of output folder holds, in the messages about it
@@ -129,20 +136,22 @@ def atomic_dir(out: str | Path, write: Callable[[Path], None], kind: str = "plan
     mask = os.umask(0)
     os.umask(mask)
     tmp.chmod(0o777 & ~mask)
+    old: Path | None = None
     try:
         write(tmp)
         (tmp / MANIFEST).write_text(json.dumps({"files": _files(tmp)}), encoding="utf-8")
-        old = None
         if out.exists():
             old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
             os.rmdir(old)
             os.replace(out, old)
         os.replace(tmp, out)
-        if old is not None and _carry_over(old, out):
-            shutil.rmtree(old, ignore_errors=True)
     except BaseException:
+        if old is not None and old.exists() and not out.exists():  # stopped between the renames
+            os.replace(old, out)
         shutil.rmtree(tmp, ignore_errors=True)
         raise
+    if old is not None and _carry_over(old, out):
+        shutil.rmtree(old, ignore_errors=True)
     return out
 
 

@@ -35,6 +35,10 @@ def write_reports(d: Path, units: str = "si") -> list[Path]:
         tmpx.unlink(missing_ok=True)
         raise InputError(d, "", f"cannot build the report from this {kind} folder ({type(exc).__name__}: {exc}); "
                          f"its files are incomplete or were edited: run {kind} again") from None
+    except BaseException:  # Ctrl-C, say: no half-written file is left to block a later run
+        tmp.unlink(missing_ok=True)
+        tmpx.unlink(missing_ok=True)
+        raise
     tmp.replace(d / "report.html")
     tmpx.replace(xlsx)
     return [d / "report.html", xlsx]
