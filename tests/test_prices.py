@@ -69,3 +69,16 @@ def test_a_price_set_by_the_reserve_penalty_says_so() -> None:
     pr = hourly_prices(lm, lm.schedule)
     lp = pr[pr.balance == "LP"]
     assert (lp.set_by == "reserve penalty").all() and (lp.price > 5000).all()
+
+
+def test_a_price_a_shortfall_sets_through_a_letdown_says_so() -> None:
+    """The 100 t/h boiler cannot carry 90 t/h of HP and 30 of LP: LP goes short (where a
+    missing tonne is priced least, site.shortfall_prices), and one more t/h at HP takes
+    steam from the letdown to LP, so HP's price is the shortfall penalty's too, though HP
+    has no slack of its own: named "penalty elsewhere", never "cost"."""
+    cfg = site()
+    sm = build_site_model(cfg, series(cfg, 1, demand_HP=90.0, demand_LP=30.0))
+    lm, _ = solve_loaded(sm, SolveOptions(gap=1e-9, time_limit=60))
+    pr = hourly_prices(lm, lm.schedule).set_index("balance")
+    assert pr.loc["LP", "set_by"] == "shortfall penalty"
+    assert abs(pr.loc["HP", "price"]) > 0.5e6 and pr.loc["HP", "set_by"] == "penalty elsewhere"

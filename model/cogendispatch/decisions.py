@@ -624,7 +624,9 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         elif other is not None:
             notes.append(f"the answer also changes at {other:,.1f} {cur}/MWh of import, "
                          f"{'above' if other > p0 else 'below'} the hour's {p0:,.1f}")
-        penalised = [f"{b} price set by the {why}" for b in (d.steam_turbine.inlet, d.steam_turbine.exhaust, "power")
+        penalised = [f"{b} price set by " + ("a penalty of another header or hour" if why == "penalty elsewhere"
+                                             else f"the {why}")
+                     for b in (d.steam_turbine.inlet, d.steam_turbine.exhaust, "power")
                      if (why := (price_set_by or {}).get(b, "cost")) != "cost"]
         if est is not None and penalised:
             est = None
@@ -954,7 +956,8 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     m = hm.sm.model
 
     val = valuer(hm.lm, x)
-    categories = {b: set_by(m, val, b, 0) for b in [*reasons, "power"]}
+    categories = {b: set_by(m, val, b, 0, power_price if b == "power" else prices.get(b), cfg.penalties)
+                  for b in [*reasons, "power"]}
     # the reserve is one for the site, though each header's price carries it: named once
     not_met = [reasons[h] for h, v in base.short.items() if v > TOL] + \
         ([pw_reason] if base.power_short > TOL else []) + \

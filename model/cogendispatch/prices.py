@@ -24,19 +24,39 @@ import pandas as pd
 import pyomo.environ as pyo
 
 if TYPE_CHECKING:
+    from .plant.schema import Penalties
     from .solve import LoadedModel
 
 
-def set_by(m: pyo.ConcreteModel, val: Callable[[pyo.Var], float], balance: str, t: int) -> str:
+# a price this share of a penalty or more is the penalty's, reached through another
+# header or hour (a letdown, a ramp limit), not a cost: steam at 5 000 per t or power at
+# 50 000 per MWh (with the default penalties) is far beyond any fuel or market price
+PENALTY_SHARE = 0.5
+
+
+def set_by(m: pyo.ConcreteModel, val: Callable[[pyo.Var], float], balance: str, t: int,
+           price: float | None = None, penalties: Penalties | None = None) -> str:
     """What sets the price of ``balance`` (a header id or "power") in hour ``t``: "cost", or
-    the penalty it carries ("shortfall penalty", "surplus penalty", "reserve penalty"), when
-    it is no cost of steam or power. ``val`` gives a variable's value in the schedule."""
+    the penalty it carries ("shortfall penalty", "surplus penalty", "reserve penalty", or
+    "penalty elsewhere": another header's or hour's, through a letdown or a ramp limit),
+    when it is no cost of steam or power. ``val`` gives a variable's value in the schedule;
+    with the hour's ``price`` and the site's ``penalties``, a price of the size of a penalty
+    is named so even where this balance's own slacks are idle."""
     short, surplus = (m.power_short[t], m.power_surplus[t]) if balance == "power" else \
         (m.steam_short[balance, t], m.steam_surplus[balance, t])
     if val(short) > 1e-6:
         return "shortfall penalty"
     if val(surplus) > 1e-6:
         return "surplus penalty"
+    if price is not None and penalties is not None:
+        # the least penalty that can price this balance: a steam shortfall or surplus (and,
+        # a tenth of it, the reserve) for a header; for power, a tenth of its own
+        worst = min(penalties.steam_shortfall, penalties.steam_surplus) if balance != "power" else \
+            0.1 * min(penalties.power_shortfall, penalties.power_surplus)
+        if abs(price) >= PENALTY_SHARE * worst:
+            return "penalty elsewhere"
+        if balance != "power" and abs(price) >= PENALTY_SHARE * penalties.reserve_shortfall:
+            return "reserve penalty" if m.component("reserve") is not None else "penalty elsewhere"
     reserve = m.component("reserve_short")
     if reserve is not None and val(reserve[t]) > 1e-6:
         # power bought or sold between the grid's limits is priced by the grid, and a header
@@ -88,7 +108,9 @@ def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> p
         c = lm.col(var)
         return float(var.value or 0.0) if c is None else float(x[c])
 
-    out = [{"time": time[t], "balance": b, "price": float(dual[r]) if r is not None else float("nan"),
-            "unit": f"{cur}/MWh" if b == "power" else f"{cur}/t", "set_by": set_by(m, val, b, t)}
+    pen = sm.ctx.cfg.penalties
+    out = [{"time": time[t], "balance": b, "price": (p := float(dual[r]) if r is not None else float("nan")),
+            "unit": f"{cur}/MWh" if b == "power" else f"{cur}/t",
+            "set_by": set_by(m, val, b, t, p if r is not None else None, pen)}
            for (b, t), r in rows.items()]
     return pd.DataFrame(out).sort_values(["time", "balance"], kind="stable").reset_index(drop=True)
