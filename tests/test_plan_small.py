@@ -556,3 +556,17 @@ def test_a_turbo_generator_may_be_must_run():
     held = site(turbogenerator=[{**tg, "must_run": True}])
     _, _, res = run(held, series(held, 3, demand_LP=30.0, price_import=1.0))
     assert (res.schedule["TG.on"] == 1).all()
+
+
+def test_a_diagnosis_gives_the_sites_clock():
+    """A series written with its UTC offset is held in UTC; the diagnosis names the hour as
+    the file wrote it (05:00 at +01:00), not as UTC (04:00)."""
+    import pandas as pd
+
+    from cogendispatch.plant.series import parse_series
+    cfg = site()
+    raw = pd.DataFrame({"time": [f"2027-03-01T0{h}:00+01:00" for h in range(6)], "demand:HP [t/h]": "0",
+                        "demand:LP [t/h]": ["20", "20", "20", "20", "20", "150"], "load [MW]": "5",
+                        "price:import [per MWh]": "100"})
+    _, rep, res = run(cfg, parse_series(raw, cfg, "<offsets>"))
+    assert any("hour 5 (2027-03-01 05:00)" in d for d in res.diagnosis), res.diagnosis

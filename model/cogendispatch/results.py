@@ -234,7 +234,7 @@ def diagnose(sm: SiteModel, upto: int | None = None, first: int = 0) -> list[str
     when given (a rolling window's committed part). Hours are numbered from ``first``
     (a window's first hour in the whole series), as the user counts them."""
     m, ctx = sm.model, sm.ctx
-    hours, time = ctx.hours[:upto], ctx.series.time
+    hours, time = ctx.hours[:upto], ctx.series.wall_time  # the site's clock, as the file writes it
     msgs = []
 
     def report(values: np.ndarray, what: str, unit: str, hint: str, limits: bool = False,
