@@ -106,6 +106,7 @@ def test_a_marginal_estimate_from_penalty_prices_is_left_out_and_said_why() -> N
     assert "LP price set by the shortfall penalty" in row.note and "marginal estimate left out" in row.note
     # HP's price too: its feedwater wants deaerator steam from the short LP header
     assert a.set_by["HP"] == "penalty elsewhere" and "HP price set by a penalty of another header or hour" in row.note
+    assert "the price carries the penalty of a shortfall or surplus elsewhere" in a.reasons["HP"]
     assert np.isfinite(row.cost_on_steam) and np.isfinite(row.cost_on_motor)
     # the same hour within the boiler's rating keeps its estimate and has no note
     ok = advise(cfg, series(cfg, 1, demand_HP=D_HP, demand_LP=D_LP, price_import=100.0), str(ser.time[0]), "<tiny>")

@@ -958,6 +958,14 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     val = valuer(hm.lm, x)
     categories = {b: set_by(m, val, b, 0, power_price if b == "power" else prices.get(b), cfg.penalties)
                   for b in [*reasons, "power"]}
+    for b, why in categories.items():
+        if why == "penalty elsewhere":  # the unit named moves, but a shortfall elsewhere prices it
+            note = ("; the price carries the penalty of a shortfall or surplus elsewhere (another header, "
+                    "through a letdown or the deaerator's steam), not a cost")
+            if b == "power":
+                pw_reason += note
+            else:
+                reasons[b] += note
     # the reserve is one for the site, though each header's price carries it: named once
     not_met = [reasons[h] for h, v in base.short.items() if v > TOL] + \
         ([pw_reason] if base.power_short > TOL else []) + \
