@@ -978,53 +978,18 @@ def test_a_demand_change_needs_its_sign(capsys) -> None:  # noqa: ANN001
     assert rc == 2 and "give the change with its sign, e.g. 'LP=+5'" in capsys.readouterr().err
 
 
-RAMP_SITE = """
-[site]
-name = "ramp test"
-currency = "EUR"
-[deaerator]
-pressure = "2 bar(a)"
-heating_steam = "LP"
-makeup_temperature = "20 degC"
-[grid]
-max_import = "50 MW"
-[reserve]
-enabled = false
-[[header]]
-id = "HP"
-pressure = "40 bar(a)"
-temperature = "400 degC"
-[[header]]
-id = "LP"
-pressure = "5 bar(a)"
-temperature = "180 degC"
-[[fuel]]
-id = "NG"
-price = "10 per GJ"
-[[boiler]]
-id = "B1"
-header = "HP"
-fuels = ["NG"]
-max_steam = "100 t/h"
-min_steam = "10 t/h"
-must_run = true
-ramp_down = "5 t/h"
-efficiency_curve = { load = [0.1, 1.0], efficiency = [0.9, 0.9] }
-[[boiler]]
-id = "B2"
-header = "HP"
-fuels = ["NG"]
-max_steam = "100 t/h"
-min_steam = "10 t/h"
-must_run = true
-ramp_up = "10 t/h"
-efficiency_curve = { load = [0.1, 1.0], efficiency = [0.8, 0.8] }
-[[letdown]]
-id = "LD"
-from = "HP"
-to = "LP"
-max_flow = "100 t/h"
-"""
+def _ramp_site() -> str:
+    """The CLI tests' tiny site (test_plan_small.TINY_TOML) with two must-run boilers: B1
+    slow to ramp down, B2 slow to ramp up."""
+    from test_plan_small import TINY_TOML
+
+    head, rest = TINY_TOML.split("[[boiler]]", 1)
+    letdown = "[[letdown]]" + rest.split("[[letdown]]", 1)[1]
+    boilers = "".join(
+        f'[[boiler]]\nid = "{b}"\nheader = "HP"\nfuels = ["NG"]\nmax_steam = "100 t/h"\nmin_steam = "10 t/h"\n'
+        f'must_run = true\n{ramp}\nefficiency_curve = {{ load = [0.1, 1.0], efficiency = [{eta}, {eta}] }}\n'
+        for b, ramp, eta in (("B1", 'ramp_down = "5 t/h"', 0.9), ("B2", 'ramp_up = "10 t/h"', 0.8)))
+    return head + boilers + letdown
 
 
 def test_a_trip_is_covered_only_as_fast_as_the_others_ramp(tmp_path) -> None:  # noqa: ANN001
@@ -1040,7 +1005,7 @@ def test_a_trip_is_covered_only_as_fast_as_the_others_ramp(tmp_path) -> None:  #
     from cogendispatch.solve import SolveOptions
 
     site_file, ser_file = tmp_path / "site.toml", tmp_path / "s.csv"
-    site_file.write_text(RAMP_SITE)
+    site_file.write_text(_ramp_site())
     ser_file.write_text("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n" + "".join(
         f"2027-03-01T0{h}:00,0,50,5,100\n" for h in range(4)))
     cfg = load_site(site_file)
