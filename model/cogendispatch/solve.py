@@ -374,13 +374,15 @@ class LoadedModel:
         t_start = time.perf_counter()
         t_end = t_start + time_limit
         self._set_integrality(False)
-        t_lp = time.perf_counter()
-        self._run(max(time_limit, lp_time_limit or 0.0))
-        self.lp_seconds = time.perf_counter() - t_lp
-        lp_ok = self.h.getModelStatus() == highspy.HighsModelStatus.kOptimal
-        self.lp_bound = float(self.h.getInfo().objective_function_value) if lp_ok else None
-        x = self.solution()
-        self._set_integrality(True)
+        try:  # integral again on every way out: a Ctrl-C in the LP must not leave it relaxed
+            t_lp = time.perf_counter()
+            self._run(max(time_limit, lp_time_limit or 0.0))
+            self.lp_seconds = time.perf_counter() - t_lp
+            lp_ok = self.h.getModelStatus() == highspy.HighsModelStatus.kOptimal
+            self.lp_bound = float(self.h.getInfo().objective_function_value) if lp_ok else None
+            x = self.solution()
+        finally:
+            self._set_integrality(True)
         if not lp_ok:
             return None
         if short_time_limit is not None and (x[self.slack_cols()] > SLACK_TOL).any():

@@ -352,7 +352,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     scheds, costs, reports = [], [], []
     diagnosis: list[str] = []
     cur = cfg
-    models = WindowModels(options.threads)
+    models = WindowModels(options.highs_threads)  # one thread goes to the helper, if any
     last_lm, last_x = None, None
     last_outs: tuple[tuple[str, int, int], ...] = ()
     for w, s0 in enumerate(starts):
@@ -377,7 +377,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
                         o = replace(options, time_limit=max(NEW_MODEL_MIN, options.time_limit))
                 else:  # the retry builds a fresh model and allows twice the time
                     models.forget(cur, ser, opts)
-                    lm = LoadedModel(build_site_model(cur, ser, opts), threads=options.threads)
+                    lm = LoadedModel(build_site_model(cur, ser, opts), threads=options.highs_threads)
                     o = replace(options, time_limit=2 * max(COLD_MIN, options.time_limit))
                     hint = None
                 sm = lm.sm
