@@ -26,6 +26,7 @@ import pandas as pd
 from pyomo.repn import generate_standard_repn
 
 from .equipment.common import SiteStates
+from .equipment.drive import position_history
 from .errors import InputError
 from .plant.schema import Drive, SiteConfig
 from .plant.series import Series
@@ -368,37 +369,28 @@ def driver_history(cfg: SiteConfig, index: int, sched: pd.DataFrame | None) -> d
             continue
         if sched is None or f"{d.id}.on_steam" not in sched or len(sched) < index:
             continue
-        count = sched[f"{d.id}.on_steam"].to_numpy()[:index].round().astype(int)
-        positions = []
-        for k in range(d.count):
-            v = (count > k).astype(int)  # position k's driver hour by hour
-            last = int(v[-1])
-            changed = np.flatnonzero(v != last)
-            n = float(len(v) - (changed[-1] + 1 if len(changed) else 0))
-            if not len(changed):  # kept since the plan began: add the time before it
-                if init is None:
-                    n = float("inf")
-                elif int(k < init) == last:
-                    n += d.hours_since_switch(k)
-            positions.append((last, n))
-        out[d.id] = DriverHistory(tuple(positions), L)
+        count = sched[f"{d.id}.on_steam"].to_numpy()[:index]
+        out[d.id] = DriverHistory(tuple(position_history(d, count)), L)
     return out
 
 
 def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | None,
                 build: BuildOptions = BuildOptions()
-                ) -> tuple[dict[str, int], dict[str, int] | None, dict[str, DriverHistory]]:
-    """On/off states to hold, the plan's drivers and the drivers' history at hour ``index``.
+                ) -> tuple[dict[str, int], dict[str, int] | None, dict[str, DriverHistory], dict[str, float]]:
+    """On/off states to hold, the plan's drivers, the drivers' history and the steam [t/h]
+    of each boiler running in the hour before ``index`` (its ramp history).
 
     From ``plan_dir/schedule.csv`` when given; otherwise from the hour optimised alone with
-    the site file's initial states (the drivers' history then known for the first hour only).
+    the site file's initial states (the drivers' history and the steam before then known
+    for the first hour only, from the site file).
     """
     units = [u.id for u in (*cfg.boilers, *cfg.turbogenerators)]
+    site_before = {b.id: b.initial_steam for b in cfg.boilers if b.initial_on and b.initial_steam is not None}
     if plan_dir is None:
         hm = HourModel(cfg, series, index, {u.id: int(u.initial_on) for u in (*cfg.boilers, *cfg.turbogenerators)},
                        build)
         st = hm.solve(hold="none")
-        return st.on, None, driver_history(cfg, index, None)
+        return st.on, None, driver_history(cfg, index, None), site_before if index == 0 else {}
     path = Path(plan_dir) / "schedule.csv"
     try:
         sched = pd.read_csv(path, index_col="time", parse_dates=["time"])
@@ -420,27 +412,13 @@ def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | Non
     on = {u: int(round(float(row[f"{u}.on"]))) for u in units}
     drivers = {d.id: int(round(float(row[f"{d.id}.on_steam"]))) for d in cfg.drives if f"{d.id}.on_steam" in row}
     pos = int(idx.get_loc(t))  # the plan's own hour: it may have begun before the series
-    return on, drivers, driver_history(cfg, pos, sched)
-
-
-def steam_before(cfg: SiteConfig, series: Series, index: int, plan_dir: str | None) -> dict[str, float]:
-    """Steam [t/h] of each boiler running in the hour before ``index``: from the plan's
-    schedule, or for the series' first hour from the site file's ``initial_steam``; empty
-    when neither says (the hour then has no ramp history)."""
-    if plan_dir is None:
-        if index != 0:
-            return {}
-        return {b.id: b.initial_steam for b in cfg.boilers if b.initial_on and b.initial_steam is not None}
-    sched = pd.read_csv(Path(plan_dir) / "schedule.csv", index_col="time", parse_dates=["time"])
-    t = series.time[index]
-    if getattr(sched.index, "tz", None) is not None and t.tzinfo is None:
-        t = t.tz_localize("UTC")
-    pos = int(sched.index.get_loc(t))  # held_states has found the hour in the plan
     if pos == 0:
-        return steam_before(cfg, series, 0, None) if index == 0 else {}
-    row = sched.iloc[pos - 1]
-    return {b.id: float(row[f"{b.id}.steam_t_h"]) for b in cfg.boilers
-            if f"{b.id}.steam_t_h" in row and round(float(row[f"{b.id}.on"])) == 1}
+        before = site_before if index == 0 else {}
+    else:
+        prev = sched.iloc[pos - 1]
+        before = {b.id: float(prev[f"{b.id}.steam_t_h"]) for b in cfg.boilers
+                  if f"{b.id}.steam_t_h" in prev and round(float(prev[f"{b.id}.on"])) == 1}
+    return on, drivers, driver_history(cfg, pos, sched), before
 
 
 def valuer(lm: LoadedModel, x: np.ndarray) -> Callable[[object], float]:
@@ -929,7 +907,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
 
     t0 = _time.perf_counter()
     i = hour_index(series, at, series_path)
-    held, plan_drivers, history = held_states(cfg, series, i, plan_dir, build)
+    held, plan_drivers, history, before = held_states(cfg, series, i, plan_dir, build)
     held_notes = []
     for u in (*cfg.boilers, *cfg.turbogenerators):
         if not u.available and held.get(u.id) == 1:  # the site file has it out since the plan
@@ -939,7 +917,6 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     if allow_starts and what_if is not None and what_if.trip:
         raise InputError(None, "--allow-starts", "does not go with --trip: after a trip no other unit can "
                          "start within the hour")
-    before = steam_before(cfg, series, i, plan_dir)
     hm = HourModel(cfg, series, i, held, build, before)
     hm.driver_limits = {did: h.allowed() for did, h in history.items()}
     if keep_drivers:

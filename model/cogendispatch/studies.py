@@ -48,6 +48,7 @@ from .errors import InputError, InputErrors, SolveError
 from .plant.load import validation_problems
 from .plant.schema import SiteConfig
 from .plant.series import Series, parse_series, read_table
+from .equipment.drive import position_history
 from .results import TOL, cost_frame, diagnose, schedule_frame
 from .site import BuildOptions, build_site_model
 from .reuse import WindowModels
@@ -327,17 +328,12 @@ def carry_states(cfg: SiteConfig, sched: pd.DataFrame, prev: SiteConfig) -> Site
         tgs.append(t.model_copy(update={"initial_on": bool(on), "initial_hours": hrs}))
     drives = []
     for d, pd_ in zip(cfg.drives, prev.drives):
-        count = sched[f"{d.id}.on_steam"].round()
-        # each machine position's own time since its last change (position k is on steam
-        # while more than k machines are): one figure for all would hold a machine that
-        # has kept its driver for days by the change another made an hour ago
-        since = []
-        for k in range(d.count):
-            col = (count > k).astype(int)
-            was = int((pd_.initial_on_steam or 0) > k) if pd_.initial_on_steam is not None else None
-            prior = pd_.hours_since_switch(k) if was == int(col.iloc[0]) else 0.0
-            since.append(run_length(col, prior)[1])
-        n = int(count.iloc[-1])
+        count = sched[f"{d.id}.on_steam"].to_numpy()
+        # each machine position's own time since its last change: one figure for all would
+        # hold a machine that has kept its driver for days by the change another made an
+        # hour ago; a time unknown before the first window counts from its start
+        since = [n if math.isfinite(n) else float(len(count)) for _, n in position_history(pd_, count)]
+        n = int(round(count[-1]))
         drives.append(d.model_copy(update={"initial_on_steam": n,
                                            "initial_hours_since_switch": since if d.count > 1 else since[0]}))
     return cfg.model_copy(update={"boilers": boilers, "turbogenerators": tgs, "drives": drives})

@@ -7,7 +7,10 @@ explores the symmetric copies of "which of the identical pumps is on steam".
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+
+import numpy as np
 
 import pyomo.environ as pyo
 
@@ -79,6 +82,28 @@ def wanted_drivers(d: Drive, hours: list[int]) -> dict[tuple[int, int], int]:
         return {}
     return {(k, t): (1 if k < init else 0) for k in range(d.count) for t in hours
             if t < L - d.hours_since_switch(k)}
+
+
+def position_history(d: Drive, count: np.ndarray) -> list[tuple[int, float]]:
+    """Each machine position's driver at the end of ``count`` (machines on steam hour by
+    hour) and the hours [h] it has kept it: position k is on steam while more than k
+    machines are (the order rows). A position that kept its driver all through adds the
+    site file's time before it (:meth:`Drive.hours_since_switch`) when that driver is the
+    one the site file gives; with no driver given before, the time is unknown (inf)."""
+    init = d.initial_on_steam
+    out = []
+    for k in range(d.count):
+        v = (np.asarray(count).round() > k).astype(int)
+        last = int(v[-1])
+        changed = np.flatnonzero(v != last)
+        n = float(len(v) - (changed[-1] + 1 if len(changed) else 0))
+        if not len(changed):  # kept since the schedule began: add the time before it
+            if init is None:
+                n = math.inf
+            elif int(k < init) == last:
+                n += d.hours_since_switch(k)
+        out.append((last, n))
+    return out
 
 
 def add_drive(m: pyo.ConcreteModel, d: Drive, ctx: ModelContext) -> pyo.Block:
