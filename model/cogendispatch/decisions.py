@@ -31,6 +31,7 @@ from .errors import InputError
 from .plant.schema import Drive, SiteConfig
 from .plant.series import Series
 from .prices import set_by
+from .results import fuels_at_supply
 from .site import BuildOptions, SiteModel, build_site_model
 from .solve import LoadedModel
 
@@ -443,8 +444,7 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
     out: dict[str, str] = {}
     # fuels burnt up to their site-wide max_supply this hour: a boiler on them alone is not
     # at the margin, however far it sits from its steam limits
-    capped = {f.id for f in cfg.fuels if f.max_supply is not None
-              and sum(val(b[bo.id].burn[f.id, 0]) for bo in cfg.boilers if f.id in bo.fuels) >= f.max_supply - 1e-6}
+    capped = fuels_at_supply(cfg, b, 0, val, tol=1e-6)
     reserve_short = val(m.reserve_short[0]) if m.component("reserve_short") is not None else 0.0
     for hh in cfg.headers:
         hid = hh.id

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Callable
 
 import numpy as np
 import pandas as pd
@@ -170,6 +171,16 @@ def _supplying(cfg: SiteConfig, header: str) -> set[str]:
     return found
 
 
+def fuels_at_supply(cfg: SiteConfig, blocks: dict[str, pyo.Block], t: int,
+                    val: Callable[[object], float] = _val, tol: float = 1e-4) -> dict[str, float]:
+    """Fuels burnt up to their site-wide ``max_supply`` in hour ``t``, with that supply
+    [GJ/h]: a boiler on them alone can make no more steam, whatever its rating. ``val``
+    gives a variable's value (the loaded values by default)."""
+    burnt = {f.id: sum(val(blocks[bo.id].burn[f.id, t]) for bo in cfg.boilers if f.id in bo.fuels)
+             for f in cfg.fuels if f.max_supply is not None}
+    return {f.id: f.max_supply for f in cfg.fuels if f.id in burnt and burnt[f.id] >= f.max_supply - tol}
+
+
 def binding_limits(sm: SiteModel, t: int, power: bool = False, header: str | None = None) -> list[str]:
     """Equipment at an upper limit (or held off) in hour ``t``: what stops more supply (to
     ``header`` when given: only units on it or upstream of it)."""
@@ -177,8 +188,7 @@ def binding_limits(sm: SiteModel, t: int, power: bool = False, header: str | Non
     up = _supplying(cfg, header) if header is not None else None
     out = []
     # fuels burnt up to their site-wide supply: a boiler on them alone can make no more
-    burnt = {f.id: sum(_val(b[bo.id].burn[f.id, t]) for bo in cfg.boilers if f.id in bo.fuels) for f in cfg.fuels}
-    capped = {f.id: f.max_supply for f in cfg.fuels if f.max_supply is not None and burnt[f.id] >= f.max_supply - 1e-4}
+    capped = fuels_at_supply(cfg, b, t)
     for bo in cfg.boilers:
         if up is not None and bo.header not in up:
             continue

@@ -291,8 +291,8 @@ def _numeric(col: pd.Series, path: Path, name: str) -> pd.Series:
 
 
 def _read_times(text: pd.Series, path: Path, dayfirst: bool = False) -> list[pd.Timestamp]:
-    """Each cell as a timestamp (UTC when it carries an offset); an unreadable or empty cell,
-    or a column mixing times with and without offsets, is an error naming its row."""
+    """Each cell as a timestamp, with its UTC offset if it carries one; an unreadable or
+    empty cell, or a column mixing times with and without offsets, is an error naming its row."""
     parsed: list[pd.Timestamp] = []
     for i, t in enumerate(text):
         try:
