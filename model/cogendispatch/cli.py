@@ -448,7 +448,7 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
     from .plant.load import load_site
     from .plant.series import load_series
     from .results import end_stops
-    from .studies import COLD_MIN, load_scenarios, run_study, summarise
+    from .studies import COLD_MIN, load_scenarios, run_study, summarise, window_gap_words
 
     if args.window < 1 or args.lookahead < 0:
         raise InputError(None, "--window", "the window must be at least 1 h and the look-ahead not negative")
@@ -520,15 +520,7 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
     comp.loc[money_rows] = comp.loc[money_rows].astype(float).round() + 0.0
     comp.insert(0, "quantity", [q.replace("cost_", f"cost [{cur}] ") for q in comp.index])
     _table(out, f"Scenarios over {base.hours} h ({secs:.0f} s)", comp.reset_index(drop=True).astype(object))
-    def gap_words(r: pd.Series) -> str:
-        if r.largest_window_gap == r.largest_window_gap:
-            return f"{r.scenario} {100 * r.largest_window_gap:.2f} %"
-        words = f"{r.scenario} none proven in {r.windows - r.windows_proven} of {r.windows} window(s)"
-        if r.windows_proven:
-            words += f" (the others within {100 * r.largest_proven_window_gap:.2f} %)"
-        return words
-
-    gaps = ", ".join(gap_words(r) for _, r in table.iterrows())
+    gaps = ", ".join(f"{r.scenario} {window_gap_words(r)}" for _, r in table.iterrows())
     out.print(Text(f"largest gap of a window's search: {gaps}; cost differences smaller than "
                    "these are within the search's tolerance (give --time-limit more to narrow them)"))
     if args.time_limit < COLD_MIN:

@@ -413,6 +413,21 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
     return ScenarioResult(ps.name, schedule, hourly, bal_short, reports, diagnosis, months)
 
 
+def window_gap_words(row: pd.Series) -> str:
+    """A scenario's largest window gap in words, from its row of ``summarise``: the per cent
+    when every window proved one, else how many did not and what the others proved (a
+    folder written before those columns: "none proven")."""
+    g = row.get("largest_window_gap", float("nan"))
+    if g == g:
+        return f"{100 * g:.2f} %"
+    if "windows" not in row:
+        return "none proven"
+    words = f"none proven in {int(row.windows - row.windows_proven)} of {int(row.windows)} window(s)"
+    if row.windows_proven:
+        words += f" (the others within {100 * row.largest_proven_window_gap:.2f} %)"
+    return words
+
+
 def proven_gap(gap: float, objective: float = 1.0) -> float | None:
     """A window's gap [-] as a study reports it: None ("none proven") for no finite bound,
     and, for a positive cost ``objective``, for a gap of 100 % or more, whose bound (at or

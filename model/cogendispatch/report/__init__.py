@@ -29,15 +29,13 @@ def write_reports(d: Path, units: str = "si") -> list[Path]:
     try:
         tmp.write_text(build(d, u), encoding="utf-8")
         writer(d, tmpx)
-    except (OSError, ValueError, KeyError, TypeError) as exc:
-        # a file of the folder missing, or edited out of shape: nothing is replaced
+    except BaseException as exc:  # Ctrl-C too: no half-written file left to block a later run
         tmp.unlink(missing_ok=True)
         tmpx.unlink(missing_ok=True)
-        raise InputError(d, "", f"cannot build the report from this {kind} folder ({type(exc).__name__}: {exc}); "
-                         f"its files are incomplete or were edited: run {kind} again") from None
-    except BaseException:  # Ctrl-C, say: no half-written file is left to block a later run
-        tmp.unlink(missing_ok=True)
-        tmpx.unlink(missing_ok=True)
+        if isinstance(exc, (OSError, ValueError, KeyError, TypeError)):
+            # a file of the folder missing, or edited out of shape: nothing is replaced
+            raise InputError(d, "", f"cannot build the report from this {kind} folder ({type(exc).__name__}: "
+                             f"{exc}); its files are incomplete or were edited: run {kind} again") from None
         raise
     tmp.replace(d / "report.html")
     tmpx.replace(xlsx)

@@ -10,6 +10,7 @@ import pandas as pd
 
 from . import plots
 from ..outputs import without_money_unit
+from ..studies import window_gap_words
 from ..units import convert
 
 T_H_TO_KLB_H = 1.0 / convert(1.0, "klb/h", "mass_flow")  # [klb/h per t/h]
@@ -197,20 +198,15 @@ def study_report(d: Path, units: Units = Units()) -> str:
     if "fuel_GJ" in tab:
         tab["fuel_GJ"] = tab["fuel_GJ"] * units.ke
     if "largest_window_gap" in tab:
-        # a number where every window proved one, words where some did not (not "nan")
-        tab["largest_window_gap"] = [
-            f"{100 * g:.2f}" if g == g else
-            f"none proven in {int(r.windows - r.windows_proven)} of {int(r.windows)}"
-            + (f" (others {100 * r.largest_proven_window_gap:.2f})" if r.windows_proven else "")
-            if "windows" in table else "none proven"
-            for g, (_, r) in zip(table["largest_window_gap"], table.iterrows())]
+        # a per cent where every window proved one, words where some did not (not "nan")
+        tab["largest_window_gap"] = [window_gap_words(r) for _, r in table.iterrows()]
     # one style of heading, with the unit in brackets, as the page's other tables
     tab = tab.rename(columns={"cost_total": f"cost [{cur}]", "cost_penalty": f"of it penalty [{cur}]",
                               "cost_total_without_penalty": f"cost without penalty [{cur}]",
                               "fuel_GJ": f"fuel [{units.energy}]",
                               "import_MWh": "import [MWh]", "export_MWh": "export [MWh]", "co2_t": "CO2 [t]",
                               "boiler_starts": "boiler starts", "shortfall_hours": "hours short",
-                              "largest_window_gap": "largest window gap [%]"})
+                              "largest_window_gap": "largest window gap"})
     body.append("<h2>Totals</h2>" + _table(tab)
                 + "<p class='meta'>Largest window gap: how far the weakest window's search stayed from its "
                   "proven bound; cost differences smaller than it are within the search's tolerance "
