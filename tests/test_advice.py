@@ -248,7 +248,7 @@ def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  #
     assert set(pr.index) == {"HP", "MP", "LP", "power"} and pr.loc["power", "unit"] == "EUR/MWh"
     # the plan's columns (time, set_by "cost" or a penalty), the reason in words beside them
     assert list(pr.columns) == ["time", "price", "unit", "set_by", "reason"]
-    assert set(pr.set_by) <= {"cost", "shortfall penalty", "surplus penalty", "reserve penalty"}
+    assert set(pr.set_by) <= {"cost", "reserve limit", "shortfall penalty", "surplus penalty", "reserve penalty"}
     assert pr.loc["power", "reason"].startswith("grid import")
     drv = pd.read_csv(out / "drivers.csv")  # money columns name the currency, as the prices' unit column does
     assert {"cost_on_steam_EUR", "saving_EUR", "flip_import_price_EUR_MWh", "marginal_estimate_EUR_MWh"} <= set(drv.columns)
@@ -786,6 +786,7 @@ def test_a_binding_reserve_is_named_in_the_steam_price_with_its_share() -> None:
         a = advise(cfg, ser, str(ser.time[0]), "<tiny>")
         assert not a.not_met
         prices[on] = (a.prices["HP"], a.reasons["HP"])
+        assert a.set_by["HP"] == ("reserve limit" if on else "cost")  # a cost either way, no penalty
     assert prices[True][0] > prices[False][0] + 1.0  # the scenario as meant
     assert "reserve" not in prices[False][1]
     share = float(prices[True][1].split("adds ")[1].split(" EUR/t")[0])

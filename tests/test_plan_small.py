@@ -560,7 +560,7 @@ def test_a_turbo_generator_may_be_must_run():
 
 def test_a_diagnosis_gives_the_sites_clock():
     """A series written with its UTC offset is held in UTC; the diagnosis names the hour as
-    the file wrote it (05:00 at +01:00), not as UTC (04:00)."""
+    the file wrote it (05:00 at +01:00, with its offset), not as UTC (04:00)."""
     import pandas as pd
 
     from cogendispatch.plant.series import parse_series
@@ -569,4 +569,4 @@ def test_a_diagnosis_gives_the_sites_clock():
                         "demand:LP [t/h]": ["20", "20", "20", "20", "20", "150"], "load [MW]": "5",
                         "price:import [per MWh]": "100"})
     _, rep, res = run(cfg, parse_series(raw, cfg, "<offsets>"))
-    assert any("hour 5 (2027-03-01 05:00)" in d for d in res.diagnosis), res.diagnosis
+    assert any("hour 5 (2027-03-01 05:00+01:00)" in d for d in res.diagnosis), res.diagnosis

@@ -327,10 +327,28 @@ def test_mutated_site_files_exit_2_with_a_message(tmp_path, capsys, text: str) -
     assert "mutated.toml" in err and "Traceback" not in err
 
 
-def test_ctrl_c_stops_a_study_without_running_its_queued_scenarios(tmp_path, ctrl_c_default) -> None:  # noqa: ANN001
+def _spawned(pid: int) -> int:
+    """How many processes ``pid`` has started through multiprocessing's spawn (a study's
+    manager and its workers), from /proc."""
+    n = 0
+    for p in Path("/proc").iterdir():
+        try:
+            if not p.name.isdigit() or f"PPid:\t{pid}\n" not in (p / "status").read_text():
+                continue
+            n += b"spawn_main" in (p / "cmdline").read_bytes()
+        except OSError:  # gone meanwhile
+            continue
+    return n
+
+
+@pytest.mark.skipif(not Path("/proc/self/status").is_file(), reason="reads the workers from /proc")
+@pytest.mark.parametrize("after", [0.0, 8.0], ids=["workers-starting", "workers-solving"])
+def test_ctrl_c_stops_a_study_without_running_its_queued_scenarios(tmp_path, ctrl_c_default, after) -> None:  # noqa: ANN001
     """Ctrl-C (SIGINT to the terminal's process group: the study and its workers) during a
     study of six scenarios on two workers exits 130 within seconds and writes nothing. The
-    scenarios still queued once ran to the end first (about 30 s more here)."""
+    scenarios still queued once ran to the end first (about 30 s more here). Sent as soon
+    as the workers exist, it finds them importing Pyomo and HiGHS: they stop without a
+    traceback too."""
     import pandas as pd
 
     ser = tmp_path / "two_days.csv"
@@ -346,7 +364,10 @@ def test_ctrl_c_stops_a_study_without_running_its_queued_scenarios(tmp_path, ctr
                             start_new_session=True, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
                             preexec_fn=_default_sigint_in_child)
     try:
-        time.sleep(8.0)  # workers spawned and inside their first scenarios
+        deadline = time.perf_counter() + 60.0
+        while _spawned(proc.pid) < 3 and time.perf_counter() < deadline:  # the manager and two workers
+            time.sleep(0.05)
+        time.sleep(after)
         assert proc.poll() is None
         os.killpg(proc.pid, signal.SIGINT)
         t0 = time.perf_counter()

@@ -23,6 +23,7 @@ from rich.markup import escape
 from rich.text import Text
 from rich.table import Table
 
+from .clock import as_utc
 from .errors import InputError, SolveError
 from .outputs import atomic_dir, json_text, with_money_units, write_csv, write_json
 from .plan import SAFETY_NOTE, run_plan
@@ -359,7 +360,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
         out.print(Text("hour" + (" as given" if a.what_if else "") + ": " + dispatch_line(a.dispatch)))
         if not a.drivers.empty:
             # why a machine's drivers before the hour may be unknown
-            unknown = ("unknown (give --plan)" if args.plan is None and a.time != str(series.time[0])
+            unknown = ("unknown (give --plan)" if args.plan is None and a.time != str(series.stamps[0])
                        else "unknown (no driver before the first hour in the site file)")
             dt = a.drivers[["machine", "now_on_steam", "cost_on_steam", "cost_on_motor", "saving", "saving_vs_now",
                             "better", "flip_import_price", "marginal_estimate"]].copy()
@@ -487,9 +488,12 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
         write_csv(monthly_out, d / "monthly.csv", index=False)
         (d / "schedules").mkdir()
         for k, r in enumerate(results):
-            r.schedule.to_parquet(d / "schedules" / f"{slug(k, r.name)}.parquet")
+            sched = r.schedule
+            if sched.index.dtype == object:  # offsets change in the year: Parquet holds one zone a column
+                sched = sched.set_axis(as_utc(sched.index).rename("time"))
+            sched.to_parquet(d / "schedules" / f"{slug(k, r.name)}.parquet")
         write_json({"kind": "study", "currency": cfg.site.currency, "site_name": cfg.site.name,
-                    "first_hour": str(base.time[0]), "last_hour": str(base.time[-1]),
+                    "first_hour": str(base.stamps[0]), "last_hour": str(base.stamps[-1]),
                     "site": str(Path(args.site).resolve()), "series": str(Path(args.series).resolve()),
                     "scenarios": str(Path(args.scenarios).resolve()), "seconds": secs, "units": args.units,
                     "options": {"window_h": args.window, "lookahead_h": args.lookahead, "gap": args.gap,

@@ -25,6 +25,7 @@ import numpy as np
 import pandas as pd
 from pyomo.repn import generate_standard_repn
 
+from .clock import as_utc, read_clock
 from .equipment.common import SiteStates
 from .equipment.drive import position_history
 from .errors import InputError
@@ -301,13 +302,24 @@ def hour_index(series: Series, at: str, path: str) -> int:
                          f"{pd.Timestamp(series.time[-1]):%Y-%m-%d %H:%M})")
     if not re.search(r"\d[T ]\d", at.strip()):  # a date alone would silently mean midnight
         raise InputError(None, "--at", f"'{at}' gives no hour; write e.g. '{ts:%Y-%m-%d}T10:00'")
-    if ts.tzinfo is not None:
-        ts = ts.tz_convert("UTC")
-    if (ts.tzinfo is None) != (series.time.tz is None):
-        raise InputError(path, "--at", "give --at with a UTC offset exactly when the series has them")
-    hits = np.flatnonzero(series.time == ts)
+    span = f"the series runs {series.stamps[0]} to {series.stamps[-1]}"
+    if ts.tzinfo is None and series.time.tz is not None:
+        # the supervisor's wall clock, as the series wrote it without its offset: one hour,
+        # but for the hour that comes twice when the clocks go back
+        hits = np.flatnonzero(series.wall_time == ts)
+        if len(hits) > 1:
+            twice = " or ".join(f"'{series.stamps[i].isoformat()}'" for i in hits)
+            raise InputError(path, "--at", f"{at} comes twice in the series (the clocks go back): give its UTC "
+                             f"offset, {twice}")
+    else:
+        if ts.tzinfo is not None:
+            ts = ts.tz_convert("UTC")
+        if ts.tzinfo is not None and series.time.tz is None:
+            raise InputError(path, "--at", f"{at} has a UTC offset but the series has none ({span}): give --at "
+                             "without it")
+        hits = np.flatnonzero(series.time == ts)
     if len(hits) == 0:
-        raise InputError(path, "--at", f"{at} is not an hour of the series ({series.time[0]} to {series.time[-1]})")
+        raise InputError(path, "--at", f"{at} is not an hour of the series ({span})")
     return int(hits[0])
 
 
@@ -394,7 +406,8 @@ def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | Non
         return st.on, None, driver_history(cfg, index, None), site_before if index == 0 else {}
     path = Path(plan_dir) / "schedule.csv"
     try:
-        sched = pd.read_csv(path, index_col="time", parse_dates=["time"])
+        sched = pd.read_csv(path, index_col="time")
+        sched.index = as_utc(read_clock(sched.index))  # matched with the series' time, UTC with offsets
     except FileNotFoundError:
         raise InputError(path, "--plan", "no schedule.csv in the plan folder") from None
     except (ValueError, KeyError) as exc:
@@ -404,7 +417,7 @@ def held_states(cfg: SiteConfig, series: Series, index: int, plan_dir: str | Non
     if getattr(idx, "tz", None) is not None and t.tzinfo is None:
         t = t.tz_localize("UTC")
     if t not in idx:
-        raise InputError(path, "--at", f"{series.time[index]} is not an hour of the plan")
+        raise InputError(path, "--at", f"{series.stamps[index]} is not an hour of the plan")
     row = sched.loc[t]
     missing = [u for u in units if f"{u}.on" not in row]
     if missing:
@@ -605,7 +618,8 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
         penalised = [f"{b} price set by " + ("a penalty of another header or hour" if why == "penalty elsewhere"
                                              else f"the {why}")
                      for b in (d.steam_turbine.inlet, d.steam_turbine.exhaust, "power")
-                     if (why := (price_set_by or {}).get(b, "cost")) != "cost"]
+                     # a price the reserve raises is still a cost: the estimate holds
+                     if (why := (price_set_by or {}).get(b, "cost")) not in ("cost", "reserve limit")]
         if est is not None and penalised:
             est = None
             notes.append("marginal estimate left out: " + ", ".join(dict.fromkeys(penalised)))
@@ -933,7 +947,8 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     m = hm.sm.model
 
     val = valuer(hm.lm, x)
-    categories = {b: set_by(m, val, b, 0, power_price if b == "power" else prices.get(b), cfg.penalties)
+    categories = {b: set_by(m, val, b, 0, power_price if b == "power" else prices.get(b), cfg.penalties,
+                            hm.reserve_part.get(b, 0.0))
                   for b in [*reasons, "power"]}
     for b, why in categories.items():
         if why == "penalty elsewhere":  # the unit named moves, but a shortfall elsewhere prices it
@@ -1007,7 +1022,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
               "asked": {**asdict(what_if), "allow_starts": allow_starts, "allow_stops": allow_stops}}
     dispatch = {"boilers_t_h": base.steam, "turbogenerators_MW": base.power, "grid_MW": base.grid,
                 "machines_on_steam": {k: float(v) for k, v in base.on_steam.items()}}
-    return Advice(str(series.time[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
+    return Advice(str(series.stamps[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
                   _time.perf_counter() - t0, categories, not_met, dispatch, held_notes)
 
 

@@ -10,6 +10,7 @@ from typing import Callable
 import pandas as pd
 
 from .baseline import NoBaselineError, practice_baseline, savings
+from .clock import read_clock
 from .errors import SolveError
 from .outputs import as_written, atomic_dir, check_out_dir, output_kind, with_money_units, write_csv, write_json
 from .plant.load import load_site
@@ -72,7 +73,7 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
         "start_stops": start_stops(cfg, res.schedule),
         "seconds": run_report.seconds,
         "hours": series.hours,
-        "first_hour": str(series.time[0]),
+        "first_hour": str(series.stamps[0]),
         "site": str(Path(site_path).resolve()),
         "series": str(Path(series_path).resolve()),
         "site_name": cfg.site.name,
@@ -177,7 +178,8 @@ def verify_plan_dir(out: str | Path, moisture_limit: float = MOISTURE_LIMIT) -> 
         # each number exactly as written, so the re-check meets the plan's own check of the
         # same digits (as_written); pandas 3 does so by default and deprecates the option
         exact = {"float_precision": "round_trip"} if int(pd.__version__.split(".")[0]) < 3 else {}
-        sched = pd.read_csv(d / "schedule.csv", index_col="time", parse_dates=["time"], **exact)
+        sched = pd.read_csv(d / "schedule.csv", index_col="time", **exact)
+        sched.index = read_clock(sched.index)
     except (FileNotFoundError, ValueError) as exc:
         raise InputError(d / "schedule.csv", "", f"cannot read the schedule ({exc})") from None
     if len(sched) != series.hours:

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Callable
 
+import highspy
 import numpy as np
 import pandas as pd
 import pyomo.environ as pyo
@@ -32,16 +33,20 @@ if TYPE_CHECKING:
 # header or hour (a letdown, a ramp limit), not a cost: steam at 5 000 per t or power at
 # 50 000 per MWh (with the default penalties) is far beyond any fuel or market price
 PENALTY_SHARE = 0.5
+RESERVE_PART_MIN = 0.01  # [currency/t or /MWh] below it a reserve part is round-off
 
 
 def set_by(m: pyo.ConcreteModel, val: Callable[[pyo.Var], float], balance: str, t: int,
-           price: float | None = None, penalties: Penalties | None = None) -> str:
+           price: float | None = None, penalties: Penalties | None = None, reserve_part: float = 0.0) -> str:
     """What sets the price of ``balance`` (a header id or "power") in hour ``t``: "cost", or
     the penalty it carries ("shortfall penalty", "surplus penalty", "reserve penalty", or
     "penalty elsewhere": another header's or hour's, through a letdown or a ramp limit),
     when it is no cost of steam or power. ``val`` gives a variable's value in the schedule;
     with the hour's ``price`` and the site's ``penalties``, a price of the size of a penalty
-    is named so even where this balance's own slacks are idle."""
+    is named so even where this balance's own slacks are idle. A cost of which the steam
+    reserve, held exactly, makes a part (``reserve_part`` [currency/t or /MWh], at least
+    1 % of the price) is "reserve limit": the running boilers' spare rating just covers the
+    largest, so more steam costs more than any unit's own cost."""
     short, surplus = (m.power_short[t], m.power_surplus[t]) if balance == "power" else \
         (m.steam_short[balance, t], m.steam_surplus[balance, t])
     if val(short) > 1e-6:
@@ -68,6 +73,8 @@ def set_by(m: pyo.ConcreteModel, val: Callable[[pyo.Var], float], balance: str, 
                 and _inside(blk.flow[t], val) for blk in m.component_data_objects(pyo.Block, descend_into=False)):
             return "cost"
         return "reserve penalty"
+    if price is not None and abs(reserve_part) > max(RESERVE_PART_MIN, 0.01 * abs(price)):
+        return "reserve limit"
     return "cost"
 
 
@@ -82,11 +89,12 @@ def _inside(v: pyo.Var, val: Callable[[pyo.Var], float]) -> bool:
 def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> pd.DataFrame | None:
     """Marginal prices of the schedule ``x`` (column values of ``lm``), tidy: one row per hour
     and balance, columns ``time``, ``balance`` (a header id or ``power``), ``price`` and
-    ``unit`` ([currency/t] for a header, [currency/MWh] for power) and ``set_by``: "cost", or
-    "shortfall penalty", "surplus penalty" or "reserve penalty" for an hour whose price a
-    penalty sets (it is then no cost of steam or power). None when the LP does
-    not solve within ``time_limit`` [s]. ``lm``'s bounds and integrality are left as they were
-    (:meth:`LoadedModel._fixed_run`).
+    ``unit`` ([currency/t] for a header, [currency/MWh] for power), ``reserve_part`` (the part
+    of the price the steam reserve makes where it is held exactly: the price less that of
+    the same LP without the reserve rows, 0 where no reserve row binds) and ``set_by``
+    (:func:`set_by`: "cost", "reserve limit", or the penalty that sets the price, which is
+    then no cost of steam or power). None when the LP does not solve within ``time_limit``
+    [s]. ``lm``'s bounds and integrality are left as they were (:meth:`LoadedModel._fixed_run`).
 
     A balance row 'terms - demand == 0' is loaded with its bounds at the demand, so the dual
     of the row is d(cost)/d(demand): the price of one more t/h (or MW) demanded.
@@ -102,15 +110,47 @@ def hourly_prices(lm: LoadedModel, x: np.ndarray, time_limit: float = 60.0) -> p
     if dual is None:
         return None
     cur = sm.ctx.cfg.site.currency
-    time = sm.ctx.series.time
+    time = sm.ctx.series.stamps
 
     def val(var) -> float:  # noqa: ANN001
         c = lm.col(var)
         return float(var.value or 0.0) if c is None else float(x[c])
 
     pen = sm.ctx.cfg.penalties
+    part = _reserve_parts(lm, x, rows, dual, time_limit)
     out = [{"time": time[t], "balance": b, "price": (p := float(dual[r]) if r is not None else float("nan")),
             "unit": f"{cur}/MWh" if b == "power" else f"{cur}/t",
-            "set_by": set_by(m, val, b, t, p if r is not None else None, pen)}
+            "reserve_part": (q := part.get((b, t), 0.0)),
+            "set_by": set_by(m, val, b, t, p if r is not None else None, pen, q)}
            for (b, t), r in rows.items()]
     return pd.DataFrame(out).sort_values(["time", "balance"], kind="stable").reset_index(drop=True)
+
+
+def _reserve_parts(lm: LoadedModel, x: np.ndarray, rows: dict[tuple[str, int], int | None], dual: np.ndarray,
+                   time_limit: float) -> dict[tuple[str, int], float]:
+    """Per (balance, hour), the part of the price ``dual`` that the steam reserve makes: the
+    price less that of the same fixed LP with every reserve row free (the rows of
+    :mod:`cogendispatch.reserve` and the running-set rows added after the model's own).
+    Empty when no reserve row binds (one LP saved) or that LP fails."""
+    m = lm.sm.model
+    res = m.component("reserve")
+    if res is None:
+        return {}
+    cmap = lm.opt._pyomo_con_to_solver_con_map
+    idx = np.array(sorted({cmap[c] for c in res.values() if c in cmap}
+                          | set(range(lm.base_rows, lm.h.getNumRow()))), dtype=np.int32)
+    if len(idx) == 0 or np.abs(dual[idx]).max() <= 1e-9:
+        return {}
+    lp = lm.h.getLp()
+    lo, up = np.asarray(lp.row_lower_)[idx], np.asarray(lp.row_upper_)[idx]
+    lm.h.changeRowsBounds(len(idx), idx, np.full(len(idx), -highspy.kHighsInf), np.full(len(idx), highspy.kHighsInf))
+    try:
+        lm._fixed_run(lm.int_cols.tolist(), np.round(x[lm.int_cols]).tolist(), time_limit, gap=None,
+                      keep_duals=True)
+        free = lm.fixed_duals
+    finally:
+        lm.h.changeRowsBounds(len(idx), idx, lo, up)
+        lm.fixed_duals = dual
+    if free is None:
+        return {}
+    return {k: float(dual[r] - free[r]) for k, r in rows.items() if r is not None}

@@ -9,6 +9,7 @@ import numpy as np
 import pandas as pd
 import pyomo.environ as pyo
 
+from .clock import hour_label
 from .equipment.common import held_value
 from .plant.schema import Boiler, Condenser, Drive, Letdown, SiteConfig, TurboGenerator, Vent
 from .site import SiteModel
@@ -100,7 +101,7 @@ def schedule_frame(sm: SiteModel) -> pd.DataFrame:
     cols["deaerator.overflow_t_h"] = _series(lambda t: da.overflow[t], hours)
     cols["grid.import_MW"] = _series(lambda t: m.grid.imp[t], hours)
     cols["grid.export_MW"] = _series(lambda t: m.grid.exp[t], hours)
-    df = pd.DataFrame(cols, index=pd.Index(ctx.series.time, name="time"))
+    df = pd.DataFrame(cols, index=pd.Index(ctx.series.stamps, name="time"))
     return df.where(df.abs() > 1e-9, 0.0)
 
 
@@ -111,7 +112,7 @@ def balance_frames(sm: SiteModel) -> tuple[pd.DataFrame, pd.DataFrame]:
     group sums to zero.
     """
     ctx = sm.ctx
-    hours, time = ctx.hours, ctx.series.time
+    hours, time = ctx.hours, ctx.series.stamps  # the site's clock (cogendispatch.clock)
     rows = []
     for h in [hh.id for hh in ctx.cfg.headers]:
         for term in ctx.header_terms[h]:
@@ -129,7 +130,7 @@ def cost_frame(sm: SiteModel) -> pd.DataFrame:
     ctx = sm.ctx
     data = {cat: sum((_series(term, ctx.hours) for term in terms), np.zeros(len(ctx.hours)))
             for cat, terms in ctx.cost_terms.items()}
-    df = pd.DataFrame(data, index=pd.Index(ctx.series.time, name="time"))
+    df = pd.DataFrame(data, index=pd.Index(ctx.series.stamps, name="time"))
     # a slack of solver round-off times a large penalty is not a cost worth printing
     return df.where(df.abs() > 1e-6, 0.0)
 
@@ -244,7 +245,7 @@ def diagnose(sm: SiteModel, upto: int | None = None, first: int = 0) -> list[str
     when given (a rolling window's committed part). Hours are numbered from ``first``
     (a window's first hour in the whole series), as the user counts them."""
     m, ctx = sm.model, sm.ctx
-    hours, time = ctx.hours[:upto], ctx.series.wall_time  # the site's clock, as the file writes it
+    hours, time = ctx.hours[:upto], ctx.series.stamps  # the site's clock, as the file writes it
     msgs = []
 
     def report(values: np.ndarray, what: str, unit: str, hint: str, limits: bool = False,
@@ -253,9 +254,9 @@ def diagnose(sm: SiteModel, upto: int | None = None, first: int = 0) -> list[str
             peak = values[a:b + 1].max()
             worst = a + int(np.argmax(values[a:b + 1]))
             if a == b:
-                span = f"hour {first + a} ({time[a]:%Y-%m-%d %H:%M})"
+                span = f"hour {first + a} ({hour_label(time[a])})"
             else:
-                span = f"hours {first + a}-{first + b} ({time[a]:%Y-%m-%d %H:%M} to {time[b]:%Y-%m-%d %H:%M})"
+                span = f"hours {first + a}-{first + b} ({hour_label(time[a])} to {hour_label(time[b])})"
             # a shortfall under a hundredth still shows its size ("0.004", not "0.00")
             msg = f"{what} {peak:{'.2f' if peak >= 0.01 else '.2g'}} {unit} at most in {span}; {hint}"
             if limits:
@@ -332,7 +333,7 @@ def end_stops(cfg: SiteConfig, schedule: pd.DataFrame, within: int = END_WINDOW_
         last_on = int(np.flatnonzero(on)[-1])
         stop = last_on + 1
         if n - stop <= within:
-            notes.append(f"{u.id} stops at {schedule.index[stop]:%Y-%m-%d %H:%M} and stays off to the plan's end "
+            notes.append(f"{u.id} stops at {hour_label(schedule.index[stop])} and stays off to the plan's end "
                          f"({n - stop} h): the plan sees no hour after its last, so this stop pays no restart; "
                          "if the site runs on, plan with the next day's series too and keep the first "
                          f"{n} h")
@@ -347,7 +348,7 @@ def end_stops(cfg: SiteConfig, schedule: pd.DataFrame, within: int = END_WINDOW_
         c = int(changes[-1])
         if n - c < min(d.min_hours_between_switches, within):
             notes.append(f"{d.id} changes from {v[c - 1]:g} to {v[c]:g} machine(s) on steam at "
-                         f"{schedule.index[c]:%Y-%m-%d %H:%M}, {n - c} h before the plan's end, though it keeps a "
+                         f"{hour_label(schedule.index[c])}, {n - c} h before the plan's end, though it keeps a "
                          f"driver at least {d.min_hours_between_switches:g} h: the plan saw only part of that choice")
     return notes
 
@@ -364,5 +365,5 @@ def start_stops(cfg: SiteConfig, schedule: pd.DataFrame) -> list[str]:
         if col in schedule and u.initial_on and u.available and schedule[col].iloc[0] < 0.5:
             off = int((schedule[col].to_numpy() < 0.5).sum())
             notes.append(f"{u.id} was on before the first hour (initial_on in the site file) and is stopped at "
-                         f"{schedule.index[0]:%Y-%m-%d %H:%M}; off {off} of {len(schedule)} h")
+                         f"{hour_label(schedule.index[0])}; off {off} of {len(schedule)} h")
     return notes

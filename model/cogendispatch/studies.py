@@ -28,13 +28,17 @@ models) or on a Dask distributed scheduler.
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import math
 import multiprocessing as mp
 import os
 import re
+import signal
+import threading
 import time
 import tomllib
+from collections.abc import Iterator
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -389,7 +393,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
             except (SolveError, RuntimeError) as exc:  # retried once, then reported
                 last_err = exc
         else:
-            raise SolveError(f"scenario '{ps.name}': window {ser.time[0]} to {ser.time[-1]} failed twice: {last_err}")
+            raise SolveError(f"scenario '{ps.name}': window {ser.stamps[0]} to {ser.stamps[-1]} failed twice: {last_err}")
         last_lm, last_x, last_outs = lm, lm.schedule, outs
         # the schedule and costs only: a study writes no balances
         schedule, hourly = schedule_frame(sm), cost_frame(sm)
@@ -397,7 +401,7 @@ def rolling_horizon(cfg: SiteConfig, ps: PreparedScenario, options: SolveOptions
         sched = schedule.iloc[:keep]
         scheds.append(sched)
         costs.append(hourly.iloc[:keep])
-        reports.append(WindowReport(str(ser.time[0]), str(ser.time[keep - 1]),
+        reports.append(WindowReport(str(ser.stamps[0]), str(ser.stamps[keep - 1]),
                                     rep.seconds["build"] + rep.seconds["load"],
                                     rep.seconds["solve"] + rep.seconds.get("start", 0.0)
                                     + rep.seconds.get("strengthen", 0.0), rep.status,
@@ -534,6 +538,7 @@ def _scenario_job(args: tuple[Any, ...]) -> ScenarioResult:
     process ignores Ctrl-C) set: the study was interrupted, so a scenario still queued does
     not start and a running one ends after its current window."""
     cfg, ps, options, window, lookahead, build, queue, stop = args
+    _take_ctrl_c()
 
     def on_window(i: int, n: int) -> None:
         if stop.is_set():
@@ -573,13 +578,19 @@ def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: Solve
                                 (lambda i, n, name=ps.name: progress(name, i, n)) if progress else None)
                 for ps in scenarios]
     ctx = mp.get_context("spawn")
-    with ctx.Manager() as manager:
+    with contextlib.ExitStack() as stack:
+        with _ctrl_c_blocked():  # the manager's process starts as the workers do, below
+            manager = stack.enter_context(ctx.Manager())
         queue = manager.Queue() if progress else None
         stop = manager.Event()
         with ProcessPoolExecutor(max_workers=n_workers, mp_context=ctx) as pool:
-            futs = [pool.submit(_scenario_job, (cfg, ps, opts, window, lookahead, build, queue, stop))
-                    for ps in scenarios]
             try:
+                # the workers start with Ctrl-C blocked (the mask passes to a spawned
+                # process): one arriving while they import Pyomo and HiGHS would end them
+                # with a traceback from inside multiprocessing; it waits for _take_ctrl_c
+                with _ctrl_c_blocked():
+                    futs = [pool.submit(_scenario_job, (cfg, ps, opts, window, lookahead, build, queue, stop))
+                            for ps in scenarios]
                 while not all(f.done() for f in futs):
                     _drain(queue, progress)
                     time.sleep(0.2)
@@ -594,6 +605,28 @@ def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: Solve
                 raise
             _drain(queue, progress)
             return [f.result() for f in futs]
+
+
+@contextlib.contextmanager
+def _ctrl_c_blocked() -> Iterator[None]:
+    """Within the block, SIGINT waits in this thread (and in the processes it spawns); on
+    leaving, a Ctrl-C that came meanwhile is taken, as KeyboardInterrupt. Nothing on a
+    system without signal masks, or outside the main thread."""
+    if not hasattr(signal, "pthread_sigmask") or threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+    try:
+        yield
+    finally:
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
+
+
+def _take_ctrl_c() -> None:
+    """In a study worker (started within :func:`_ctrl_c_blocked`): take Ctrl-C from now on.
+    One that came while the worker started is raised here, before its scenario begins."""
+    if hasattr(signal, "pthread_sigmask") and threading.current_thread() is threading.main_thread():
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
 
 
 class _Never:

@@ -16,11 +16,13 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
+from functools import cached_property
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
+from ..clock import site_clock
 from ..errors import InputError
 from ..units import UnitError, column_factor, in_site_currency
 from .schema import SiteConfig
@@ -57,6 +59,13 @@ class Series:
     def wall_time(self) -> pd.DatetimeIndex:
         """The site's wall-clock time of each hour (naive)."""
         return self.wall if self.wall is not None else self.time
+
+    @cached_property
+    def stamps(self) -> pd.Index:
+        """Each hour as the file wrote it, with its UTC offset when it gave one: the times
+        every output file and message shows (:mod:`cogendispatch.clock`); ``time`` is UTC
+        then, for matching hours."""
+        return site_clock(self.time, self.wall)
 
     @property
     def hours(self) -> int:

@@ -11,6 +11,7 @@ from pathlib import Path
 import pandas as pd
 from openpyxl.utils import get_column_letter
 
+from ..clock import read_clock
 from ..outputs import quote_formulas
 
 
@@ -38,12 +39,17 @@ def _sheet(writer: pd.ExcelWriter, name: str, df: pd.DataFrame, index: bool, key
 
 
 def _read(path: Path, index: str | None = None) -> pd.DataFrame:
-    """A plan table with its ``time`` column as date-times Excel can sort and filter (times
-    with a UTC offset become UTC: a workbook cell holds no offset)."""
+    """A plan table with its ``time`` column as date-times Excel can sort and filter: the
+    site's wall-clock time, as the series wrote it. A workbook cell holds no UTC offset, so
+    times written with one keep it in a ``utc_offset`` column beside (the two 02:00 hours of
+    an autumn clock change differ there)."""
     df = pd.read_csv(path)
     if "time" in df:
-        t = pd.to_datetime(df["time"], utc=df["time"].astype(str).str.contains(r"[+-]\d\d:\d\d$|Z$").any())
-        df["time"] = t.dt.tz_localize(None) if t.dt.tz is not None else t
+        stamps = read_clock(df["time"])
+        df["time"] = [t.tz_localize(None) for t in stamps]
+        if len(stamps) and stamps[0].tzinfo is not None:
+            # "UTC+02:00": a cell starting with '+' would read as a formula
+            df.insert(1, "utc_offset", ["UTC" + t.strftime("%z")[:3] + ":" + t.strftime("%z")[3:] for t in stamps])
     return df.set_index(index) if index else df
 
 

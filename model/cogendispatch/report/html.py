@@ -9,6 +9,7 @@ from pathlib import Path
 import pandas as pd
 
 from . import plots
+from ..clock import read_clock
 from ..outputs import without_money_unit
 from ..studies import window_gap_words
 from ..units import convert
@@ -67,14 +68,26 @@ def _num(x: object) -> float:
     return float("nan") if x is None else float(x)  # type: ignore[arg-type]
 
 
+def _read_timed(path: Path, index: bool = False) -> pd.DataFrame:
+    """A plan table with its ``time`` column on the site's clock, each hour with the UTC
+    offset it was written with (:func:`cogendispatch.clock.read_clock`), as the index or
+    as a column."""
+    df = pd.read_csv(path)
+    times = read_clock(df.pop("time"))
+    if index:
+        df.index = times
+    else:
+        df.insert(0, "time", times)
+    return df
+
+
 def plan_report(d: Path, units: Units = Units()) -> str:
     """The plan page, built from the files of a plan folder."""
     s = json.loads((d / "summary.json").read_text(encoding="utf-8"))
-    sched = pd.read_csv(d / "schedule.csv", index_col="time", parse_dates=["time"])
-    bal = pd.read_csv(d / "balances.csv", parse_dates=["time"])
-    pw = pd.read_csv(d / "power.csv", parse_dates=["time"])
-    cost = without_money_unit(pd.read_csv(d / "costs.csv", index_col="time", parse_dates=["time"]),
-                              str(s.get("currency", "")))
+    sched = _read_timed(d / "schedule.csv", index=True)
+    bal = _read_timed(d / "balances.csv")
+    pw = _read_timed(d / "power.csv")
+    cost = without_money_unit(_read_timed(d / "costs.csv", index=True), str(s.get("currency", "")))
     cur = escape(str(s.get("currency", "")))
     sec = s.get("seconds", {})
     meta = (f"{escape(s.get('site_name', ''))} &middot; {s['hours']} h from {escape(str(s.get('first_hour')))} &middot; "
@@ -136,7 +149,7 @@ def plan_report(d: Path, units: Units = Units()) -> str:
                               "on motor": {k: v["motor"] for k, v in dh.items()}})
         body.append("<h2>Drivers</h2>" + _chart(plots.stacked_bars(frame, "Machine-hours on steam and on motor",
                                                                     "machine-hours [h]", horizontal=True)))
-    daily = cost.groupby(cost.index.date).sum()
+    daily = cost.groupby([t.date() for t in cost.index]).sum()  # the site's days (cogendispatch.clock)
     # penalties for unmet demand are of another order (10^6 per t): charted, they flatten
     # every real cost, so they are named in words instead
     short = cost["penalty"] > 1e-6 if "penalty" in cost else pd.Series(False, index=cost.index)
@@ -148,7 +161,7 @@ def plan_report(d: Path, units: Units = Units()) -> str:
                     f"{cur} in {int(short.sum())} h, are left out of this chart and of the prices below; "
                     "see the diagnosis.</p>")
     if (d / "prices.csv").is_file():
-        pr = pd.read_csv(d / "prices.csv", parse_dates=["time"])
+        pr = _read_timed(d / "prices.csv")
         wide = pr.pivot(index="time", columns="balance", values="price")
         wide.loc[short.reindex(wide.index, fill_value=False).to_numpy(), :] = float("nan")  # priced by a penalty
         steam = wide.drop(columns="power", errors="ignore") / units.kf  # per t -> per klb in US units

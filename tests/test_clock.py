@@ -1,0 +1,82 @@
+"""The site's clock: a series written with UTC offsets gets every output hour back as it
+wrote it, with its own offset, across the autumn clock change (two hours read 02:00)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from cogendispatch.cli import main
+from cogendispatch.clock import as_utc, hour_label, read_clock, site_clock
+from test_plan_small import TINY_TOML
+
+# 31 October 2027, 00:00 to 05:00 in central Europe: summer time (+02:00) ends at 03:00,
+# when the clocks go back to 02:00 (+01:00), so 02:00 comes twice (EU Directive 2000/84/EC:
+# summer time ends at 01:00 UTC on the last Sunday of October)
+STAMPS = ["2027-10-31T00:00+02:00", "2027-10-31T01:00+02:00", "2027-10-31T02:00+02:00",
+          "2027-10-31T02:00+01:00", "2027-10-31T03:00+01:00", "2027-10-31T04:00+01:00"]
+SERIES = ("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n"
+          + "".join(f"{t},0,{20 + h},5,{50 + 5 * h}\n" for h, t in enumerate(STAMPS)))
+
+
+@pytest.fixture(scope="module")
+def plan_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    d = tmp_path_factory.mktemp("clock")
+    (d / "site.toml").write_text(TINY_TOML)
+    (d / "s.csv").write_text(SERIES)
+    assert main(["plan", str(d / "site.toml"), "--series", str(d / "s.csv"), "--out", str(d / "out"), "--quiet"]) == 0
+    return d / "out"
+
+
+def test_site_clock_keeps_each_hours_offset() -> None:
+    utc = pd.date_range("2027-10-30 22:00", periods=6, freq="h", tz="UTC")
+    wall = pd.DatetimeIndex(["2027-10-31 00:00", "2027-10-31 01:00", "2027-10-31 02:00", "2027-10-31 02:00",
+                             "2027-10-31 03:00", "2027-10-31 04:00"])
+    got = site_clock(utc, wall)
+    assert [t.isoformat() for t in got] == [pd.Timestamp(s).isoformat() for s in STAMPS]
+    assert (as_utc(read_clock([str(t) for t in got])) == utc).all()
+    # one offset all through: a plain DatetimeIndex in that zone
+    one = site_clock(utc[:2], wall[:2])
+    assert isinstance(one, pd.DatetimeIndex) and str(one[0]) == "2027-10-31 00:00:00+02:00"
+    assert site_clock(utc, None) is utc
+    # in messages the repeated hour is told apart by its offset
+    assert [hour_label(got[i]) for i in (2, 3)] == ["2027-10-31 02:00+02:00", "2027-10-31 02:00+01:00"]
+    assert hour_label(pd.Timestamp("2027-10-31 02:00")) == "2027-10-31 02:00"
+
+
+def test_plan_files_give_the_hours_as_the_series_wrote_them(plan_dir: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    want = [str(pd.Timestamp(s)) for s in STAMPS]
+    for name in ("schedule.csv", "costs.csv", "verify.csv"):
+        assert pd.read_csv(plan_dir / name)["time"].tolist() == want, name
+    for name in ("balances.csv", "power.csv", "prices.csv"):
+        assert pd.read_csv(plan_dir / name)["time"].drop_duplicates().tolist() == want, name
+    s = json.loads((plan_dir / "summary.json").read_text())
+    assert s["first_hour"] == "2027-10-31 00:00:00+02:00"  # not 2027-10-30 22:00 UTC, the day before
+    # the re-check reads the folder back and keeps the clock
+    assert main(["verify", str(plan_dir)]) == 0
+    assert pd.read_csv(plan_dir / "verify.csv")["time"].tolist() == want
+
+
+def test_workbook_and_page_show_the_wall_clock(plan_dir: Path) -> None:
+    sched = pd.read_excel(plan_dir / "plan.xlsx", sheet_name="schedule")
+    assert [f"{t:%H:%M}" for t in sched["time"]] == ["00:00", "01:00", "02:00", "02:00", "03:00", "04:00"]
+    assert sched["utc_offset"].tolist() == ["UTC+02:00"] * 3 + ["UTC+01:00"] * 3
+    html = (plan_dir / "report.html").read_text()
+    assert "from 2027-10-31 00:00:00+02:00" in html
+
+
+def test_advice_takes_the_wall_clock_and_asks_which_repeated_hour(plan_dir: Path,
+                                                                 capsys: pytest.CaptureFixture[str]) -> None:
+    d = plan_dir.parent
+    args = ["advise", str(d / "site.toml"), "--series", str(d / "s.csv"), "--plan", str(plan_dir), "--json"]
+    assert main([*args, "--at", "2027-10-31T04:00"]) == 0
+    assert json.loads(capsys.readouterr().out)["time"] == "2027-10-31 04:00:00+01:00"
+    assert main([*args, "--at", "2027-10-31T02:00"]) == 2
+    err = capsys.readouterr().err
+    assert "comes twice" in err and "2027-10-31T02:00:00+02:00" in err and "2027-10-31T02:00:00+01:00" in err
+    # the same instant written in the other offset is the same hour
+    assert main([*args, "--at", "2027-10-31T03:00+02:00"]) == 0
+    assert json.loads(capsys.readouterr().out)["time"] == "2027-10-31 02:00:00+01:00"
