@@ -77,6 +77,47 @@ def test_advice_takes_the_wall_clock_and_asks_which_repeated_hour(plan_dir: Path
     assert main([*args, "--at", "2027-10-31T02:00"]) == 2
     err = capsys.readouterr().err
     assert "comes twice" in err and "2027-10-31T02:00:00+02:00" in err and "2027-10-31T02:00:00+01:00" in err
+    # an hour without a date: the example and the span are the site's (00:00+02:00 is
+    # 22:00 UTC the day before)
+    assert main([*args, "--at", "10:00"]) == 2
+    err = capsys.readouterr().err
+    assert "'2027-10-31T10:00'" in err and "runs 2027-10-31 00:00+02:00 to 2027-10-31 04:00+01:00" in err, err
     # the same instant written in the other offset is the same hour
     assert main([*args, "--at", "2027-10-31T03:00+02:00"]) == 0
     assert json.loads(capsys.readouterr().out)["time"] == "2027-10-31 02:00:00+01:00"
+
+
+def test_clock_change_mistakes_are_named() -> None:
+    """A series exported without offsets repeats 02:00 on the autumn night: refused with a
+    hint at the clock change. With offsets, --at at an hour the spring clocks skip says so,
+    and --at with the other season's offset is read as the same instant, with a note."""
+    from cogendispatch.decisions import hour_index
+    from cogendispatch.errors import InputError
+    from cogendispatch.plant.series import parse_series
+    from tiny import site
+
+    cfg = site()
+
+    def frame(times: list[str]) -> pd.DataFrame:
+        return pd.DataFrame({"time": times, "demand:HP [t/h]": "0", "demand:LP [t/h]": "20", "load [MW]": "5",
+                             "price:import [per MWh]": "100"})
+
+    naive = [s[:16] for s in STAMPS]  # local time, offsets dropped: 02:00 twice
+    with pytest.raises(InputError, match="duplicated hour 2027-10-31T02:00; the clocks going back"):
+        parse_series(frame(naive), cfg, "<naive>")
+    # spring, 28 March 2027: 01:00+01:00 is followed by 03:00+02:00
+    spring = parse_series(frame(["2027-03-28T00:00+01:00", "2027-03-28T01:00+01:00", "2027-03-28T03:00+02:00",
+                                 "2027-03-28T04:00+02:00"]), cfg, "<spring>")
+    with pytest.raises(InputError, match="the clocks skip it"):
+        hour_index(spring, "2027-03-28T02:00", "<spring>")
+    assert hour_index(spring, "2027-03-28T04:00", "<spring>") == 3
+
+
+def test_advice_at_with_the_other_seasons_offset_says_which_hour(plan_dir: Path,
+                                                                  capsys: pytest.CaptureFixture[str]) -> None:
+    d = plan_dir.parent
+    assert main(["advise", str(d / "site.toml"), "--series", str(d / "s.csv"), "--plan", str(plan_dir), "--json",
+                 "--at", "2027-10-31T05:00+02:00"]) == 0
+    got = json.loads(capsys.readouterr().out)
+    assert got["time"] == "2027-10-31 04:00:00+01:00"
+    assert any("is 2027-10-31 04:00+01:00 as the series writes it" in n for n in got["notes"]), got["notes"]

@@ -539,3 +539,35 @@ def test_an_interrupted_report_leaves_no_temporary_file(tmp_path, monkeypatch) -
     with pytest.raises(KeyboardInterrupt):
         rep.write_reports(out)
     assert not any(p.name.endswith(".tmp") for p in out.iterdir())
+
+
+@pytest.mark.skipif(not hasattr(signal, "pthread_sigmask") or not Path("/proc/self/status").is_file(),
+                    reason="signal masks read from /proc")
+def test_study_processes_hold_ctrl_c_until_their_scenario_and_after_it(monkeypatch) -> None:  # noqa: ANN001
+    """A study's manager and workers start with Ctrl-C held (it would end them with a
+    traceback from inside multiprocessing while they import); a worker takes it while its
+    scenario runs and holds it again after, while it waits for the next one."""
+    import multiprocessing as mp
+
+    from cogendispatch import studies
+
+    def sigblk(pid: int) -> int:
+        line = next(x for x in Path(f"/proc/{pid}/status").read_text().splitlines() if x.startswith("SigBlk:"))
+        return int(line.split()[1], 16)
+
+    with studies._ctrl_c_blocked():
+        manager = mp.get_context("spawn").Manager()
+    try:
+        assert sigblk(manager._process.pid) & (1 << (signal.SIGINT - 1))
+    finally:
+        manager.shutdown()
+    assert signal.SIGINT not in signal.pthread_sigmask(signal.SIG_BLOCK, [])  # the mask as it was
+    # a worker's job: Ctrl-C taken inside, held again after
+    seen = []
+    monkeypatch.setattr(studies, "rolling_horizon",
+                        lambda *a, **k: seen.append(signal.SIGINT in signal.pthread_sigmask(signal.SIG_BLOCK, [])))
+    try:
+        studies._scenario_job((None, type("P", (), {"name": "x"})(), None, 24, 0, None, None, studies._NEVER))
+        assert seen == [False] and signal.SIGINT in signal.pthread_sigmask(signal.SIG_BLOCK, [])
+    finally:
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})

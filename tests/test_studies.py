@@ -118,7 +118,7 @@ demand = { LP = 1.1 }
     ('[[scenario]]\nname = "a"\nimport = { multiply = 1e400 }\n', "import > multiply"),
     ('[[scenario]]\nname = "a"\nco2 = { add = "20 USD/t" }\n', "co2 > add"),  # not the site's currency
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "2027-03-01T00:00+01:00"\nto = "2027-03-01T05:00+01:00"\n',
-     "both have a UTC offset or both not"),
+     "has a UTC offset but the series' times have none"),
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "tuesday"\nto = "2027-03-01"\n', "from"),
     # spellings pandas reads but not as a whole day: 2027-3-01 would end at 00:00, not 23:00
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "2027-03-01"\nto = "2027-3-01"\n',
@@ -424,19 +424,41 @@ load = 1.1
 
 def test_outage_times_against_a_series_with_utc_offsets() -> None:
     """A series with UTC offsets (read as UTC) takes outage times with offsets, compared
-    as instants; a date alone carries no offset and is refused with an example that has
-    one, as is a time without an offset (the comparison once crashed)."""
+    as instants, or without, as the site's wall clock: across the autumn clock change of
+    31 October 2027 in central Europe (EU Directive 2000/84/EC: summer time ends at 01:00
+    UTC on the last Sunday of October), 02:00 comes twice, so a 'from' at 02:00 is the first
+    and a 'to' the second; a date alone is the site's day, 00:00 to 23:00 on its clock."""
     from pathlib import Path
 
+    from cogendispatch.plant.series import parse_series
     from cogendispatch.studies import _outage_time
+    from tiny import site
 
-    times = pd.date_range("2027-03-01", periods=48, freq="h", tz="UTC")
+    utc = pd.date_range("2027-10-30 22:00", periods=48, freq="h", tz="UTC")
+    stamps = [t.tz_convert("Europe/Berlin").isoformat() for t in utc]
+    cfg = site()
+    ser = parse_series(pd.DataFrame({"time": stamps, "demand:HP [t/h]": "0", "demand:LP [t/h]": "20",
+                                     "load [MW]": "5", "price:import [per MWh]": "100"}), cfg, "<offsets>")
     f = Path("sc.toml")
-    assert _outage_time(f, "x", "2027-03-01T06:00+01:00", times, end=False) == times[5]
-    with pytest.raises(InputError, match="a date alone, which carries no UTC offset"):
-        _outage_time(f, "x", "2027-03-01", times, end=True)
-    with pytest.raises(InputError, match="both have a UTC offset or both not"):
-        _outage_time(f, "x", "2027-03-01T06:00", times, end=False)
+    assert _outage_time(f, "x", "2027-10-31T06:00+01:00", ser, end=False) == utc[7]
+    notes: list[str] = []
+    assert _outage_time(f, "x", "2027-10-31T02:00", ser, end=False, notes=notes) == utc[2]  # 02:00+02:00
+    assert _outage_time(f, "x", "2027-10-31T02:00", ser, end=True, notes=notes) == utc[3]  # 02:00+01:00
+    assert "comes twice (the clocks go back): taken as 2027-10-31 02:00:00+02:00, the first" in notes[0]
+    assert "taken as 2027-10-31 02:00:00+01:00, the second" in notes[1]
+    assert _outage_time(f, "x", "2027-10-31", ser, end=False) == utc[0]  # 00:00+02:00
+    assert _outage_time(f, "x", "2027-10-31", ser, end=True) == utc[24]  # 23:00+01:00, 25 h on
+    # beyond the series' end, at the offset of its last hour
+    assert _outage_time(f, "x", "2027-11-02T06:00", ser, end=True) == pd.Timestamp("2027-11-02T05:00", tz="UTC")
+    # spring: on 28 March 2027 the clocks skip 02:00 (01:00+01:00 is followed by 03:00+02:00);
+    # an outage from 02:00 begins at 03:00, one to 02:00 ends at 01:00
+    utc = pd.date_range("2027-03-27 23:00", periods=6, freq="h", tz="UTC")
+    ser = parse_series(pd.DataFrame({"time": [t.tz_convert("Europe/Berlin").isoformat() for t in utc],
+                                     "demand:HP [t/h]": "0", "demand:LP [t/h]": "20", "load [MW]": "5",
+                                     "price:import [per MWh]": "100"}), cfg, "<offsets>")
+    assert _outage_time(f, "x", "2027-03-28T02:00", ser, end=False, notes=notes) == utc[2]  # 03:00+02:00
+    assert "an hour the clocks skip: taken as 2027-03-28 03:00:00+02:00" in notes[-1]
+    assert _outage_time(f, "x", "2027-03-28T02:00", ser, end=True) == utc[1]  # 01:00+01:00
 
 
 def test_months_are_the_sites_when_the_series_has_utc_offsets(tmp_path) -> None:  # noqa: ANN001

@@ -184,7 +184,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "saving and the import price at which the answer flips. What-if options re-solve the hour "
                         "with the change and say what moved.")
     _site_and_series(ad, "hourly demands and prices (CSV or Excel)")
-    ad.add_argument("--at", required=True, help="the hour, as written in the series' time column")
+    ad.add_argument("--at", required=True, help="the hour, as written in the series' time column (with UTC offsets there, the wall-clock time alone will do but for the hour that comes twice when the clocks go back)")
     ad.add_argument("--plan", metavar="DIR", help="hold the on/off states of this plan's schedule.csv")
     ad.add_argument("--force", action="append", default=[], metavar="MACHINE=steam|motor",
                     help="what if this machine ran on its steam turbine or on its motor (repeatable)")

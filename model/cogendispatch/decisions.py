@@ -25,7 +25,7 @@ import numpy as np
 import pandas as pd
 from pyomo.repn import generate_standard_repn
 
-from .clock import as_utc, read_clock
+from .clock import as_utc, hour_label, read_clock
 from .equipment.common import SiteStates
 from .equipment.drive import position_history
 from .errors import InputError
@@ -295,11 +295,11 @@ def hour_index(series: Series, at: str, path: str) -> int:
     if "/" in at or "." in at.split("T")[0].split(" ")[0]:
         # 5/1/2027 is 1 May in one country and 5 January in another
         raise InputError(None, "--at", f"'{at}': write the date as year-month-day, e.g. '2027-01-05T10:00'")
-    first = pd.Timestamp(series.time[0])
+    first = pd.Timestamp(series.wall_time[0])  # the site's clock, as the series wrote it
     if not re.search(r"\d{4}-\d{2}-\d{2}", at):  # '10:00' reads as today, not as a day of the series
         raise InputError(None, "--at", f"'{at}' gives no date; write the date and the hour, e.g. "
-                         f"'{first:%Y-%m-%d}T{ts:%H:%M}' (the series runs {first:%Y-%m-%d %H:%M} to "
-                         f"{pd.Timestamp(series.time[-1]):%Y-%m-%d %H:%M})")
+                         f"'{first:%Y-%m-%d}T{ts:%H:%M}' (the series runs {hour_label(series.stamps[0])} to "
+                         f"{hour_label(series.stamps[-1])})")
     if not re.search(r"\d[T ]\d", at.strip()):  # a date alone would silently mean midnight
         raise InputError(None, "--at", f"'{at}' gives no hour; write e.g. '{ts:%Y-%m-%d}T10:00'")
     span = f"the series runs {series.stamps[0]} to {series.stamps[-1]}"
@@ -311,6 +311,10 @@ def hour_index(series: Series, at: str, path: str) -> int:
             twice = " or ".join(f"'{series.stamps[i].isoformat()}'" for i in hits)
             raise InputError(path, "--at", f"{at} comes twice in the series (the clocks go back): give its UTC "
                              f"offset, {twice}")
+        if len(hits) == 0 and series.wall_time[0] < ts < series.wall_time[-1]:
+            raise InputError(path, "--at", f"{at} is no hour of the site's clock: the clocks skip it (the series "
+                             f"goes from {hour_label(series.stamps[int(np.searchsorted(series.wall_time, ts)) - 1])} "
+                             f"to {hour_label(series.stamps[int(np.searchsorted(series.wall_time, ts))])})")
     else:
         if ts.tzinfo is not None:
             ts = ts.tz_convert("UTC")
@@ -923,6 +927,11 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     i = hour_index(series, at, series_path)
     held, plan_drivers, history, before = held_states(cfg, series, i, plan_dir, build)
     held_notes = []
+    asked = pd.Timestamp(at)
+    if asked.tzinfo is not None and asked.utcoffset() != series.stamps[i].utcoffset():
+        # +02:00 typed from summer habit in winter: the same instant, another wall-clock hour
+        held_notes.append(f"{at} is {hour_label(series.stamps[i])} as the series writes it (the same instant "
+                          "in the series' offset for that hour)")
     for u in (*cfg.boilers, *cfg.turbogenerators):
         if not u.available and held.get(u.id) == 1:  # the site file has it out since the plan
             held[u.id] = 0

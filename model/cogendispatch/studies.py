@@ -40,6 +40,7 @@ import time
 import tomllib
 from collections.abc import Iterator
 from concurrent.futures import ProcessPoolExecutor
+from multiprocessing import resource_tracker
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Annotated, Any, Callable
@@ -189,10 +190,11 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
             notes.append(f"{here} > prices: {p.name} also has {', '.join(others)}, left out (a price file "
                          "replaces price columns only; demand and load change with 'demand' and 'load')")
         if len(repl.time) != len(base.time) or (repl.time != base.time).any():
-            missing, extra = base.time.difference(repl.time), repl.time.difference(base.time)
-            what = "; ".join(part for part in (
-                f"{len(missing)} hour(s) of the series missing, the first {missing[0]}" if len(missing) else "",
-                f"{len(extra)} hour(s) not in the series, the first {extra[0]}" if len(extra) else "") if part)
+            missing = [i for i, t in enumerate(base.time) if t not in set(repl.time)]
+            extra = [i for i, t in enumerate(repl.time) if t not in set(base.time)]
+            what = "; ".join(part for part in (  # each file's hours as it wrote them
+                f"{len(missing)} hour(s) of the series missing, the first {base.stamps[missing[0]]}" if missing else "",
+                f"{len(extra)} hour(s) not in the series, the first {repl.stamps[extra[0]]}" if extra else "") if part)
             raise InputError(path, here + " > prices", f"{p} does not cover the same hours as the base series"
                              + (f": {what}" if what else ""))
 
@@ -230,13 +232,13 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
         if o.unit not in units:
             raise InputError(path, w + " > unit", f"'{o.unit}' is not a boiler or turbo-generator "
                              f"(those are: {', '.join(sorted(units))})")
-        a = _outage_time(path, w + " > from", o.start, base.time, end=False)
-        b = _outage_time(path, w + " > to", o.end, base.time, end=True)
+        a = _outage_time(path, w + " > from", o.start, base, end=False, notes=notes)
+        b = _outage_time(path, w + " > to", o.end, base, end=True, notes=notes)
         if a > b:
             raise InputError(path, w + " > to", "is before 'from'")
         if b < base.time[0] or a > base.time[-1]:
             raise InputError(path, w, f"{o.start} to {o.end} lies wholly outside the series "
-                             f"({base.time[0]} to {base.time[-1]})")
+                             f"({base.stamps[0]} to {base.stamps[-1]})")
         # an outage running past either end of the series counts for the hours it covers
         i0 = int(np.searchsorted(base.time, a))
         i1 = int(np.searchsorted(base.time, b, side="right")) - 1
@@ -251,10 +253,16 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
     return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes))
 
 
-def _outage_time(path: Path, where: str, text: str, times: pd.DatetimeIndex, end: bool) -> pd.Timestamp:
-    """An outage's 'from' or 'to' as a time comparable with the series' ``times``. A date
-    alone is the day's first hour for 'from' and its last for 'to' (both inclusive). Times
-    with a UTC offset go with a series that has them, times without with one without."""
+def _outage_time(path: Path, where: str, text: str, series: Series, end: bool,
+                 notes: list[str] | None = None) -> pd.Timestamp:
+    """An outage's 'from' or 'to' as a time comparable with the series' ``time``. A date
+    alone is the day's first hour for 'from' and its last for 'to' (both inclusive). A time
+    with a UTC offset needs a series with them; one without, against a series with offsets,
+    is the site's wall-clock time: the hour that comes twice when the clocks go back is its
+    first for 'from' and its second for 'to', and a time the series does not hold (an hour
+    the clocks skip, or beyond its ends) takes the offset of the series' hour nearest it.
+    Either choice at a clock change is said in ``notes``."""
+    times = series.time
     if "/" in text or "." in re.split(r"[T ]", text.strip())[0]:
         # 5/1/2027 is 1 May in one country and 5 January in another
         raise InputError(path, where, f"'{text}': write the date as year-month-day, e.g. '2027-01-05T06:00'")
@@ -270,14 +278,35 @@ def _outage_time(path: Path, where: str, text: str, times: pd.DatetimeIndex, end
     date_alone = re.fullmatch(r"\s*\d{4}-\d{2}-\d{2}\s*", text) is not None
     if end and date_alone:
         t = t + pd.Timedelta(hours=23)
-    if t.tzinfo is None and times.tz is not None and date_alone:
-        raise InputError(path, where, f"'{text}' is a date alone, which carries no UTC offset, and the series' "
-                         f"times have one: give the time with its offset, e.g. '{text.strip()}T00:00+01:00'")
-    if (t.tzinfo is None) != (times.tz is None):
-        has = "with" if times.tz is not None else "without"
-        raise InputError(path, where, f"'{text}' and the series' times must both have a UTC offset or both "
-                         f"not: the series' times are {has} one (e.g. '{times[0].isoformat()}')")
+    if t.tzinfo is not None and times.tz is None:
+        raise InputError(path, where, f"'{text}' has a UTC offset but the series' times have none (e.g. "
+                         f"'{series.stamps[0].isoformat()}'): give it without")
+    if t.tzinfo is None and times.tz is not None:
+        return _wall_to_utc(t, series, end, f"{path}: {where}: '{text}'", notes)
     return t
+
+
+def _wall_to_utc(t: pd.Timestamp, series: Series, end: bool, what: str = "",
+                 notes: list[str] | None = None) -> pd.Timestamp:
+    """The site's wall-clock time ``t`` (naive) as the UTC time of ``series`` (which has
+    offsets); see :func:`_outage_time` for the hours it does not hold once, which are
+    said in ``notes`` (``what`` names the time)."""
+    wall, times = series.wall_time, series.time
+    hits = np.flatnonzero(wall == t)
+    said = notes if notes is not None else []
+    if len(hits):
+        k = int(hits[-1] if end else hits[0])
+        if len(hits) > 1:
+            said.append(f"{what} comes twice (the clocks go back): taken as {series.stamps[k]}, the "
+                        f"{'second' if end else 'first'}; give the offset to choose")
+        return times[k]
+    i = int(np.searchsorted(wall, t))  # wall-clock times rise but for the hour repeated
+    if 0 < i < len(wall):  # inside the series: an hour the clocks skip, so the next or the one before
+        k = i - 1 if end else i
+        said.append(f"{what} is an hour the clocks skip: taken as {series.stamps[k]}")
+        return times[k]
+    k = 0 if i == 0 else len(wall) - 1
+    return (t - (wall[k] - times[k].tz_localize(None))).tz_localize("UTC")
 
 
 # ------------------------------------------------------------------ rolling horizon
@@ -509,7 +538,7 @@ def summarise(cfg: SiteConfig, r: ScenarioResult, by_month: bool = False) -> pd.
         # the site's months: a series with UTC offsets is held in UTC, whose months begin
         # an hour or two off the site's
         months = r.months if r.months is not None and len(r.months) == len(frame) else \
-            pd.DatetimeIndex(s.index).tz_localize(None).to_period("M").astype(str)
+            [f"{pd.Timestamp(t):%Y-%m}" for t in s.index]  # each hour on its own clock
         out = frame.groupby(np.asarray(months)).sum()
         out.index.name = "month"
         out.insert(0, "scenario", r.name)
@@ -538,7 +567,6 @@ def _scenario_job(args: tuple[Any, ...]) -> ScenarioResult:
     process ignores Ctrl-C) set: the study was interrupted, so a scenario still queued does
     not start and a running one ends after its current window."""
     cfg, ps, options, window, lookahead, build, queue, stop = args
-    _take_ctrl_c()
 
     def on_window(i: int, n: int) -> None:
         if stop.is_set():
@@ -546,8 +574,12 @@ def _scenario_job(args: tuple[Any, ...]) -> ScenarioResult:
         if queue is not None:
             queue.put((ps.name, i, n))
 
-    on_window(0, 1)
-    return rolling_horizon(cfg, ps, options, window, lookahead, build, on_window)
+    _take_ctrl_c()
+    try:
+        on_window(0, 1)
+        return rolling_horizon(cfg, ps, options, window, lookahead, build, on_window)
+    finally:
+        _take_ctrl_c(False)
 
 
 def run_study(cfg: SiteConfig, scenarios: list[PreparedScenario], options: SolveOptions,
@@ -615,18 +647,25 @@ def _ctrl_c_blocked() -> Iterator[None]:
     if not hasattr(signal, "pthread_sigmask") or threading.current_thread() is not threading.main_thread():
         yield
         return
-    signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+    # the resource tracker, started with the first spawned process, unblocks SIGINT as it
+    # starts (multiprocessing.resource_tracker.ensure_running): started first, it leaves
+    # the mask alone
+    resource_tracker.ensure_running()
+    before = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
     try:
         yield
     finally:
-        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
+        signal.pthread_sigmask(signal.SIG_SETMASK, before)
 
 
-def _take_ctrl_c() -> None:
-    """In a study worker (started within :func:`_ctrl_c_blocked`): take Ctrl-C from now on.
-    One that came while the worker started is raised here, before its scenario begins."""
+def _take_ctrl_c(take: bool = True) -> None:
+    """In a study worker (started within :func:`_ctrl_c_blocked`): take Ctrl-C while its
+    scenario runs, and hold it again after (``take`` False): an idle worker waiting for
+    its next scenario inside multiprocessing would end with a traceback. One that came
+    while the worker started or waited is raised as it takes Ctrl-C, before a scenario
+    begins."""
     if hasattr(signal, "pthread_sigmask") and threading.current_thread() is threading.main_thread():
-        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
+        signal.pthread_sigmask(signal.SIG_UNBLOCK if take else signal.SIG_BLOCK, {signal.SIGINT})
 
 
 class _Never:

@@ -369,7 +369,11 @@ def _parse_time(col: pd.Series, path: Path) -> tuple[pd.DatetimeIndex, str, pd.D
             prev = f"row {row - 1} '{text.iloc[i]}' read as {parsed[i]:%Y-%m-%d %H:%M}" \
                 + (" UTC" if parsed[i].tzinfo is not None else "")
             if d == 0:
-                raise InputError(path, f"row {row}, column 'time'", f"duplicated hour {text.iloc[i + 1]}")
+                # a repeated hour in a month when clocks go back is most likely the local
+                # fall-back hour, unless the times carry their offsets
+                back = parsed[i].month in (3, 4, 9, 10, 11) and parsed[i].tzinfo is None
+                raise InputError(path, f"row {row}, column 'time'", f"duplicated hour {text.iloc[i + 1]}"
+                                 + ("; the clocks going back? give UTC offsets" if back else ""))
             if d < 0:
                 raise InputError(path, f"row {row}, column 'time'",
                                  f"{text.iloc[i + 1]} is before the previous row ({prev}): rows must be in time order")
