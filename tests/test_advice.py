@@ -1046,3 +1046,20 @@ def test_a_header_fed_only_at_its_limits_is_priced_through_the_letdown_below_it(
     st = SiteStates.of(cfg)
     r = (st.headers["MP"].h - st.h_feedwater) / (st.headers["LP"].h - st.h_feedwater)
     assert a.prices["LP"] < a.prices["MP"] < r * a.prices["LP"]
+
+
+def test_driver_table_side_by_side_is_the_same_table() -> None:
+    """The driver table's machines searched in two threads (each on its own copy of the
+    loaded hour) give the table one thread gives, row for row."""
+    from pathlib import Path
+
+    from cogendispatch.plant.load import load_site
+    from cogendispatch.plant.series import load_series
+    root = Path(__file__).resolve().parents[1] / "plant_configs"
+    cfg = load_site(root / "saltmarsh_refinery.toml")
+    ser = load_series(root / "saltmarsh_week.csv", cfg)
+    one = advise(cfg, ser, "2027-01-05T10:00", "<demo>", threads=1).drivers
+    two = advise(cfg, ser, "2027-01-05T10:00", "<demo>", threads=2).drivers
+    assert len(one) == 6
+    import pandas as pd
+    pd.testing.assert_frame_equal(one, two)

@@ -207,6 +207,9 @@ def build_parser() -> argparse.ArgumentParser:
                          "hour re-chooses the drivers the minimum time between changes allows); a row of the "
                          "driver table or a --force frees its own machine")
     ad.add_argument("--no-reserve", action="store_true", help="drop the one-boiler-trip steam reserve")
+    ad.add_argument("--threads", type=_count, default=min(2, os.cpu_count() or 1),
+                    help="machines of the driver table searched side by side, each re-solve on one thread "
+                         "(default 2, or 1 on a one-core machine)")
     ad.add_argument("--out", help="also write advice.json, prices.csv, drivers.csv and summary.json here")
     ad.add_argument("--json", action="store_true", help="print advice.json to standard output")
     return p
@@ -340,7 +343,7 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
     w = what_if_from_args(args, cfg.site.currency)
     a = advise(cfg, series, args.at, args.series, args.plan, w,
                BuildOptions(reserve=False if args.no_reserve else None), allow_starts=args.allow_starts,
-               keep_drivers=args.keep_drivers, allow_stops=args.allow_stops)
+               keep_drivers=args.keep_drivers, allow_stops=args.allow_stops, threads=args.threads)
     # said once the hour is known to be in the plan, not before an error that it is not
     notes = _other_inputs(Path(args.plan), Path(args.site), Path(args.series)) if args.plan else []
     for note in notes + a.notes:

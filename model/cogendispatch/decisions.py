@@ -14,8 +14,10 @@ the model is built and loaded once per hour of advice.
 
 from __future__ import annotations
 
+import copy
 import math
 import re
+import threading
 from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
 from typing import Callable
@@ -129,6 +131,19 @@ class HourModel:
         # each machine this hour, from the drivers of the hour before (advise sets them); a
         # machine a what-if forces is not held to them
         self.driver_limits: dict[str, tuple[int, int]] = {}
+
+    def twin(self) -> "HourModel":
+        """A copy of this hour in a HiGHS instance of its own (same columns and rows, the
+        same held states and limits), for re-solves in another thread; the Pyomo model is
+        shared and only read."""
+        other = copy.copy(self)
+        other.lm = self.lm.spare()
+        other.lm.stop = threading.Event()  # set: the twin's runs stop soon (an error elsewhere)
+        other.h = other.lm.h
+        other.h.setOptionValue("mip_rel_gap", 1e-9)
+        other.h.setOptionValue("presolve", "off")
+        other.driver_limits = dict(self.driver_limits)
+        return other
 
     # -- changes -------------------------------------------------------------------------
     def _reset(self) -> None:
@@ -563,7 +578,7 @@ def marginal_flip_estimate(cfg: SiteConfig, d: Drive, prices: dict[str, float],
 def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
                  history: dict[str, DriverHistory] | None = None, tol: float = 0.5,
                  price_set_by: dict[str, str] | None = None,
-                 set_by_tg: dict[str, str] | None = None) -> pd.DataFrame:
+                 set_by_tg: dict[str, str] | None = None, threads: int = 1) -> pd.DataFrame:
     """One row per dual-driver machine: cost of the hour on steam and on motor (full
     re-solves), the saving, the import price at which the answer flips (bracketing and
     bisection to ``tol`` [currency/MWh], each step two full re-solves) and the marginal
@@ -576,92 +591,145 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
     marginal estimate whose prices a penalty sets: it would be no price of steam;
     ``set_by_tg`` (header id -> turbo-generator id whose extraction or exhaust sets its
     price) notes an estimate whose steam prices move with the power price. ``note``
-    says why a flip price or an estimate is missing. Sorted by saving."""
+    says why a flip price or an estimate is missing. Sorted by saving. With ``threads`` > 1
+    the machines are shared out among that many copies of the loaded hour (:meth:`HourModel.twin`),
+    each in its own thread: HiGHS gives up Python's lock while it solves, and each machine's
+    rows are its own hundred or so small re-solves."""
     history = history or {}
-    rows = []
-    p0 = hm.base_import
-    for d in hm.cfg.drives:
-        if d.id not in hm.drive_cols:
-            continue
-        on_steam = hm.solve(WhatIf(force={d.id: "steam"}))
-        on_motor = hm.solve(WhatIf(force={d.id: "motor"}))
-        c_steam, c_motor = on_steam.cost, on_motor.cost
-        d0 = c_steam - c_motor
-        # spared machines: every split too (1 of 2 on steam can beat both extremes)
-        costs = {0: c_motor, d.count: c_steam}
-        for n in range(1, d.count):
-            costs[n] = hm.cost(WhatIf(force={d.id: n}))
-        best_n = min(costs, key=lambda n: (costs[n], -n))
-        worst = max(c_steam, c_motor)
-        if worst - costs[best_n] <= TOL:
-            better, best_n = "either", (d.count if d0 <= 0 else 0)
-        elif best_n == d.count:
-            better = "steam"
-        elif best_n == 0:
-            better = "motor"
-        else:
-            better = f"{best_n} of {d.count} on steam"
-        est = marginal_flip_estimate(hm.cfg, d, prices, hm.feedwater_price)
-        if d.count > 1 and better != "either":
-            # where the best number on steam changes: all on motor and all on steam may
-            # cost the same at a price where a split beats both
-            margin = costs[best_n] - min(c for n, c in costs.items() if n != best_n)
-            flip, other = _flip_prices(hm, d.id, p0, margin, est, tol, split=(d.count, best_n))
-        else:
-            flip, other = _flip_prices(hm, d.id, p0, d0, est, tol)
-        notes = []
-        cur = hm.cfg.site.currency
-        if 0 < best_n < d.count and better != "either" and flip is not None:
-            notes.append(f"the flip price is where {best_n} of {d.count} on steam stops being the cheapest")
-        if flip is None:
-            lo, hi = _search_range(p0)
-            notes.append(f"no flip between {lo:,.0f} and {hi:,.0f} {cur}/MWh of import")
-        elif other is not None:
-            notes.append(f"the answer also changes at {other:,.1f} {cur}/MWh of import, "
-                         f"{'above' if other > p0 else 'below'} the hour's {p0:,.1f}")
-        penalised = [f"{b} price set by " + ("a penalty of another header or hour" if why == "penalty elsewhere"
-                                             else f"the {why}")
-                     for b in (d.steam_turbine.inlet, d.steam_turbine.exhaust, "power")
-                     # a price the reserve raises is still a cost: the estimate holds
-                     if (why := (price_set_by or {}).get(b, "cost")) not in ("cost", "reserve limit")]
-        if est is not None and penalised:
-            est = None
-            notes.append("marginal estimate left out: " + ", ".join(dict.fromkeys(penalised)))
-        tg_set = [f"{b} by {t}" for b in dict.fromkeys((d.steam_turbine.inlet, d.steam_turbine.exhaust))
-                  if (t := (set_by_tg or {}).get(b))]
-        if est is not None and tg_set:
-            # lambda_in - r lambda_ex is then the turbo-generator's power per t at the power
-            # price: the estimate is a multiple of the hour's price, not a fixed flip
-            notes.append("marginal estimate with steam prices set by a turbo-generator (" + ", ".join(tg_set)
-                         + "), which move with the power price: it holds only near the hour's price")
-        if est is not None and better in ("steam", "motor") and (est < p0) != (better == "steam"):
-            # the estimate holds for a small change at the hour's prices; a whole machine's
-            # steam can move them (its exhaust vented, a letdown closed)
-            notes.append(f"the marginal estimate ({est:,.1f}) points to {'steam' if est < p0 else 'motor'} at the "
-                         f"hour's {p0:,.1f} {cur}/MWh; the full re-solves, which count the whole machine's steam, "
-                         f"say {better}")
-        rows.append({
-            "machine": d.id, "count": d.count, "now_on_steam": now.get(d.id),
-            "cost_on_steam": c_steam, "cost_on_motor": c_motor, "best_on_steam": best_n,
-            "cost_best": costs[best_n], "saving": worst - costs[best_n],
-            # against the machines on steam now (the plan's, else the hour's own choice)
-            "saving_vs_now": costs[now[d.id]] - costs[best_n] if now.get(d.id) in costs else None,
-            "better": better,
-            "flip_import_price": flip,
-            "marginal_estimate": est,
-            "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
-            "steam_reserve_short_t_h": on_steam.reserve_short, "motor_reserve_short_t_h": on_motor.reserve_short,
-            "on_steam_hour_before": history[d.id].before if d.id in history else None,
-            "steam_blocked_h": float(history[d.id].held_for(True)) if d.id in history else float("nan"),
-            "motor_blocked_h": float(history[d.id].held_for(False)) if d.id in history else float("nan"),
-            # whether the minimum time between driver changes allows the best number now
-            "best_allowed_now": _in_range(best_n, history[d.id].allowed()) if d.id in history else None,
-            "note": "; ".join(notes),
-        })
+    drives = [d for d in hm.cfg.drives if d.id in hm.drive_cols]
+
+    def row(model: HourModel, d: Drive) -> dict:
+        return _driver_row(model, d, now, prices, history, tol, price_set_by, set_by_tg)
+
+    n = min(threads, len(drives))
+    if n <= 1:
+        rows = [row(hm, d) for d in drives]
+    else:
+        rows = _shared_out(hm, drives, n, row)
     df = pd.DataFrame(rows)
     if not df.empty:
         df = df.sort_values("saving", ascending=False, kind="stable").reset_index(drop=True)
     return df
+
+
+def _shared_out(hm: HourModel, drives: list[Drive], n: int, row: Callable[[HourModel, Drive], dict]) -> list[dict]:
+    """:func:`driver_table`'s rows in ``drives``' order, the machines taken in turn by ``hm``
+    in this thread and ``n`` - 1 twins of it in others. The first error (Ctrl-C included)
+    stops the others' solves and is raised here once they have ended."""
+    twins = [hm.twin() for _ in range(n - 1)]
+    out: list[dict | None] = [None] * len(drives)
+    # spared machines first: each of their steps re-solves every number on steam
+    todo = sorted(range(len(drives)), key=lambda k: -drives[k].count)
+    lock = threading.Lock()
+    errors: list[BaseException] = []
+
+    def work(model: HourModel) -> None:
+        try:
+            while not errors:
+                with lock:
+                    if not todo:
+                        return
+                    k = todo.pop(0)
+                out[k] = row(model, drives[k])
+        except BaseException as exc:  # noqa: BLE001 - handed to the caller's thread
+            errors.append(exc)
+            for t in twins:
+                if t.lm.stop is not None:
+                    t.lm.stop.set()
+
+    pool = [threading.Thread(target=work, args=(t,), name="cogen-advice", daemon=True) for t in twins]
+    for t in pool:
+        t.start()
+    try:
+        work(hm)
+    finally:
+        for t in pool:
+            t.join()
+    if errors:
+        raise errors[0]
+    return [r for r in out if r is not None]
+
+
+def _driver_row(hm: HourModel, d: Drive, now: dict[str, int], prices: dict[str, float],
+                history: dict[str, DriverHistory], tol: float, price_set_by: dict[str, str] | None,
+                set_by_tg: dict[str, str] | None) -> dict:
+    """One machine's row of :func:`driver_table`."""
+    p0 = hm.base_import
+    on_steam = hm.solve(WhatIf(force={d.id: "steam"}))
+    on_motor = hm.solve(WhatIf(force={d.id: "motor"}))
+    c_steam, c_motor = on_steam.cost, on_motor.cost
+    d0 = c_steam - c_motor
+    # spared machines: every split too (1 of 2 on steam can beat both extremes)
+    costs = {0: c_motor, d.count: c_steam}
+    for n in range(1, d.count):
+        costs[n] = hm.cost(WhatIf(force={d.id: n}))
+    best_n = min(costs, key=lambda n: (costs[n], -n))
+    worst = max(c_steam, c_motor)
+    if worst - costs[best_n] <= TOL:
+        better, best_n = "either", (d.count if d0 <= 0 else 0)
+    elif best_n == d.count:
+        better = "steam"
+    elif best_n == 0:
+        better = "motor"
+    else:
+        better = f"{best_n} of {d.count} on steam"
+    est = marginal_flip_estimate(hm.cfg, d, prices, hm.feedwater_price)
+    if d.count > 1 and better != "either":
+        # where the best number on steam changes: all on motor and all on steam may
+        # cost the same at a price where a split beats both
+        margin = costs[best_n] - min(c for n, c in costs.items() if n != best_n)
+        flip, other = _flip_prices(hm, d.id, p0, margin, est, tol, split=(d.count, best_n))
+    else:
+        flip, other = _flip_prices(hm, d.id, p0, d0, est, tol)
+    notes = []
+    cur = hm.cfg.site.currency
+    if 0 < best_n < d.count and better != "either" and flip is not None:
+        notes.append(f"the flip price is where {best_n} of {d.count} on steam stops being the cheapest")
+    if flip is None:
+        lo, hi = _search_range(p0)
+        notes.append(f"no flip between {lo:,.0f} and {hi:,.0f} {cur}/MWh of import")
+    elif other is not None:
+        notes.append(f"the answer also changes at {other:,.1f} {cur}/MWh of import, "
+                     f"{'above' if other > p0 else 'below'} the hour's {p0:,.1f}")
+    penalised = [f"{b} price set by " + ("a penalty of another header or hour" if why == "penalty elsewhere"
+                                         else f"the {why}")
+                 for b in (d.steam_turbine.inlet, d.steam_turbine.exhaust, "power")
+                 # a price the reserve raises is still a cost: the estimate holds
+                 if (why := (price_set_by or {}).get(b, "cost")) not in ("cost", "reserve limit")]
+    if est is not None and penalised:
+        est = None
+        notes.append("marginal estimate left out: " + ", ".join(dict.fromkeys(penalised)))
+    tg_set = [f"{b} by {t}" for b in dict.fromkeys((d.steam_turbine.inlet, d.steam_turbine.exhaust))
+              if (t := (set_by_tg or {}).get(b))]
+    if est is not None and tg_set:
+        # lambda_in - r lambda_ex is then the turbo-generator's power per t at the power
+        # price: the estimate is a multiple of the hour's price, not a fixed flip
+        notes.append("marginal estimate with steam prices set by a turbo-generator (" + ", ".join(tg_set)
+                     + "), which move with the power price: it holds only near the hour's price")
+    if est is not None and better in ("steam", "motor") and (est < p0) != (better == "steam"):
+        # the estimate holds for a small change at the hour's prices; a whole machine's
+        # steam can move them (its exhaust vented, a letdown closed)
+        notes.append(f"the marginal estimate ({est:,.1f}) points to {'steam' if est < p0 else 'motor'} at the "
+                     f"hour's {p0:,.1f} {cur}/MWh; the full re-solves, which count the whole machine's steam, "
+                     f"say {better}")
+    return {
+        "machine": d.id, "count": d.count, "now_on_steam": now.get(d.id),
+        "cost_on_steam": c_steam, "cost_on_motor": c_motor, "best_on_steam": best_n,
+        "cost_best": costs[best_n], "saving": worst - costs[best_n],
+        # against the machines on steam now (the plan's, else the hour's own choice)
+        "saving_vs_now": costs[now[d.id]] - costs[best_n] if now.get(d.id) in costs else None,
+        "better": better,
+        "flip_import_price": flip,
+        "marginal_estimate": est,
+        "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
+        "steam_reserve_short_t_h": on_steam.reserve_short, "motor_reserve_short_t_h": on_motor.reserve_short,
+        "on_steam_hour_before": history[d.id].before if d.id in history else None,
+        "steam_blocked_h": float(history[d.id].held_for(True)) if d.id in history else float("nan"),
+        "motor_blocked_h": float(history[d.id].held_for(False)) if d.id in history else float("nan"),
+        # whether the minimum time between driver changes allows the best number now
+        "best_allowed_now": _in_range(best_n, history[d.id].allowed()) if d.id in history else None,
+        "note": "; ".join(notes),
+    }
 
 
 def _in_range(n: int, bounds: tuple[int, int]) -> bool:
@@ -911,7 +979,7 @@ def _with_demand(series: Series, i: int, change: dict[str, float]) -> Series:
 
 def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir: str | None = None,
            what_if: WhatIf | None = None, build: BuildOptions = BuildOptions(), allow_starts: bool = False,
-           keep_drivers: bool = False, allow_stops: bool = False) -> Advice:
+           keep_drivers: bool = False, allow_stops: bool = False, threads: int = 1) -> Advice:
     """Advice for the hour ``at``: marginal prices, driver table and an optional what-if.
 
     The what-if holds every boiler's and turbo-generator's on/off state: within the hour a
@@ -975,7 +1043,7 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     # headers whose price a turbo-generator's extraction or exhaust sets (price_reasons)
     by_tg = {h: tg.id for h, text in reasons.items() for tg in cfg.turbogenerators
              if f"from {tg.id} (" in text or f"of {tg.id} (" in text}
-    drivers = driver_table(hm, now, prices, history, price_set_by=categories, set_by_tg=by_tg)
+    drivers = driver_table(hm, now, prices, history, price_set_by=categories, set_by_tg=by_tg, threads=threads)
     wi = None
     if what_if is not None and not what_if.empty():
         # the change is measured against the hour as held; the what-if holds it too unless
