@@ -121,3 +121,16 @@ def test_advice_at_with_the_other_seasons_offset_says_which_hour(plan_dir: Path,
     got = json.loads(capsys.readouterr().out)
     assert got["time"] == "2027-10-31 04:00:00+01:00"
     assert any("is 2027-10-31 04:00+01:00 as the series writes it" in n for n in got["notes"]), got["notes"]
+
+
+def test_report_time_axis_marks_the_sites_midnights_across_the_clock_change() -> None:
+    from cogendispatch.report.plots import time_ticks
+
+    utc = pd.date_range("2027-10-29 22:00", periods=72, freq="h", tz="UTC")  # 30 Oct 00:00+02:00 on
+    wall = pd.DatetimeIndex([t.tz_convert("Europe/Berlin").tz_localize(None) for t in utc])
+    ticks, labels = time_ticks(site_clock(utc, wall))
+    # 31 October has 25 hours: its midnight is row 24, 1 November's row 49
+    assert ticks == [0, 24, 49] and labels == ["Sat 30 Oct", "Sun 31 Oct", "Mon 01 Nov"]
+    # a day of the demo kind, no offsets: every three hours from midnight
+    ticks, labels = time_ticks(pd.date_range("2027-01-04", periods=24, freq="h"))
+    assert ticks == list(range(0, 24, 3)) and labels[1] == "04 Jan 03:00"

@@ -133,10 +133,24 @@ def grouped_bars(frame: pd.DataFrame, title: str, ylabel: str, horizontal: bool 
     return _svg(fig)
 
 
+def time_ticks(index: pd.Index) -> tuple[list[int], list[str]]:
+    """Rows of an hourly ``index`` to mark on a time axis, and their labels: the site's
+    midnights (more than 48 h), else every few hours on the clock. By each hour's own wall
+    clock, so that across a clock change the days stay days (a day of 23 or 25 rows) and
+    the repeated hour is marked once."""
+    n = len(index)
+    stamps = [pd.Timestamp(t) for t in index]
+    step = 24 if n > 48 else max(1, n // 8)  # [h]
+    ticks = [k for k, t in enumerate(stamps)
+             if t.hour % step == 0 and (k == 0 or stamps[k - 1].hour != t.hour)]
+    if not ticks:  # fewer rows than the step from the first marked hour: every step-th row
+        ticks = list(range(0, n, step))
+    return ticks, [stamps[t].strftime("%a %d %b" if n > 48 else "%d %b %H:%M") for t in ticks]
+
+
 def _time_axis(ax: plt.Axes, index: pd.Index) -> None:
     n = len(index)
-    ticks = list(range(0, n, 24)) if n > 48 else list(range(0, n, max(1, n // 8)))
-    labels = [pd.Timestamp(index[t]).strftime("%a %d %b" if n > 48 else "%d %b %H:%M") for t in ticks]
+    ticks, labels = time_ticks(index)
     ax.set_xticks(ticks, labels, rotation=0)
     ax.set_xlim(0, max(1, n - 1))
     ax.set_xlabel("time [h]")
