@@ -1063,3 +1063,46 @@ def test_driver_table_side_by_side_is_the_same_table() -> None:
     assert len(one) == 6
     import pandas as pd
     pd.testing.assert_frame_equal(one, two)
+
+
+def test_ctrl_c_while_the_table_waits_for_its_other_thread_stops_it() -> None:
+    """Ctrl-C that comes while this thread waits for the other's last machine (outside any
+    HiGHS run here) stops the other's solves and is raised once it has ended: no search is
+    left running behind the interrupted command (at its exit it would abort the process)."""
+    import os
+    import signal
+    import threading
+    import time
+    from types import SimpleNamespace
+
+    from cogendispatch.decisions import _shared_out
+
+    class Hour:  # what _shared_out uses of an HourModel
+        def __init__(self) -> None:
+            self.lm = SimpleNamespace(stop=None)
+
+        def twin(self) -> "Hour":
+            other = Hour()
+            other.lm.stop = threading.Event()
+            return other
+
+    hm = Hour()
+
+    def row(model: Hour, d: object) -> dict:
+        while model is not hm and not model.lm.stop.is_set():  # a long search, until stopped
+            time.sleep(0.02)
+        if model is not hm:
+            raise RuntimeError("stopped")
+        return {}
+
+    before = signal.signal(signal.SIGINT, signal.default_int_handler)
+    timer = threading.Timer(0.5, lambda: os.kill(os.getpid(), signal.SIGINT))
+    try:
+        timer.start()
+        with pytest.raises(KeyboardInterrupt):
+            _shared_out(hm, [SimpleNamespace(count=1), SimpleNamespace(count=1)], 2, row)
+    finally:
+        timer.cancel()
+        signal.signal(signal.SIGINT, before)
+    assert not [t for t in threading.enumerate() if t.name == "cogen-advice"]
+    assert hm.lm.stop is None  # the caller's stop as it was

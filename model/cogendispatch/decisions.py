@@ -79,6 +79,12 @@ class HourState:
     grid: dict[str, float] = field(default_factory=dict)  # [MW] "import" and "export"
 
 
+def _hour_options(h: highspy.Highs) -> None:
+    """HiGHS options of an hour's re-solves (a twin's too)."""
+    h.setOptionValue("mip_rel_gap", 1e-9)
+    h.setOptionValue("presolve", "off")  # faster on a model this small
+
+
 class HourModel:
     """One hour of the site, loaded once into HiGHS, re-solved under changes."""
 
@@ -90,8 +96,7 @@ class HourModel:
         self.sm: SiteModel = build_site_model(self.cfg, self.series1, replace(build, grid_exclusive=True))
         self.lm = LoadedModel(self.sm)
         self.h: highspy.Highs = self.lm.h
-        self.h.setOptionValue("mip_rel_gap", 1e-9)
-        self.h.setOptionValue("presolve", "off")  # faster on a model this small
+        _hour_options(self.h)
         self.held = held
         m = self.sm.model
         self.blocks = self.sm.blocks
@@ -140,8 +145,7 @@ class HourModel:
         other.lm = self.lm.spare()
         other.lm.stop = threading.Event()  # set: the twin's runs stop soon (an error elsewhere)
         other.h = other.lm.h
-        other.h.setOptionValue("mip_rel_gap", 1e-9)
-        other.h.setOptionValue("presolve", "off")
+        _hour_options(other.h)
         other.driver_limits = dict(self.driver_limits)
         return other
 
@@ -614,16 +618,25 @@ def driver_table(hm: HourModel, now: dict[str, int], prices: dict[str, float],
 
 def _shared_out(hm: HourModel, drives: list[Drive], n: int, row: Callable[[HourModel, Drive], dict]) -> list[dict]:
     """:func:`driver_table`'s rows in ``drives``' order, the machines taken in turn by ``hm``
-    in this thread and ``n`` - 1 twins of it in others. The first error (Ctrl-C included)
-    stops the others' solves and is raised here once they have ended."""
+    in this thread and ``n`` - 1 twins of it in others. The first error, Ctrl-C included
+    (also one that comes while this thread waits for the others), stops every model's
+    solves and is raised here once all have ended: no search goes on behind a return."""
     twins = [hm.twin() for _ in range(n - 1)]
+    models = [hm, *twins]
     out: list[dict | None] = [None] * len(drives)
     # spared machines first: each of their steps re-solves every number on steam
     todo = sorted(range(len(drives)), key=lambda k: -drives[k].count)
     lock = threading.Lock()
     errors: list[BaseException] = []
+    held_stop, hm.lm.stop = hm.lm.stop, threading.Event()
 
-    def work(model: HourModel) -> None:
+    def halt(exc: BaseException) -> None:
+        errors.append(exc)
+        for m in models:
+            if m.lm.stop is not None:
+                m.lm.stop.set()
+
+    def work(model: HourModel, done: threading.Event | None = None) -> None:
         try:
             while not errors:
                 with lock:
@@ -632,19 +645,32 @@ def _shared_out(hm: HourModel, drives: list[Drive], n: int, row: Callable[[HourM
                     k = todo.pop(0)
                 out[k] = row(model, drives[k])
         except BaseException as exc:  # noqa: BLE001 - handed to the caller's thread
-            errors.append(exc)
-            for t in twins:
-                if t.lm.stop is not None:
-                    t.lm.stop.set()
+            halt(exc)
+        finally:
+            if done is not None:
+                done.set()
 
-    pool = [threading.Thread(target=work, args=(t,), name="cogen-advice", daemon=True) for t in twins]
-    for t in pool:
-        t.start()
+    pool: list[tuple[threading.Thread, threading.Event]] = []
     try:
+        for t in twins:
+            ended = threading.Event()  # set by the thread as it ends
+            th = threading.Thread(target=work, args=(t, ended), name="cogen-advice", daemon=True)
+            pool.append((th, ended))
+            th.start()
         work(hm)
+    except BaseException as exc:  # noqa: BLE001 - Ctrl-C while starting the threads
+        halt(exc)
     finally:
-        for t in pool:
-            t.join()
+        # the others end within a HiGHS call back of their stop; Thread.join is not used:
+        # interrupted by Ctrl-C, Python 3.11 takes the thread for ended
+        while any(th.is_alive() and not done.is_set() for th, done in pool):
+            try:
+                for th, done in pool:
+                    while th.is_alive() and not done.wait(0.1):
+                        pass
+            except KeyboardInterrupt as exc:
+                halt(exc)
+        hm.lm.stop = held_stop
     if errors:
         raise errors[0]
     return [r for r in out if r is not None]
