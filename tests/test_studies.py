@@ -112,6 +112,10 @@ demand = { LP = 1.1 }
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nfrom = "2029-03-01"\nto = "2029-03-02"\n', "outside"),
     ('[[scenario]]\nname = "a"\nimport = { add = "10" }\n', "import > add"),
     ('[[scenario]]\nname = "a"\n[[scenario]]\nname = "a"\n', "duplicated scenario"),
+    ('[[scenario]]\nname = "Gas"\n[[scenario]]\nname = "gas"\n', "duplicated scenario name(s), capitals aside"),
+    ('[[scenario]]\nname = "gas "\n', "begins or ends with a space"),
+    # a factor written as a per cent (130 for +30 %)
+    ('[[scenario]]\nname = "a"\nfuel.NG = { multiply = 130 }\n', "fuel > NG > multiply: 130 is a factor"),
     ('[[scenario]]\nname = "a"\ndemand = { XX = 1.1 }\n', "demand > XX"),
     ('[[scenario]]\nname = "a"\nwind = 3\n', "unknown key"),
     ('[[scenario]\nname = "a"\n', "not valid TOML"),
@@ -236,10 +240,13 @@ def test_cli_study_writes_the_outputs(tmp_path, capsys, monkeypatch) -> None:  #
     real_stacked = plots.stacked_bars
     monkeypatch.setattr(plots, "stacked_bars", lambda frame, *a, **k: stacked.append(frame) or real_stacked(frame, *a, **k))
     root = Path(__file__).resolve().parents[1] / "plant_configs"
+    # the price file repeats the day's export prices: it changes nothing but is traced
     sc = _scenario_file(tmp_path, '[[scenario]]\nname = "base"\n[[scenario]]\nname = "=cheap power"\n'
-                                  'import = { multiply = 0.5 }\n')
+                                  'import = { multiply = 0.5 }\nprices = "export.csv"\n')
     ser = tmp_path / "day.csv"
-    pd.read_csv(root / "saltmarsh_week.csv").iloc[:12].to_csv(ser, index=False)
+    day = pd.read_csv(root / "saltmarsh_week.csv").iloc[:12]
+    day.to_csv(ser, index=False)
+    day[["time", *[c for c in day.columns if c.startswith("price:export")]]].to_csv(tmp_path / "export.csv", index=False)
     out = tmp_path / "study"
     rc = main(["study", str(root / "saltmarsh_refinery.toml"), "--series", str(ser), "--scenarios", str(sc),
                "--out", str(out), "--window", "6", "--lookahead", "2", "--time-limit", "10", "--gap", "0.01",
@@ -273,6 +280,13 @@ def test_cli_study_writes_the_outputs(tmp_path, capsys, monkeypatch) -> None:  #
     assert summary["first_hour"].startswith("2027-01-04 00:00") and "Saltmarsh" in summary["site_name"]
     assert "Saltmarsh" in html and "2027-01-04 11:00" in html  # the page says which site and hours
     assert summary["diagnosis"] == {"base": [], "=cheap power": []}  # nothing short in either
+    # what the figures were made from: each file with its SHA-256
+    import hashlib
+    digest = hashlib.sha256((tmp_path / "export.csv").read_bytes()).hexdigest()
+    assert summary["price_files"] == {"=cheap power": {"path": str((tmp_path / "export.csv").resolve()),
+                                                       "sha256": digest}}
+    assert summary["scenarios_sha256"] == hashlib.sha256(sc.read_bytes()).hexdigest()
+    assert summary["series_sha256"] == hashlib.sha256(ser.read_bytes()).hexdigest()
     xl = pd.read_excel(out / "study.xlsx", sheet_name=None)
     pd.testing.assert_frame_equal(xl["scenarios"], pd.read_csv(out / "scenarios.csv"), check_dtype=False)
     from openpyxl import load_workbook
@@ -560,6 +574,15 @@ def test_a_scenario_price_beyond_any_market_gets_the_series_note(tmp_path) -> No
     ok = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "gas"\nfuel.NG = { multiply = 1.2 }\n'),
                         cfg, base)[0]
     assert not ok.notes
+
+
+def test_a_price_file_with_utc_offsets_against_a_series_without_says_so(tmp_path) -> None:  # noqa: ANN001
+    cfg = _site()
+    base = series(cfg, 24, demand_LP=50.0)
+    (tmp_path / "p.csv").write_text("time,price:import [per MWh]\n" + "".join(
+        f"{t.isoformat()}+01:00,{100 + k}\n" for k, t in enumerate(pd.date_range("2027-03-01", periods=24, freq="h"))))
+    with pytest.raises(InputError, match="the price file gives its times with UTC offsets and the series without"):
+        load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "a"\nprices = "p.csv"\n'), cfg, base)
 
 
 def test_a_short_price_file_says_which_hours_it_lacks(tmp_path) -> None:  # noqa: ANN001

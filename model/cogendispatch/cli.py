@@ -449,6 +449,7 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
 
     from .outputs import check_out_dir
+    from .plan import file_digest
     from .plant.load import load_site
     from .plant.series import load_series
     from .results import end_stops
@@ -499,6 +500,11 @@ def cmd_study(args: argparse.Namespace, out: Console, err: Console) -> int:
                     "first_hour": str(base.stamps[0]), "last_hour": str(base.stamps[-1]),
                     "site": str(Path(args.site).resolve()), "series": str(Path(args.series).resolve()),
                     "scenarios": str(Path(args.scenarios).resolve()), "seconds": secs, "units": args.units,
+                    # what the figures were made from: a budget is traced to its files
+                    "site_sha256": file_digest(args.site), "series_sha256": file_digest(args.series),
+                    "scenarios_sha256": file_digest(args.scenarios),
+                    "price_files": {ps.name: {"path": ps.price_file, "sha256": file_digest(ps.price_file)}
+                                    for ps in scen if ps.price_file is not None},
                     "options": {"window_h": args.window, "lookahead_h": args.lookahead, "gap": args.gap,
                                 "time_limit_s": args.time_limit, "first_window_min_s": COLD_MIN,
                                 "reserve": "off (--no-reserve)" if args.no_reserve else "as the site file says"},

@@ -75,10 +75,24 @@ class _T(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
 
 
+MAX_PRICE_FACTOR = 20.0  # see PriceChange.multiply
+
+
 class PriceChange(_T):
+    # a factor, not a per cent: above 20 (a price twenty times over, beyond the year-on-year
+    # swings of the gas and power markets, common practice) is most likely "130" meant as
+    # +30 %; larger swings are given as a price file
     multiply: float = Field(default=1.0, ge=0.0, allow_inf_nan=False)
     add: str | None = None  # a price with its unit, e.g. "5 per MWh"
     months: list[Annotated[int, Field(ge=1, le=12)]] | None = None
+
+    @field_validator("multiply")
+    @classmethod
+    def _a_factor(cls, v: float) -> float:
+        if v > MAX_PRICE_FACTOR:
+            raise ValueError(f"{v:g} is a factor, at most {MAX_PRICE_FACTOR:g}: 1.3 for +30 %, not 130 (a larger "
+                             "change goes in a price file)")
+        return v
 
 
 class Outage(_T):
@@ -95,6 +109,13 @@ class Outage(_T):
 
 class Scenario(_T):
     name: str = Field(min_length=1, max_length=60)
+
+    @field_validator("name")
+    @classmethod
+    def _no_edge_spaces(cls, v: str) -> str:
+        if v != v.strip():
+            raise ValueError(f"'{v}' begins or ends with a space, which no table shows")
+        return v
     fuel: dict[str, PriceChange] = Field(default_factory=dict)
     import_: PriceChange | None = Field(default=None, alias="import")
     export: PriceChange | None = None
@@ -111,10 +132,11 @@ class ScenarioFile(_T):
 
     @model_validator(mode="after")
     def _unique(self) -> "ScenarioFile":
-        names = [s.name for s in self.scenarios]
-        dup = {n for n in names if names.count(n) > 1}
+        # names that differ only in capitals read as one in the tables and the file names
+        names = [s.name.casefold() for s in self.scenarios]
+        dup = {s.name for s in self.scenarios if names.count(s.name.casefold()) > 1}
         if dup:
-            raise ValueError(f"duplicated scenario name(s): {', '.join(sorted(dup))}")
+            raise ValueError(f"duplicated scenario name(s), capitals aside: {', '.join(sorted(dup))}")
         return self
 
 
@@ -126,6 +148,7 @@ class PreparedScenario:
     series: Series
     outages: tuple[tuple[str, int, int], ...]
     notes: tuple[str, ...] = ()  # what the scenario file asks that changes nothing here
+    price_file: str | None = None  # the replacement price file it read, resolved
 
 
 def load_scenarios(path: str | Path, cfg: SiteConfig, base: Series, site_path: str = "") -> list[PreparedScenario]:
@@ -189,6 +212,10 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
         if others:  # a price file replaces prices only; say what it leaves out
             notes.append(f"{here} > prices: {p.name} also has {', '.join(others)}, left out (a price file "
                          "replaces price columns only; demand and load change with 'demand' and 'load')")
+        if (repl.time.tz is None) != (base.time.tz is None):
+            has, lacks = ("the price file", "the series") if repl.time.tz is not None else ("the series", "the price file")
+            raise InputError(path, here + " > prices", f"{p}: {has} gives its times with UTC offsets and {lacks} "
+                             "without; write both alike")
         if len(repl.time) != len(base.time) or (repl.time != base.time).any():
             missing = [i for i, t in enumerate(base.time) if t not in set(repl.time)]
             extra = [i for i, t in enumerate(repl.time) if t not in set(base.time)]
@@ -249,8 +276,11 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
     # the base series' plausibility notes, for the prices and load the scenario made: a
     # factor given as a per cent (multiply = 120) reads a hundred times too high
     said = set(base.notes())
-    notes += [f"{path}: {here}: {n.split(': ', 1)[-1]}" for n in ser.notes() if n not in said]
-    return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes))
+    notes += [f"{path}: {here}: " + n.split(": ", 1)[-1].replace(
+        "check the column's unit", "check the scenario's multiply or add, or the price file's column unit")
+        for n in ser.notes() if n not in said]
+    return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes),
+                            str(p.resolve()) if sc.prices is not None else None)
 
 
 def _outage_time(path: Path, where: str, text: str, series: Series, end: bool,
