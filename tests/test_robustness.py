@@ -571,3 +571,19 @@ def test_study_processes_hold_ctrl_c_until_their_scenario_and_after_it(monkeypat
         assert seen == [False] and signal.SIGINT in signal.pthread_sigmask(signal.SIG_BLOCK, [])
     finally:
         signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_a_limit_shorter_than_the_lp_still_gives_a_schedule(threads: int) -> None:
+    """Half a second is less than the demo week's LP relaxation takes (3 to 10 s): the
+    start's LP runs on to its end (at least START_LP_MIN), so the plan has a schedule and
+    no exit 4; on a busy machine a 10 s plan used to end with none."""
+    from cogendispatch.plant.load import load_site
+    from cogendispatch.plant.series import load_series
+    from cogendispatch.site import build_site_model
+    from cogendispatch.solve import SolveOptions, solve
+
+    cfg = load_site(ROOT / "plant_configs/saltmarsh_refinery.toml")
+    sm = build_site_model(cfg, load_series(ROOT / "plant_configs/saltmarsh_week.csv", cfg))
+    rep = solve(sm, SolveOptions(time_limit=0.5, threads=threads, settle=False))
+    assert rep.has_solution and rep.objective < 2.5e6  # a schedule without shortfall penalties

@@ -70,6 +70,9 @@ QUICK_SWEEP = (12, 6, 0)  # (hours per window, hours between windows, first wind
 # share of the time left that a start may take when the LP relaxation itself is short
 # (LoadedModel.rounding_start)
 SHORT_START_SHARE = 0.75
+# [s] the start's LP relaxation runs at least this long, whatever the time limit: without it
+# there is no schedule at all (on a busy machine a 10 s plan of the demo week ran out in it)
+START_LP_MIN = 60.0
 SHORT_START_MAX = 120.0  # [s] at most, whatever the time limit
 START_GAP = 1e-2  # [-] the rounded start's MILP over the drivers: 1.7 s on the demo week (5.6 s at 1e-3)
 
@@ -85,7 +88,7 @@ def helper_search(helper: LoadedModel, best: Incumbent, deadline: float, quick_s
         left = deadline - time.perf_counter()
         # a quick start at a loose gap: the passes below improve on it faster than HiGHS closes it
         try:
-            x = helper.rounding_start(min(left / 2, 60.0), gap=START_GAP, lp_time_limit=left,
+            x = helper.rounding_start(min(left / 2, 60.0), gap=START_GAP, lp_time_limit=max(left, START_LP_MIN),
                                       short_time_limit=min(SHORT_START_SHARE * left, SHORT_START_MAX))
             best.lp_bound = helper.lp_bound  # a valid bound for HiGHS's report, should it have none
             if x is not None and helper.start_objective is not None:

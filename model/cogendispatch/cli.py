@@ -134,7 +134,7 @@ def build_parser() -> argparse.ArgumentParser:
                          "baseline and the report come on top, and up to a quarter more (2 to 10 s) when the "
                          "schedule leaves demand or the reserve short; a limit too short for any schedule "
                          "(the LP relaxation alone takes seconds on a large site) is stretched until there "
-                         "is one, at most about as long again")
+                         "is one: the start's LP relaxation gets at least 60 s")
     pl.add_argument("--threads", type=_count, default=1,
                     help="threads for the solve (default 1); with 2 or more, one builds and improves "
                          "schedules beside HiGHS, which gets the rest: better results in the same time")

@@ -28,7 +28,7 @@ import numpy as np
 import pyomo.environ as pyo
 from pyomo.contrib.solver.solvers.highs import Highs
 
-from .beside import QUICK_SWEEP_LIMIT, SHORT_START_MAX, SHORT_START_SHARE, Incumbent, helper_search
+from .beside import QUICK_SWEEP_LIMIT, SHORT_START_MAX, SHORT_START_SHARE, START_LP_MIN, Incumbent, helper_search
 from .equipment.common import CommitInfo, held_value, repair_commitment, whole_hours
 from .errors import SolveError
 from .results import TOL as SLACK_TOL
@@ -395,7 +395,17 @@ class LoadedModel:
         left = max(t_end - time.perf_counter(), 0.3 * time_limit)
         # round up: a unit partly on in the relaxation is there for its capacity (reserve,
         # minimum loads elsewhere); committing it keeps the start feasible
-        return self.commitment_start(lambda c: int(x[c] >= threshold), left, gap)
+        guess = lambda c: int(x[c] >= threshold)  # noqa: E731
+        start = self.commitment_start(guess, left, gap)
+        if start is None and lp_time_limit is not None and lp_time_limit > time_limit:
+            # a limit too short for the drivers' MILP: its first schedule, however long that
+            # takes (within lp_time_limit), rather than none
+            kept = self._set_options({"mip_max_improving_sols": 1})
+            try:
+                start = self.commitment_start(guess, lp_time_limit, gap)
+            finally:
+                self._set_options(kept)
+        return start
 
     def commitment_start(self, guess: Callable[[int], int], time_limit: float,
                          gap: float = 1e-3, drivers: bool = False, free_until: int = 0) -> np.ndarray | None:
@@ -835,7 +845,7 @@ class LoadedModel:
             if helper is not None and best.get()[0] is None and self.h.getInfo().primal_solution_status != 2:
                 # a short limit ran out before any schedule: let the helper finish its start,
                 # as the one-thread path would (its LP may take the whole limit)
-                best.started.wait(options.time_limit)
+                best.started.wait(max(options.time_limit, START_LP_MIN))
         finally:
             best.stop.set()
             interrupted = False
@@ -926,7 +936,7 @@ class LoadedModel:
             # the LP may use the whole limit: a search without a start is far worse
             left = options.time_limit - (time.perf_counter() - t0)
             start = self.rounding_start(min(options.time_limit / 2, 60.0), gap=gap,
-                                        lp_time_limit=options.time_limit,
+                                        lp_time_limit=max(options.time_limit, START_LP_MIN),
                                         short_time_limit=min(SHORT_START_SHARE * left, SHORT_START_MAX))
         if start is None:
             return None, None
