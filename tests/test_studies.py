@@ -564,13 +564,16 @@ def test_the_window_after_an_outage_is_not_a_copy_of_the_outage_week(monkeypatch
 
 
 def test_a_scenario_price_beyond_any_market_gets_the_series_note(tmp_path) -> None:  # noqa: ANN001
-    """multiply = 120 (a per cent meant) makes gas 1 200 per GJ: the note the base series
-    would get above 500 per GJ (Series.notes, common practice) is given for the scenario."""
+    """add = "1190 per GJ" (a price per MWh meant as per GJ, say) makes gas 1 200 per GJ: the
+    note the base series would get above 500 per GJ (Series.notes, common practice) is given
+    for the scenario and points at its multiply or add. (A multiplier of 120 is refused as a
+    per cent.)"""
     cfg = _site()
     base = series(cfg, 24, demand_LP=50.0)
-    ps = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "gas"\nfuel.NG = { multiply = 120 }\n'),
+    ps = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "gas"\nfuel.NG = { add = "1190 per GJ" }\n'),
                         cfg, base)[0]
-    assert any("('gas')" in n and "the price of fuel NG reaches 1,200 per GJ" in n for n in ps.notes)
+    assert any("('gas')" in n and "the price of fuel NG reaches 1,200 per GJ" in n
+               and "check the scenario's multiply or add" in n for n in ps.notes), ps.notes
     ok = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "gas"\nfuel.NG = { multiply = 1.2 }\n'),
                         cfg, base)[0]
     assert not ok.notes
