@@ -56,8 +56,10 @@ def as_utc(index: pd.Index) -> pd.DatetimeIndex:
 def hour_label(ts: pd.Timestamp) -> str:
     """An hour for a message: ``2027-10-31 02:00``, with ``+01:00`` after it when the series
     gave offsets (without, the two 02:00 hours of an autumn clock change read alike)."""
-    text = f"{ts:%Y-%m-%d %H:%M}"
-    if ts.tzinfo is not None:
-        z = f"{ts:%z}"
-        text += f"{z[:3]}:{z[3:]}"
-    return text
+    return f"{ts:%Y-%m-%d %H:%M}" + (offset_text(ts) if ts.tzinfo is not None else "")
+
+
+def offset_text(ts: pd.Timestamp) -> str:
+    """The UTC offset of an hour with an offset, ISO style: ``+01:00``."""
+    z = f"{ts:%z}"
+    return f"{z[:3]}:{z[3:]}"

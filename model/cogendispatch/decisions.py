@@ -331,9 +331,9 @@ def hour_index(series: Series, at: str, path: str) -> int:
             raise InputError(path, "--at", f"{at} comes twice in the series (the clocks go back): give its UTC "
                              f"offset, {twice}")
         if len(hits) == 0 and series.wall_time[0] < ts < series.wall_time[-1]:
+            k = int(np.searchsorted(series.wall_time, ts))  # the hour after the gap
             raise InputError(path, "--at", f"{at} is no hour of the site's clock: the clocks skip it (the series "
-                             f"goes from {hour_label(series.stamps[int(np.searchsorted(series.wall_time, ts)) - 1])} "
-                             f"to {hour_label(series.stamps[int(np.searchsorted(series.wall_time, ts))])})")
+                             f"goes from {hour_label(series.stamps[k - 1])} to {hour_label(series.stamps[k])})")
     else:
         if ts.tzinfo is not None:
             ts = ts.tz_convert("UTC")

@@ -11,7 +11,7 @@ from pathlib import Path
 import pandas as pd
 from openpyxl.utils import get_column_letter
 
-from ..clock import read_clock
+from ..clock import offset_text, read_clock
 from ..outputs import quote_formulas
 
 
@@ -49,7 +49,7 @@ def _read(path: Path, index: str | None = None) -> pd.DataFrame:
         df["time"] = [t.tz_localize(None) for t in stamps]
         if len(stamps) and stamps[0].tzinfo is not None:
             # "UTC+02:00": a cell starting with '+' would read as a formula
-            df.insert(1, "utc_offset", ["UTC" + t.strftime("%z")[:3] + ":" + t.strftime("%z")[3:] for t in stamps])
+            df.insert(1, "utc_offset", ["UTC" + offset_text(t) for t in stamps])
     return df.set_index(index) if index else df
 
 
