@@ -106,6 +106,25 @@ demand = { LP = 1.1 }
     assert d.outages == (("B2", 24, 53),)
 
 
+
+def test_a_scenario_sets_a_fixed_price_for_listed_months(tmp_path) -> None:  # noqa: ANN001
+    """set = "40 per MWh" replaces the series' price in the months listed (a budget's flat
+    price); a price per MMBtu is converted to the site's per GJ (1 MMBtu = 1.055056 GJ,
+    ISO 31-4 / NIST SP 811 Btu_IT)."""
+    cfg = _site()
+    base = series(cfg, 24 * 40, demand_LP=50.0, price_import=100.0)  # March 1 to April 9
+    p = _scenario_file(tmp_path, """
+[[scenario]]
+name = "flat"
+import = { set = "40 per MWh", months = [4] }
+fuel.NG = { set = "9 per MMBtu" }
+""")
+    (s,) = load_scenarios(p, cfg, base)
+    april = s.series.time.month == 4
+    assert s.series.price_import[april].to_numpy() == pytest.approx(40.0)
+    assert s.series.price_import[~april].to_numpy() == pytest.approx(100.0)
+    assert s.series.fuel_price["NG"].to_numpy() == pytest.approx(9.0 / 1.055056, rel=1e-6)
+
 @pytest.mark.parametrize("text, where", [
     ('[[scenario]]\nname = "a"\nfuel.XX = { multiply = 2 }\n', "fuel > XX"),
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "NOPE"\nfrom = "2027-03-01"\nto = "2027-03-02"\n', "unit"),
@@ -132,6 +151,10 @@ demand = { LP = 1.1 }
     ('[[scenarios]]\nname = "a"\n', "scenarios"),  # the documented keys only, no synonyms
     ('[[scenario]]\nname = "a"\n[[scenario.outage]]\nunit = "B1"\nstart = "2027-03-01"\nto = "2027-03-01"\n', "start"),
     ('[[scenario]]\nname = "a"\nload = -1\n', "load"),
+    # a fixed price goes alone: "set and multiply" has no one reading
+    ('[[scenario]]\nname = "a"\nimport = { set = "40 per MWh", multiply = 1.1 }\n', "'set' fixes the price and goes alone"),
+    ('[[scenario]]\nname = "a"\nimport = { set = "40 per MWh", add = "1 per MWh" }\n', "'set' fixes the price"),
+    ('[[scenario]]\nname = "a"\nco2 = { set = "40" }\n', "co2 > set"),
 ])
 def test_bad_scenarios_name_the_place(tmp_path, text: str, where: str) -> None:  # noqa: ANN001
     cfg = _site()
@@ -566,14 +589,14 @@ def test_the_window_after_an_outage_is_not_a_copy_of_the_outage_week(monkeypatch
 def test_a_scenario_price_beyond_any_market_gets_the_series_note(tmp_path) -> None:  # noqa: ANN001
     """add = "1190 per GJ" (a price per MWh meant as per GJ, say) makes gas 1 200 per GJ: the
     note the base series would get above 500 per GJ (Series.notes, common practice) is given
-    for the scenario and points at its multiply or add. (A multiplier of 120 is refused as a
+    for the scenario and points at its multiply, add or set. (A multiplier of 120 is refused as a
     per cent.)"""
     cfg = _site()
     base = series(cfg, 24, demand_LP=50.0)
     ps = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "gas"\nfuel.NG = { add = "1190 per GJ" }\n'),
                         cfg, base)[0]
     assert any("('gas')" in n and "the price of fuel NG reaches 1,200 per GJ" in n
-               and "check the scenario's multiply or add" in n for n in ps.notes), ps.notes
+               and "check the scenario's multiply, add or set" in n for n in ps.notes), ps.notes
     ok = load_scenarios(_scenario_file(tmp_path, '[[scenario]]\nname = "gas"\nfuel.NG = { multiply = 1.2 }\n'),
                         cfg, base)[0]
     assert not ok.notes

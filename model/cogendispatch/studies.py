@@ -84,7 +84,16 @@ class PriceChange(_T):
     # +30 %; larger swings are given as a price file
     multiply: float = Field(default=1.0, ge=0.0, allow_inf_nan=False)
     add: str | None = None  # a price with its unit, e.g. "5 per MWh"
+    # a fixed price with its unit, in place of the series' (a budget's flat gas price, a
+    # contract's fixed export price); alone, as "set and multiply" has no one reading
+    set_: str | None = Field(default=None, alias="set")
     months: list[Annotated[int, Field(ge=1, le=12)]] | None = None
+
+    @model_validator(mode="after")
+    def _set_alone(self) -> "PriceChange":
+        if self.set_ is not None and (self.add is not None or "multiply" in self.model_fields_set):
+            raise ValueError("'set' fixes the price and goes alone: leave out multiply and add")
+        return self
 
     @field_validator("multiply")
     @classmethod
@@ -178,13 +187,16 @@ def _price(path: Path, where: str, ch: PriceChange, kind: str, values: pd.Series
     from .plant.load import site_currency_prices
     from .units import UnitError, parse_price
 
-    add = 0.0
-    if ch.add is not None:
+    def price(key: str, text: str) -> float:
         try:
-            add = parse_price(site_currency_prices(ch.add, currency), kind)
+            return parse_price(site_currency_prices(text, currency), kind)
         except UnitError as exc:
-            raise InputError(path, where + " > add", str(exc)) from None
-    new = values * ch.multiply + add
+            raise InputError(path, f"{where} > {key}", str(exc)) from None
+
+    if ch.set_ is not None:
+        new = pd.Series(price("set", ch.set_), index=values.index, dtype=float)
+    else:
+        new = values * ch.multiply + (price("add", ch.add) if ch.add is not None else 0.0)
     if ch.months:
         mask = np.isin(months, ch.months)  # the site's months (wall clock), not UTC's
         if not mask.any():  # a year's scenario file tried on a shorter series, or a slip
@@ -277,7 +289,7 @@ def _apply(path: Path, k: int, sc: Scenario, cfg: SiteConfig, base: Series) -> P
     # factor given as a per cent (multiply = 120) reads a hundred times too high
     said = set(base.notes())
     notes += [f"{path}: {here}: " + n.split(": ", 1)[-1].replace(
-        "check the column's unit", "check the scenario's multiply or add, or the price file's column unit")
+        "check the column's unit", "check the scenario's multiply, add or set, or the price file's column unit")
         for n in ser.notes() if n not in said]
     return PreparedScenario(sc.name, ser, tuple(outages), tuple(notes),
                             str(p.resolve()) if sc.prices is not None else None)
