@@ -247,7 +247,8 @@ def test_cli_advise_prints_tables_and_writes_files(tmp_path, capsys) -> None:  #
     adv = json.loads((out / "advice.json").read_text())
     assert set(pr.index) == {"HP", "MP", "LP", "power"} and pr.loc["power", "unit"] == "EUR/MWh"
     # the plan's columns (time, set_by "cost" or a penalty), the reason in words beside them
-    assert list(pr.columns) == ["time", "price", "unit", "set_by", "reason"]
+    assert list(pr.columns) == ["time", "price", "unit", "reserve_part", "set_by", "reason"]
+    assert adv["reserve_part"]["power_per_MWh"] == pr.loc["power", "reserve_part"]
     assert set(pr.set_by) <= {"cost", "reserve limit", "shortfall penalty", "surplus penalty", "reserve penalty"}
     assert pr.loc["power", "reason"].startswith("grid import")
     drv = pd.read_csv(out / "drivers.csv")  # money columns name the currency, as the prices' unit column does
@@ -793,6 +794,33 @@ def test_a_binding_reserve_is_named_in_the_steam_price_with_its_share() -> None:
     assert "the steam reserve binds" in prices[True][1]
     assert share == pytest.approx(prices[True][0] - prices[False][0], abs=0.01)
 
+
+def test_a_power_price_the_reserve_raises_says_by_how_much() -> None:
+    """With the import at its 5 MW limit, the back-pressure set makes the last MW and its
+    HP steam comes from the costly B2 under a half cover (cover 0.5: B2 must carry twice
+    what B1 adds above 100 t/h in all, as in test_prices). So the power price carries the
+    reserve's part of the steam price; the line gives it, and it is the power price less
+    that of the same hour without the reserve."""
+    deaerator = {"pressure": "2 bar(a)", "heating_steam": "LP", "makeup_temperature": "20 degC",
+                 "makeup_cost": "0.5 per t", "process_condensate_return": 0.0, "condensate_temperature": "80 degC"}
+    boilers = [{"id": f"B{i}", "header": "HP", "fuels": ["NG"], "max_steam": "100 t/h", "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [eff, eff]}, "initial_on": True}
+               for i, eff in ((1, 0.90), (2, 0.80))]
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "80 t/h", "generator_rating": "20 MW", "initial_on": True,
+          "section": [{"to": "LP", "efficiency": 0.75}]}
+    out = {}
+    for on in (True, False):
+        cfg = site(boiler=boilers, turbogenerator=[tg], deaerator=deaerator, reserve={"enabled": on, "cover": 0.5},
+                   grid={"max_import": "5 MW", "max_export": "0 MW"})
+        a = advise(cfg, series(cfg, 1, demand_HP=60.0, demand_LP=20.0, price_import=100.0, load=12.0),
+                   "2027-03-01T00:00", "<tiny>")
+        assert not a.not_met and a.power_reason.startswith("power: turbo-generator TG")  # the scenario as meant
+        out[on] = a
+    assert out[True].set_by["power"] == "reserve limit" and out[False].set_by["power"] == "cost"
+    assert out[True].power_price > out[False].power_price + 10.0
+    part = float(out[True].power_reason.split("adds ")[1].split(" EUR/MWh")[0])
+    assert part == pytest.approx(out[True].power_price - out[False].power_price, abs=0.01)
+    assert "reserve" not in out[False].power_reason
 
 def test_a_what_if_line_names_the_grid_when_import_moves() -> None:
     """A trip or a forced driver often moves the import first: the line says so."""

@@ -296,6 +296,9 @@ def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
     return {
         "time": a.time, "currency": currency, "held_on": a.held, "cost": a.cost,
         "marginal_price": {"steam_per_t": a.prices, "power_per_MWh": a.power_price},
+        # the part of each price the steam reserve makes (0 where the reserve does not bind)
+        "reserve_part": {"steam_per_t": {h: a.reserve_part.get(h, 0.0) for h in a.prices},
+                         "power_per_MWh": a.reserve_part.get("power", 0.0)},
         "reason": {**a.reasons, "power": a.power_reason},
         "dispatch": a.dispatch, "notes": a.notes,
         "drivers": a.drivers.to_dict(orient="records"), "what_if": a.what_if, "seconds": a.seconds,
@@ -405,10 +408,11 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
         def write(dd: Path) -> None:
             write_json(d, dd / "advice.json")
             # the same long form as a plan's prices.csv (steam per header [per t], power [per
-            # MWh], set_by "cost" or the penalty), with the reason in words beside it
+            # MWh], the reserve's part, set_by "cost" or the penalty), with the reason in words
             rows = [(h, v, f"{cur}/t", a.reasons[h]) for h, v in a.prices.items()]
             rows.append(("power", a.power_price, f"{cur}/MWh", a.power_reason))
             write_csv(pd.DataFrame([{"time": a.time, "balance": b, "price": v, "unit": u,
+                                     "reserve_part": a.reserve_part.get(b, 0.0),
                                      "set_by": a.set_by[b], "reason": why.split(": ", 1)[-1]}
                                     for b, v, u, why in rows]), dd / "prices.csv", index=False)
             write_csv(with_money_units(a.drivers, {"cost_on_steam": cur, "cost_on_motor": cur, "saving": cur,

@@ -115,9 +115,7 @@ class HourModel:
         self.stop_rows = {b.id: self.lm.opt._pyomo_con_to_solver_con_map[self.blocks[b.id].ramp_down[0]]
                           for b in self.cfg.boilers if self.blocks[b.id].component("ramp_down") is not None
                           and 0 in self.blocks[b.id].ramp_down}
-        res = m.component("reserve")
-        self.reserve_rows = np.array([] if res is None else [
-            self.lm.opt._pyomo_con_to_solver_con_map[c] for c in res.values()], dtype=np.int32)
+        self.reserve_rows = self.lm.reserve_rows()
         lp = self.h.getLp()
         self.cost0 = np.array(lp.col_cost_, dtype=float)
         self.rlo0 = np.array(lp.row_lower_, dtype=float)
@@ -273,19 +271,15 @@ class HourModel:
         self.feedwater_price = float(-(y_m + y_e * self.sm.ctx.states.h_feedwater))
         power = float(dual[self.power_row])
         # a binding reserve row (the running boilers' spare rating just covers the largest)
-        # raises the steam prices above any unit's cost: the same LP without the reserve
-        # rows says by how much (currency/t per header)
-        self.reserve_part = {hh: 0.0 for hh in prices}
-        n = len(self.reserve_rows)
-        if n and np.abs(dual[self.reserve_rows]).max() > 1e-9:
-            self.h.changeRowsBounds(n, self.reserve_rows, np.full(n, -highspy.kHighsInf), np.full(n, highspy.kHighsInf))
-            try:
-                free = self.lm._fixed_run(list(ints), list(np.round(x[ints])), 30.0, None, keep_duals=True)
-                dual_free = self.lm.fixed_duals
-            finally:
-                self.h.changeRowsBounds(n, self.reserve_rows, self.rlo0[self.reserve_rows], self.rup0[self.reserve_rows])
-            if free is not None and dual_free is not None:
-                self.reserve_part = {hh: prices[hh] - float(dual_free[r]) for hh, r in self.header_row.items()}
+        # raises the steam prices above any unit's cost, and through the turbines the power
+        # price: the same LP without the reserve rows says by how much (currency/t per
+        # header, currency/MWh for power)
+        self.reserve_part = {b: 0.0 for b in [*prices, "power"]}
+        if len(self.reserve_rows) and np.abs(dual[self.reserve_rows]).max() > 1e-9:
+            free = self.lm.duals_with_rows_free(self.reserve_rows, x, 30.0)
+            if free is not None:
+                self.reserve_part = {hh: prices[hh] - float(free[r]) for hh, r in self.header_row.items()}
+                self.reserve_part["power"] = power - float(free[self.power_row])
         return prices, power, x
 
 
@@ -555,6 +549,9 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
             if val(b[tg.id].on[0]) > 0.5 and free(b[tg.id].power[0], 0.0, tg.generator_rating):
                 pw = f"power: turbo-generator {tg.id} (the steam it takes, priced in its headers)"
                 break
+    part = getattr(hm, "reserve_part", {}).get("power", 0.0)
+    if reserve_short <= 1e-6 and abs(part) > 0.005 and not pw.startswith(("power: short", "power: surplus")):
+        pw += f"; the steam reserve binds and adds {part:,.2f} {cfg.site.currency}/MWh through the steam's price"
     return out, pw
 
 
@@ -978,6 +975,8 @@ class Advice:
     # the hour as given: boilers [t/h], turbo-generators [MW], grid [MW], machines on steam
     dispatch: dict[str, dict[str, float]] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)  # what the advice changed in what it was given
+    # per balance, the part of the price the steam reserve makes [currency/t or /MWh]
+    reserve_part: dict[str, float] = field(default_factory=dict)
 
 
 def _asked_prices(w: WhatIf, series: Series, i: int, cur: str) -> list[str]:
@@ -1126,7 +1125,8 @@ def advise(cfg: SiteConfig, series: Series, at: str, series_path: str, plan_dir:
     dispatch = {"boilers_t_h": base.steam, "turbogenerators_MW": base.power, "grid_MW": base.grid,
                 "machines_on_steam": {k: float(v) for k, v in base.on_steam.items()}}
     return Advice(str(series.stamps[i]), held, base.cost, prices, power_price, reasons, pw_reason, drivers, wi,
-                  _time.perf_counter() - t0, categories, not_met, dispatch, held_notes)
+                  _time.perf_counter() - t0, categories, not_met, dispatch, held_notes,
+                  {b: hm.reserve_part.get(b, 0.0) for b in [*prices, "power"]})
 
 
 def _blocked_changes(base: HourState, new: HourState, history: dict[str, DriverHistory]) -> list[str]:

@@ -19,7 +19,6 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Callable
 
-import highspy
 import numpy as np
 import pandas as pd
 import pyomo.environ as pyo
@@ -132,25 +131,10 @@ def _reserve_parts(lm: LoadedModel, x: np.ndarray, rows: dict[tuple[str, int], i
     price less that of the same fixed LP with every reserve row free (the rows of
     :mod:`cogendispatch.reserve` and the running-set rows added after the model's own).
     Empty when no reserve row binds (one LP saved) or that LP fails."""
-    m = lm.sm.model
-    res = m.component("reserve")
-    if res is None:
-        return {}
-    cmap = lm.opt._pyomo_con_to_solver_con_map
-    idx = np.array(sorted({cmap[c] for c in res.values() if c in cmap}
-                          | set(range(lm.base_rows, lm.h.getNumRow()))), dtype=np.int32)
+    idx = lm.reserve_rows()
     if len(idx) == 0 or np.abs(dual[idx]).max() <= 1e-9:
         return {}
-    lp = lm.h.getLp()
-    lo, up = np.asarray(lp.row_lower_)[idx], np.asarray(lp.row_upper_)[idx]
-    lm.h.changeRowsBounds(len(idx), idx, np.full(len(idx), -highspy.kHighsInf), np.full(len(idx), highspy.kHighsInf))
-    try:
-        lm._fixed_run(lm.int_cols.tolist(), np.round(x[lm.int_cols]).tolist(), time_limit, gap=None,
-                      keep_duals=True)
-        free = lm.fixed_duals
-    finally:
-        lm.h.changeRowsBounds(len(idx), idx, lo, up)
-        lm.fixed_duals = dual
+    free = lm.duals_with_rows_free(idx, x, time_limit)
     if free is None:
         return {}
     return {k: float(dual[r] - free[r]) for k, r in rows.items() if r is not None}

@@ -513,6 +513,34 @@ class LoadedModel:
             self.h.changeColsBounds(len(idx), idx, self.col_lower[idx], self.col_upper[idx])
         return start
 
+    def reserve_rows(self) -> np.ndarray:
+        """Rows that hold the steam reserve: those of :mod:`cogendispatch.reserve` and the
+        running-set rows added after the model's own (:mod:`cogendispatch.strengthen`)."""
+        res = self.sm.model.component("reserve")
+        if res is None:
+            return np.array([], dtype=np.int32)
+        cmap = self.opt._pyomo_con_to_solver_con_map
+        return np.array(sorted({cmap[c] for c in res.values() if c in cmap}
+                               | set(range(self.base_rows, self.h.getNumRow()))), dtype=np.int32)
+
+    def duals_with_rows_free(self, rows: np.ndarray, x: np.ndarray, time_limit: float) -> np.ndarray | None:
+        """Row duals of the LP with every integer held at ``x`` (rounded) and ``rows`` free:
+        how the prices would read without them (e.g. the reserve's part of a price is the
+        difference). None when that LP has no optimum. Row bounds and ``fixed_duals`` are
+        restored afterwards."""
+        kept = self.fixed_duals
+        lp = self.h.getLp()
+        lo, up = np.asarray(lp.row_lower_)[rows], np.asarray(lp.row_upper_)[rows]
+        n = len(rows)
+        self.h.changeRowsBounds(n, rows, np.full(n, -highspy.kHighsInf), np.full(n, highspy.kHighsInf))
+        try:
+            self._fixed_run(self.int_cols.tolist(), np.round(x[self.int_cols]).tolist(), time_limit, gap=None,
+                            keep_duals=True)
+            return self.fixed_duals
+        finally:
+            self.h.changeRowsBounds(n, rows, lo, up)
+            self.fixed_duals = kept
+
     def int_names(self) -> dict[str, int]:
         """Integer columns by the name of their Pyomo variable."""
         if self._int_names is None:
