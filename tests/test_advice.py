@@ -768,6 +768,23 @@ def test_an_estimate_from_steam_prices_a_turbo_generator_sets_is_said_to_move_wi
     assert "set by a turbo-generator (LP by TG)" in row.note and "move with the power price" in row.note
 
 
+def test_an_extraction_sets_the_price_of_its_header() -> None:
+    """An extraction-back-pressure set HP -> MP -> LP, running, is the only way into MP:
+    the MP price is its extraction's (the inlet price less the power the tonne would have
+    made through the second section), and the line says so. (This once failed with an
+    AttributeError for any running set with an extraction.)"""
+    headers = [{"id": "HP", "pressure": "40 bar(a)", "temperature": "400 degC"},
+               {"id": "MP", "pressure": "12 bar(a)", "temperature": "260 degC"},
+               {"id": "LP", "pressure": "5 bar(a)", "temperature": "180 degC"}]
+    tg = {"id": "TG", "inlet": "HP", "max_throttle": "80 t/h", "generator_rating": "20 MW", "initial_on": True,
+          "section": [{"to": "MP", "efficiency": 0.75, "max_extraction": "50 t/h"}, {"to": "LP", "efficiency": 0.75}]}
+    cfg = site(header=headers, turbogenerator=[tg])
+    a = advise(cfg, series(cfg, 1, demand_MP=20.0, demand_LP=30.0, price_import=100.0, load=10.0),
+               "2027-03-01T00:00", "<tiny>")
+    assert not a.not_met
+    assert a.reasons["MP"] == "MP: extraction from TG (the inlet price less the power it makes)"
+    assert a.prices["LP"] < a.prices["MP"] < a.prices["HP"]
+
 def test_a_binding_reserve_is_named_in_the_steam_price_with_its_share() -> None:
     """Two 60 t/h boilers with a full reserve may make 60 t/h between them; at 400 /MWh of
     import the turbo-generator would pass more steam (to the vent), so the reserve row

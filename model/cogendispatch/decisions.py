@@ -508,7 +508,7 @@ def price_reasons(hm: HourModel, x: np.ndarray) -> tuple[dict[str, str], str]:
                 if val(b[tg.id].on[0]) < 0.5 or val(b[tg.id].power[0]) >= tg.generator_rating - 1e-6:
                     continue
                 co = b[tg.id].coefficients
-                for k, sec in enumerate(co.sections[:-1]):
+                for k, sec in enumerate(tg.sections[:-1]):  # the site file's limits, not the coefficients
                     hi = sec.max_extraction if sec.max_extraction is not None else math.inf
                     if sec.to == hid and free(b[tg.id].extraction[k, 0], sec.min_extraction, hi):
                         reason = f"{hid}: extraction from {tg.id} (the inlet price less the power it makes)"
