@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import json
 import shutil
 import os
 import re
@@ -587,3 +588,16 @@ def test_a_limit_shorter_than_the_lp_still_gives_a_schedule(threads: int) -> Non
     sm = build_site_model(cfg, load_series(ROOT / "plant_configs/saltmarsh_week.csv", cfg))
     rep = solve(sm, SolveOptions(time_limit=0.5, threads=threads, settle=False))
     assert rep.has_solution and rep.objective < 2.5e6  # a schedule without shortfall penalties
+
+
+def test_summary_says_the_reserve_was_off_with_no_reserve(tmp_path) -> None:  # noqa: ANN001
+    """--no-reserve overrides the site file: summary.json says what the run kept, not what
+    the site file asks (it once read "enabled": true for a run without the reserve)."""
+    site, ser = _files(tmp_path)
+    site.write_text(site.read_text().replace("[reserve]\nenabled = false", "[reserve]\nenabled = true"))
+    for flag, kept, by in (([], True, "site file"), (["--no-reserve"], False, "command line")):
+        out = tmp_path / f"o{len(flag)}"
+        # the tiny site cannot hold a reserve (exit 3 with it); the summary is written alike
+        assert main(["plan", str(site), "--series", str(ser), "--out", str(out), "--quiet", *flag]) == (0 if flag else 3)
+        res = json.loads((out / "summary.json").read_text())["reserve"]
+        assert res["enabled"] is kept and res["set_by"] == by

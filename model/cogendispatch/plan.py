@@ -41,8 +41,9 @@ class PlanRun:
 
 
 def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, series: Series,
-                 site_path: str, series_path: str) -> dict[str, object]:
-    """The ``summary.json`` content."""
+                 site_path: str, series_path: str, reserve: bool | None = None) -> dict[str, object]:
+    """The ``summary.json`` content; ``reserve`` is the run's override of the site file's
+    reserve setting (``BuildOptions.reserve``, False for --no-reserve)."""
     t = res.totals
     return {
         "status": run_report.status,
@@ -67,8 +68,10 @@ def summary_dict(run_report: SolveReport, res: PlanResults, cfg: SiteConfig, ser
         "running_hours": t["running_hours"],
         "drive_hours": t["drive_hours"],
         "diagnosis": res.diagnosis,
-        # the one-boiler-trip reserve the schedule keeps (site file's [reserve])
-        "reserve": {"enabled": cfg.reserve.enabled, "cover": cfg.reserve.cover},
+        # the one-boiler-trip reserve the schedule keeps (site file's [reserve], unless the
+        # run overrode it)
+        "reserve": {"enabled": cfg.reserve.enabled if reserve is None else reserve, "cover": cfg.reserve.cover,
+                    "set_by": "site file" if reserve is None else "command line"},
         "end_stops": end_stops(cfg, res.schedule),
         "start_stops": start_stops(cfg, res.schedule),
         "seconds": run_report.seconds,
@@ -127,7 +130,8 @@ def run_plan(site_path: str | Path, series_path: str | Path, out: str | Path | N
     # the schedule as schedule.csv will hold it: `cogen verify` on the folder then finds
     # the same figures to the last digit instead of rewriting them with 1e-10 changes
     ver = verify_schedule(cfg, series, as_written(res.schedule), moisture_limit)
-    summary = summary_dict(rep, res, cfg, series, str(site_path), str(series_path))
+    summary = summary_dict(rep, res, cfg, series, str(site_path), str(series_path),
+                           build_options.reserve if build_options is not None else None)
     summary["verify"] = ver.summary()
     summary["series_notes"] = series.notes()  # values most likely in a wrong unit (Series.notes)
     summary["units"] = units  # of report.html, kept for `cogen report` to rebuild it alike
