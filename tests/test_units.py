@@ -21,6 +21,9 @@ HP_W = 550.0 * FOOT_M * LB_KG * G_N  # 550 ft lbf/s = 745.69987 W (NIST SP 811, 
 # [J] British thermal unit, International Table: 1 Btu_IT/lb = 2.326 kJ/kg exactly, so
 # 1 Btu_IT = 1055.05585262 J (NIST SP 811, App. B, which rounds it to 1.055 056 E+03 J)
 BTU_J = 2326.0 * LB_KG
+INHG_PA = 3386.389  # [Pa] conventional inch of mercury (NIST SP 811, App. B.8: 3.386 389 E+03 Pa)
+MMHG_PA = 133.3224  # [Pa] conventional millimetre of mercury (NIST SP 811, App. B.8: 1.333 224 E+02 Pa)
+US_THERM_J = 1.054804e8  # [J] therm (U.S.) (NIST SP 811, App. B.8: 1.054 804 E+08 J)
 
 REL = 1e-9
 
@@ -64,6 +67,22 @@ def test_constants_sanity():
 )
 def test_pressure(text, expected):
     assert P(text) == pytest.approx(expected, rel=REL)
+
+
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        # a condenser's vacuum reads down from the standard atmosphere (ISO 2533); inHg and
+        # mmHg conventional (NIST SP 811, given there to 7 digits)
+        ("27.5 inHg(vac)", ATM_BAR - 27.5 * INHG_PA / 1e5),
+        ("27.5 inHg vac", ATM_BAR - 27.5 * INHG_PA / 1e5),
+        ("2.4 inHg(a)", 2.4 * INHG_PA / 1e5),
+        ("700 mmHg(vac)", ATM_BAR - 700 * MMHG_PA / 1e5),
+        ("60 mmHg(a)", 60 * MMHG_PA / 1e5),
+    ],
+)
+def test_vacuum_and_mercury_columns(text, expected):
+    assert P(text) == pytest.approx(expected, rel=2e-6)
 
 
 def test_psi_value():
@@ -150,6 +169,9 @@ def test_other_kinds():
     assert parse_quantity("1 Gcal", "energy") == pytest.approx(4.1868, rel=1e-12)
     # 1 lb/kWh = 0.45359237 kg/kWh (NIST SP 811)
     assert parse_quantity("26 lb/kWh", "steam_rate") == pytest.approx(26 * LB_KG, rel=REL)
+    # a drive's steam rate per horsepower-hour, as US data sheets write it (NIST SP 811 hp)
+    for unit in ("lb/hp-h", "lb/hph", "lb/hp-hr", "lb/(hp*h)"):
+        assert parse_quantity(f"34 {unit}", "steam_rate") == pytest.approx(34 * LB_KG / (HP_W / 1e3), rel=REL)
     # 140 MMBtu/h = 147.70784 GJ/h (Btu_IT, NIST SP 811)
     assert parse_quantity("140 MMBtu/h", "heat_rate") == pytest.approx(140 * BTU_J * 1e-3, rel=REL)
     assert parse_quantity("30 min", "time") == pytest.approx(0.5, rel=REL)
@@ -175,6 +197,7 @@ def test_other_kinds():
         ("0.085/kWh", "price_power", 85.0),
         ("2.5 per t", "price_mass", 2.5),
         ("1.1 per klb", "price_mass", 1.1 / LB_KG),  # 1 lb = 0.45359237 kg (NIST SP 811)
+        ("4 per Dth", "price_energy", 4.0 / (10 * US_THERM_J * 1e-9)),  # dekatherm = 10 US therms (NIST SP 811)
     ],
 )
 def test_parse_price(text, kind, expected):
@@ -230,6 +253,13 @@ def test_price_errors(text, kind, match):
         ("12 bar", "pressure", "does not say gauge or absolute"),
         ("42 psi", "pressure", "does not say gauge or absolute"),
         ("120 mbar", "pressure", "does not say gauge or absolute"),
+        # a condenser gauge reads vacuum, a steam table absolute
+        ("27.5 inHg", "pressure", "does not say gauge or absolute"),
+        ("700 mmHg", "pressure", "does not say gauge or absolute"),
+        ("31 inHg(vac)", "pressure", "more vacuum than the standard atmosphere holds"),
+        # a generator's apparent power: MW needs the power factor
+        ("40 MVA", "power", "apparent power"),
+        ("900 kVA", "power", "apparent power"),
     ],
 )
 def test_parse_quantity_errors(text, kind, match):
@@ -306,6 +336,13 @@ def test_a_price_may_name_the_site_currency_and_no_other() -> None:
         in_site_currency("180 USD per MWh", "EUR")
     with pytest.raises(UnitError, match="in USD, not the site's currency"):
         parse_price("9.0 USD/GJ", "price_energy")
+    # the currency's sign, before or after the number, stands for the site's own
+    assert in_site_currency("4.20 $/MMBtu", "USD") == "4.20 per MMBtu"
+    assert in_site_currency("$4.20/MMBtu", "USD") == "4.20 per MMBtu"
+    assert in_site_currency("$/MMBtu", "CAD") == "per MMBtu"
+    assert in_site_currency("€ 9 per GJ", "EUR") == "9 per GJ"
+    with pytest.raises(UnitError, match="is in '\\$', not the site's currency EUR"):
+        in_site_currency("$4.20/MMBtu", "EUR")
 
 
 def test_a_series_price_column_in_the_site_currency_reads_as_per() -> None:

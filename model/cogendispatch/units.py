@@ -7,9 +7,10 @@ numbers of the site's currency per internal unit (per GJ, per MWh, per t).
 A value is written as a number followed by its unit, e.g. ``"42 bar(a)"``, ``"150 psig"``,
 ``"400 degC"``, ``"120 t/h"``, ``"850 kW"``; a price as ``"7.5 per GJ"`` or ``"7.5 /MMBtu"``.
 Gauge pressures (``bar(g)``, ``barg``, ``psig``, ``kPa(g)``, ``MPa(g)``) are referred to the
-standard atmosphere, 1.01325 bar (ISO 2533 / ICAO standard atmosphere); plain ``kPa`` and
-``MPa`` are absolute, as in SI and the steam tables, while plain ``bar`` and ``psi``, which
-plant documents use both ways, are refused.
+standard atmosphere, 1.01325 bar (ISO 2533 / ICAO standard atmosphere), and so is a vacuum
+(``inHg(vac)``, ``mmHg(vac)``, read down from it); plain ``kPa`` and ``MPa`` are absolute, as
+in SI and the steam tables, while plain ``bar``, ``psi``, ``inHg`` and ``mmHg``, which plant
+documents use both ways, are refused.
 """
 
 from __future__ import annotations
@@ -33,6 +34,8 @@ _ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
 _ureg.define("MMBtu = 1e6 * Btu_it")
 _ureg.define("MMBTU = MMBtu")
 _ureg.define("klb = 1000 * pound")
+# the US gas trade's dekatherm, ten US therms (about one MMBtu)
+_ureg.define("Dth = 10 * US_therm")
 
 # kind -> (internal unit, a description for messages)
 KINDS: dict[str, tuple[str, str]] = {
@@ -64,13 +67,21 @@ _PRICE_RE = re.compile(rf"^\s*({_NUMBER})\s*(?:per\b|/)\s*(.+?)\s*$")
 _GAUGE = {"bar(g)": "bar", "barg": "bar", "psig": "psi", "psi(g)": "psi", "kpa(g)": "kPa", "kpag": "kPa",
           "mpa(g)": "MPa", "mpag": "MPa"}
 _ABS = {"bar(a)": "bar", "bara": "bar", "psia": "psi", "psi(a)": "psi", "kpa(a)": "kPa", "kpaa": "kPa",
-        "mpa(a)": "MPa", "mpaa": "MPa"}
+        "mpa(a)": "MPa", "mpaa": "MPa", "inhg(a)": "inHg", "inhga": "inHg", "mmhg(a)": "mmHg", "mmhga": "mmHg"}
 # plain kPa and MPa are taken as absolute, the SI convention (steam tables give MPa absolute)
 # pressure units that trade use writes both as gauge and as absolute: refused without the marker
-_AMBIGUOUS = {"bar": "12 bar(a)' or '11 bar(g)", "psi": "150 psig' or '165 psia", "mbar": "0.12 bar(a)"}
+_AMBIGUOUS = {"bar": "12 bar(a)' or '11 bar(g)", "psi": "150 psig' or '165 psia", "mbar": "0.12 bar(a)",
+              # condenser gauges read inches or mm of mercury of vacuum; tables give them absolute
+              "inhg": "27.5 inHg(vac)' or '2.4 inHg(a)", "mmhg": "700 mmHg(vac)' or '60 mmHg(a)"}
+# a vacuum: so far below the standard atmosphere
+_VACUUM = {"inhg(vac)": "inHg", "inhgvac": "inHg", "inhgv": "inHg", "mmhg(vac)": "mmHg", "mmhgvac": "mmHg"}
 _ALIASES = {"°c": "degC", "°f": "degF", "c": "degC", "f": "degF", "tph": "t/h", "klb/hr": "klb/h",
             "bhp": "hp"}  # brake horsepower on pump data sheets: the mechanical horsepower
 _BTU_RE = re.compile(r"\bBtu\b", re.IGNORECASE)
+# horsepower-hour written as one word in steam rates: "lb/hp-h", "lb/hph", "lb/hp-hr"
+_HPH_RE = re.compile(r"\bhp[-·.]?hr?\b", re.IGNORECASE)
+# apparent power: a generator's MVA is its MW over the power factor, which the model lacks
+_VA_RE = re.compile(r"(?<![A-Za-z])[kM]?VA\b")
 _KCAL_RE = re.compile(r"\b(k|M|G)?cal\b")  # the International Table calorie of fuel data, not the thermochemical
 # "ton" is 0.907 t (short) in the US, 1.016 t (long) in old British data and often meant as
 # the metric tonne: refused until the writer says which
@@ -90,6 +101,9 @@ def _normalise_unit(unit: str) -> tuple[str, bool]:
         raise UnitError(f"'{unit}' is ambiguous ('M{roman.group(1)}' is a thousand {what} in US use, a "
                         f"million in SI); write " + ("'klb' for a thousand pounds" if what == "lb"
                                                      else "'kBtu' for a thousand Btu or 'MMBtu' for a million"))
+    if _VA_RE.search(unit):
+        raise UnitError(f"'{unit}' is an apparent power; write the real power in MW (MVA times the power "
+                        "factor, e.g. '40 MVA' at 0.85 is '34 MW')")
     if _TON_RE.search(unit):
         raise UnitError(f"'{unit}' is ambiguous (short, long or metric ton); write 't' for the metric "
                         "tonne, or 'short_ton' or 'long_ton'")
@@ -98,9 +112,12 @@ def _normalise_unit(unit: str) -> tuple[str, bool]:
         return _GAUGE[key], True
     if key in _ABS:
         return _ABS[key], False
+    if key in _VACUUM:
+        return _VACUUM[key], True  # below the atmosphere: a negative gauge (see convert)
     if key in _ALIASES:
         return _ALIASES[key], False
-    text = _BTU_RE.sub("Btu_it", unit.strip().replace("/hr", "/h"))
+    text = _HPH_RE.sub("(hp*h)", _BTU_RE.sub("Btu_it", unit.strip()))
+    text = text.replace("/hr", "/h")
     return _KCAL_RE.sub(lambda m: f"{m.group(1) or ''}cal_it", text), False
 
 
@@ -142,7 +159,12 @@ def convert(value: float, unit: str, kind: str) -> float:
     except Exception:  # pint raises assorted parser errors on malformed unit strings
         raise UnitError(f"unknown unit '{unit}'; expected {desc}") from None
     out = scale * value + offset
-    if gauge:
+    if key in _VACUUM:  # a vacuum reads down from the atmosphere
+        out = STANDARD_ATMOSPHERE_BAR - out
+        if out <= 0:
+            raise UnitError(f"'{value:g} {unit}' is more vacuum than the standard atmosphere holds "
+                            f"({STANDARD_ATMOSPHERE_BAR / scale:.2f} {_VACUUM[key]})")
+    elif gauge:
         out += STANDARD_ATMOSPHERE_BAR
     return out
 
@@ -222,13 +244,41 @@ def price_unit_factor(unit: str, kind: str) -> float:
 _CURRENCY_UNIT = re.compile(rf"^\s*((?:{_NUMBER})?)\s*([A-Z]{{3}})\s*(?:/|per\b)\s*(\S.*)$")
 
 
+# a currency's sign, before or after the number ("$4.20/MMBtu", "4.20 $/MMBtu"), and the
+# ISO 4217 codes written with it: the sign is read as the site's currency when that is one
+# of them (no exchange rate is ever applied)
+CURRENCY_SIGNS: dict[str, frozenset[str]] = {
+    "$": frozenset({"USD", "CAD", "AUD", "NZD", "SGD", "HKD", "MXN", "CLP", "COP", "ARS"}),
+    "€": frozenset({"EUR"}), "£": frozenset({"GBP"}), "¥": frozenset({"JPY", "CNY"}), "₹": frozenset({"INR"}),
+}
+_SIGN_RE = re.compile(rf"^\s*(?:([$€£¥₹])\s*({_NUMBER})|({_NUMBER})?\s*([$€£¥₹]))\s*(?=/|per\b)")
+
+
+def _sign_to_code(text: str, currency: str) -> str:
+    """``text`` with a currency sign in front of its price unit replaced by ``currency``
+    when the sign is written for it; unchanged without a sign.
+
+    Raises UnitError for a sign of another currency.
+    """
+    m = _SIGN_RE.match(text)
+    if not m:
+        return text
+    sign, number = (m.group(1), m.group(2)) if m.group(1) else (m.group(4), m.group(3) or "")
+    if currency not in CURRENCY_SIGNS[sign]:
+        raise UnitError(f"'{text.strip()}' is in '{sign}', not the site's currency {currency} "
+                        "(no exchange rate is applied)")
+    return f"{number} {currency}{text[m.end():]}".strip()
+
+
 def in_site_currency(text: str, currency: str) -> str:
     """``text`` (a price, "180 EUR/MWh", or a price unit, "EUR/MWh") with the site's own
     ``currency`` written as the file formats write it ("180 per MWh", "per MWh"); text
-    naming no currency is returned as it is.
+    naming no currency is returned as it is. The currency's sign may stand for its code
+    ("$4.20/MMBtu" at a site in USD, :data:`CURRENCY_SIGNS`).
 
     Raises UnitError for another currency: no exchange rate is applied.
     """
+    text = _sign_to_code(text, currency)
     m = _CURRENCY_UNIT.match(text)
     if not m:
         return text

@@ -113,7 +113,8 @@ def site_currency_prices(node: Any, currency: str) -> Any:
         return {k: site_currency_prices(v, currency) for k, v in node.items()}
     if isinstance(node, list):
         return [site_currency_prices(v, currency) for v in node]
-    if isinstance(node, str) and re.match(r"\s*[-+]?\.?\d", node):  # a number first: a price, not a name
+    # a number (or a currency sign) first: a price, not a name
+    if isinstance(node, str) and re.match(r"\s*(?:[$€£¥₹]\s*)?[-+]?\.?\d", node):
         try:
             return in_site_currency(node, currency)
         except UnitError:
