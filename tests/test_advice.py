@@ -380,6 +380,33 @@ def test_hour_index_names_a_missing_hour() -> None:
         hour_index(ser, "2030-01-01 00:00", "<s>")
 
 
+def test_at_with_slashes_reads_as_the_series_does() -> None:
+    """A series written 3/1/2027 (month first) or 01/03/2027 (day first) is read the one way
+    that makes its rows hourly; --at written with '/' is read the same way round (from the
+    mill trial: it was refused outright). A series written year-month-day gives no hint,
+    so '/' there is still refused."""
+    import pandas as pd
+
+    from cogendispatch.errors import InputError
+    from cogendispatch.plant.series import parse_series
+
+    cfg = site()
+
+    def written(fmt: str):  # noqa: ANN202
+        times = [t.strftime(fmt) for t in pd.date_range("2027-03-01", periods=48, freq="h")]
+        return parse_series(pd.DataFrame({"time": times, "demand:HP [t/h]": ["0"] * 48, "demand:LP [t/h]": ["10"] * 48,
+                                          "load [MW]": ["5"] * 48, "price:import [per MWh]": ["100"] * 48}),
+                            cfg, "<s>")
+
+    us, eu, iso = written("%m/%d/%Y %H:%M"), written("%d/%m/%Y %H:%M"), written("%Y-%m-%d %H:%M")
+    assert (us.date_order, eu.date_order, iso.date_order) == ("month first", "day first", "")
+    assert hour_index(us, "3/1/2027 12:00", "<s>") == 12 and hour_index(us, "3/2/2027 1:00", "<s>") == 25
+    assert hour_index(eu, "01/03/2027 12:00", "<s>") == 12
+    with pytest.raises(InputError, match="not an hour of the series"):  # 3 January, read as the series
+        hour_index(us, "1/3/2027 12:00", "<s>")
+    with pytest.raises(InputError, match="write the date as year-month-day, as the series does"):
+        hour_index(iso, "3/1/2027 12:00", "<s>")
+
 def test_advice_holds_the_plans_states(tmp_path) -> None:  # noqa: ANN001
     import pandas as pd
 

@@ -299,8 +299,32 @@ def _hold_initial_states(cfg: SiteConfig, held: dict[str, int],
     return cfg.model_copy(update={"boilers": boilers, "turbogenerators": tgs, "drives": drives})
 
 
+def _slashed_at(series: Series, at: str, path: str) -> str:
+    """``at`` written with '/' in its date, in ISO form, read the way round the series' own
+    dates were read (month first or day first, :attr:`Series.date_order`). Refused for a
+    series written year-month-day: 5/1/2027 is 1 May in one country and 5 January in
+    another, and the series gives no hint which."""
+    import warnings
+
+    if not series.date_order:
+        raise InputError(None, "--at", f"'{at}': write the date as year-month-day, as the series does, e.g. "
+                         f"'{series.wall_time[0]:%Y-%m-%d}T10:00'")
+    try:
+        with warnings.catch_warnings():  # pandas warns when it reads a date the other way round
+            warnings.simplefilter("ignore")
+            ts = pd.to_datetime(at, dayfirst=series.date_order == "day first", format="mixed")
+    except (ValueError, TypeError):
+        raise InputError(None, "--at", f"'{at}' is not a date and time") from None
+    if ts.tzinfo is not None:
+        return ts.isoformat()
+    return ts.strftime("%Y-%m-%dT%H:%M")
+
+
 def hour_index(series: Series, at: str, path: str) -> int:
-    """Row of ``series`` at time ``at`` (same format as the series' time column)."""
+    """Row of ``series`` at time ``at`` (year-month-day, or with '/' as a series may be
+    written: :func:`_slashed_at`)."""
+    if "/" in re.split(r"[T ]", at.strip())[0]:
+        at = _slashed_at(series, at, path)
     try:
         ts = pd.Timestamp(at)
     except (ValueError, TypeError):

@@ -51,6 +51,8 @@ class Series:
     duty: pd.DataFrame  # [MW] columns: drive ids (shaft power of one machine)
     source: str = ""
     time_note: str = ""  # how dates written with '/' were read, when day first
+    # how the file wrote its dates: "month first" or "day first" with '/', "" year-month-day
+    date_order: str = ""
     # the wall-clock times as written, when the file gave UTC offsets (``time`` is then
     # UTC): a month or a day is the site's, not Greenwich's
     wall: pd.DatetimeIndex | None = None
@@ -108,7 +110,7 @@ class Series:
             time=self.time[sl], demand=self.demand.iloc[sl], load=self.load.iloc[sl],
             price_import=self.price_import.iloc[sl], price_export=self.price_export.iloc[sl],
             fuel_price=self.fuel_price.iloc[sl], co2_price=self.co2_price.iloc[sl],
-            duty=self.duty.iloc[sl], source=self.source, time_note=self.time_note,
+            duty=self.duty.iloc[sl], source=self.source, time_note=self.time_note, date_order=self.date_order,
             wall=self.wall[sl] if self.wall is not None else None,
         )
 
@@ -197,6 +199,8 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
         where = f" (read from the workbook's first sheet, '{sheet}': the series must be the first sheet)" if sheet else ""
         raise InputError(path, "header row", "missing column 'time'" + where)
     time, time_note, wall = _parse_time(raw["time"], path)
+    # the time_note is given for a day-first reading only (_slashed_reading)
+    date_order = ("day first" if time_note else "month first") if raw["time"].astype(str).str.contains("/").any() else ""
 
     headers = {h.id for h in site.headers}
     fuels = {f.id for f in site.fuels}
@@ -274,7 +278,7 @@ def parse_series(raw: pd.DataFrame, site: SiteConfig, path: str | Path = "<serie
                              "duty must not be negative")
     return Series(time=idx, demand=demand, load=load, price_import=price_import, price_export=price_export,
                   fuel_price=fuel_price, co2_price=co2, duty=duty, source=str(path),
-                  time_note=time_note, wall=wall)
+                  time_note=time_note, date_order=date_order, wall=wall)
 
 
 # largest magnitude a series cell may have, in its column's unit (t/h, MW, kW, per MWh ...)
