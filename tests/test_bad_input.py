@@ -86,6 +86,10 @@ SITE_CASES = [
     pytest.param(sub('min_down = "4 h"\ninitial_on = true\nfixed_throttle', 'min_down = "30 min"\ninitial_on = true\nfixed_throttle'),
                  ["[[turbogenerator]] #2 (id 'TG2') > min_down", "must be at least 1 h"],
                  id="turbine-min-down-below-an-hour"),
+    # --- contradictory switches (the plan once showed the unit "unavailable" without a word)
+    pytest.param(sub('initial_steam = "25 t/h"\n', 'initial_steam = "25 t/h"\navailable = false\nmust_run = true\n'),
+                 ["[[boiler]] #4 (id 'B4') > must_run", "not available cannot be made to run"],
+                 id="must-run-and-unavailable"),
     # --- keys
     pytest.param(sub("blowdown = 0.02", "blowdwn = 0.02"),
                  ["[[boiler]] #4 (id 'B4') > blowdwn", "unknown key"], id="unknown-key"),
@@ -714,6 +718,12 @@ def test_a_missing_hour_when_clocks_change_suggests_utc_offsets() -> None:
     with pytest.raises(InputError) as exc:
         parse_series(df, cfg, "<march>")
     assert "1 missing hour(s) before 2027-03-28 03:00:00" in str(exc.value) and "daylight-saving" in str(exc.value)
+    # the same month in the afternoon is no clock change: no guess (from the mill trial,
+    # whose missing 1 March hour was hinted so)
+    times = [t for t in pd.date_range("2027-03-01 12:00", periods=5, freq="h") if t.hour != 14]
+    with pytest.raises(InputError) as exc:
+        parse_series(df.iloc[:4].assign(time=[str(t) for t in times]), cfg, "<march afternoon>")
+    assert "missing hour" in str(exc.value) and "daylight-saving" not in str(exc.value)
 
 
 def test_a_zero_minimum_time_means_none() -> None:

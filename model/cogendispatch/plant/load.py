@@ -226,6 +226,12 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
     if not cfg.boilers:
         bad("[[boiler]]", "the site has no boiler: nothing raises steam")
 
+    for kind, units in (("boiler", cfg.boilers), ("turbogenerator", cfg.turbogenerators)):
+        for u in units:
+            if u.must_run and not u.available:
+                bad(where(kind, u.id, "must_run"), "a unit that is not available cannot be made to run: "
+                    "drop must_run, or available = false")
+
     for b in cfg.boilers:
         need_header("boiler", b.id, "header", b.header)
         for f in b.fuels:

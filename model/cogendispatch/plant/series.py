@@ -345,6 +345,14 @@ def _slashed_reading(text: pd.Series, path: Path, month_first: list[pd.Timestamp
                        f"('{text.iloc[0]}' is {day_first[0]:%d %B %Y})")
 
 
+def _clock_change_hour(t: pd.Timestamp) -> bool:
+    """Whether a naive wall-clock hour ``t`` could be skipped or repeated by a daylight-saving
+    change: in March/April or September to November (either hemisphere) and between 00:00
+    and 03:00, where the clocks change (common practice: 01:00 to 03:00 in Europe and North
+    America, at midnight in parts of South America). A time with a UTC offset never is."""
+    return t.tzinfo is None and t.month in (3, 4, 9, 10, 11) and t.hour <= 3
+
+
 def _parse_time(col: pd.Series, path: Path) -> tuple[pd.DatetimeIndex, str, pd.DatetimeIndex | None]:
     """Parse the ``time`` column and check it is strictly hourly with no gap or repeat.
     Returns the times (UTC when the file gives offsets), a note on how dates written with
@@ -375,7 +383,7 @@ def _parse_time(col: pd.Series, path: Path) -> tuple[pd.DatetimeIndex, str, pd.D
             if d == 0:
                 # a repeated hour in a month when clocks go back is most likely the local
                 # fall-back hour, unless the times carry their offsets
-                back = parsed[i].month in (3, 4, 9, 10, 11) and parsed[i].tzinfo is None
+                back = _clock_change_hour(parsed[i])
                 raise InputError(path, f"row {row}, column 'time'", f"duplicated hour {text.iloc[i + 1]}"
                                  + ("; the clocks going back? give UTC offsets" if back else ""))
             if d < 0:
@@ -384,7 +392,7 @@ def _parse_time(col: pd.Series, path: Path) -> tuple[pd.DatetimeIndex, str, pd.D
             # one hour missing in a month when clocks change (March/April, September to
             # November, either hemisphere) is most likely the local spring-forward hour,
             # unless the times carry their UTC offsets already
-            clocks = d == 2 and parsed[i].month in (3, 4, 9, 10, 11) and parsed[i].tzinfo is None
+            clocks = d == 2 and _clock_change_hour(parsed[i] + pd.Timedelta(hours=1))
             hint = ("dates with '/' read neither month first nor day first as hourly rows: write 2027-03-01" if slash
                     else "a daylight-saving gap? give UTC offsets" if clocks
                     else "every hour needs a row")
