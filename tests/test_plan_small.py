@@ -570,3 +570,20 @@ def test_a_diagnosis_gives_the_sites_clock():
                         "price:import [per MWh]": "100"})
     _, rep, res = run(cfg, parse_series(raw, cfg, "<offsets>"))
     assert any("hour 5 (2027-03-01 05:00+01:00)" in d for d in res.diagnosis), res.diagnosis
+
+
+def test_a_reserve_no_schedule_can_hold_is_explained() -> None:
+    """With cover 1, a 100 t/h boiler above 60 t/h cannot be covered by a 60 t/h one at any
+    schedule (the reserve row: the others' spare rating >= cover x its steam). The diagnosis
+    names it and says how to plan with less reserve; at cover 0.5 (50 t/h of 100) it can."""
+    from cogendispatch.results import reserve_hint
+
+    def boiler(bid: str, rating: str) -> dict:
+        return {"id": bid, "header": "HP", "fuels": ["NG"], "max_steam": rating, "min_steam": "10 t/h",
+                "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}}
+
+    two = [boiler("B1", "100 t/h"), boiler("B2", "60 t/h")]
+    hint = reserve_hint(site(boiler=two, reserve={"enabled": True, "cover": 1.0}))
+    assert "the others can never cover B1 above 60 t/h" in hint and "B2 above" not in hint
+    assert "a lower [reserve] cover (now 1) or --no-reserve" in hint
+    assert "never" not in reserve_hint(site(boiler=two, reserve={"enabled": True, "cover": 0.5}))

@@ -275,8 +275,25 @@ def diagnose(sm: SiteModel, upto: int | None = None, first: int = 0) -> list[str
     report(_series(lambda t: m.power_surplus[t], hours), "electric bus surplus", "MW",
            "generation above load plus the export limit")
     report(_series(lambda t: m.reserve_short[t], hours), "steam reserve short", "t/h",
-           "losing the largest running boiler could not be covered", limits=True)
+           reserve_hint(ctx.cfg), limits=True)
     return msgs
+
+
+def reserve_hint(cfg: SiteConfig) -> str:
+    """Why a steam reserve can be short, for the diagnosis: a boiler whose loss the others
+    cannot cover even at their full ratings is named, with the load [t/h] above which it is
+    always short; and how to plan without it when the site accepts that risk."""
+    c = cfg.reserve.cover
+    ok = [b for b in cfg.boilers if b.available]
+    never = []
+    for b in ok:
+        others = sum(o.max_steam for o in ok if o is not b)
+        if c > 0 and c * b.max_steam > others + 1e-9:
+            never.append(f"{b.id} above {others / c:.4g} t/h (the others' ratings sum to {others:.4g} t/h)")
+    return ("losing the largest running boiler could not be covered"
+            + ("; the others can never cover " + ", ".join(never) if never else "")
+            + f"; a lower [reserve] cover (now {c:g}) or --no-reserve plans with less reserve, if the site "
+            "accepts that risk")
 
 
 def plan_results(sm: SiteModel) -> PlanResults:
