@@ -601,3 +601,16 @@ def test_summary_says_the_reserve_was_off_with_no_reserve(tmp_path) -> None:  # 
         assert main(["plan", str(site), "--series", str(ser), "--out", str(out), "--quiet", *flag]) == (0 if flag else 3)
         res = json.loads((out / "summary.json").read_text())["reserve"]
         assert res["enabled"] is kept and res["set_by"] == by
+
+
+def test_a_gap_on_penalties_is_also_given_against_the_money() -> None:
+    """58.9 M of objective of which 58.65 M penalties and a 0.1 % gap leave 58.8 k to the
+    bound: 21.7 % of the 270 k of money (the figures of a mill whose reserve cannot be
+    held). Without penalties, or proven to 0, nothing is added."""
+    from cogendispatch.cli import penalty_gap_line
+
+    s = {"objective": 58_923_703.0, "bound": 58_864_912.0, "gap": 0.000998, "cost": {"penalty": 58_653_074.0}}
+    line = penalty_gap_line(s, "USD")
+    assert "against the money alone, 270,629 USD, the bound leaves up to 58,791 USD (21.7 %)" in line
+    assert penalty_gap_line({**s, "cost": {"penalty": 0.0}}, "USD") is None
+    assert penalty_gap_line({**s, "gap": 0.0}, "USD") is None

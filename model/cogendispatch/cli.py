@@ -291,6 +291,19 @@ def dispatch_line(d: dict[str, dict[str, float]]) -> str:
     return "; ".join(parts)
 
 
+def penalty_gap_line(s: dict, cur: str) -> str | None:
+    """A line for a plan whose cost carries penalties: HiGHS's gap is of the whole
+    objective, penalties and all, so against the money alone the same distance to the bound
+    weighs more. None without penalties or gap."""
+    pen = float(s["cost"].get("penalty", 0.0))
+    money = s["objective"] - pen
+    if pen <= 0.5 or s["gap"] <= 1e-9 or money <= 0:
+        return None
+    left = s["objective"] - s["bound"]
+    return (f"the gap is of the cost with its penalties ({pen:,.0f} {cur} of them); against the money alone, "
+            f"{money:,.0f} {cur}, the bound leaves up to {left:,.0f} {cur} ({100 * left / money:.1f} %)")
+
+
 def advice_dict(a: "Advice", currency: str) -> dict[str, object]:
     """One hour's advice as the JSON object written to ``advice.json``."""
     return {
@@ -719,6 +732,8 @@ def cmd_plan(args: argparse.Namespace, out: Console, err: Console) -> int:
         out.print(f"status {status}, gap {100 * s['gap']:.3f} %, cost {s['objective']:,.0f} {cur}, "
                   f"bound {s['bound']:,.0f} {cur}; fuel {s['fuel_total_GJ'] * u.ke:,.0f} {u.energy}, "
                   f"import {s['import_MWh']:,.0f} MWh, export {s['export_MWh']:,.0f} MWh, CO2 {s['co2_t']:,.0f} t")
+        if (line := penalty_gap_line(s, cur)) is not None:
+            out.print(Text(line))
         out.print(f"time: build {sec['build']:.2f} s, load {sec['load']:.2f} s, start {sec['start']:.2f} s, "
                   f"solve {sec['solve']:.2f} s, total {sec['total']:.2f} s; schedule found by {s['found_by']}")
         if "baseline" in s:
