@@ -767,3 +767,23 @@ def test_a_price_may_name_the_sites_currency() -> None:
     with pytest.raises(InputErrors) as exc:
         site(fuel=[{"id": "NG", "price": "9.0 USD/GJ"}])
     assert "[[fuel]] #1 (id 'NG') > price" in str(exc.value)
+
+
+def test_a_message_in_internal_units_also_gives_the_values_as_written() -> None:
+    """A site written in klb/h and degF gets its min > max and its below-saturation
+    messages with the file's own values beside the internal ones (from the mill trial:
+    "min_steam 145.15 t/h exceeds max_steam 136.078 t/h" for a file in klb/h). Values
+    written in the internal units are not echoed."""
+    from cogendispatch.errors import InputErrors
+    from tiny import site
+
+    with pytest.raises(InputErrors) as exc:
+        site(boiler=[{"id": "B1", "header": "HP", "fuels": ["NG"], "max_steam": "300 klb/h", "min_steam": "320 klb/h",
+                      "efficiency_curve": {"load": [0.1, 1.0], "efficiency": [0.85, 0.85]}}],
+             header=[{"id": "HP", "pressure": "40 bar(a)", "temperature": "400 degC"},
+                     {"id": "LP", "pressure": "5 bar(a)", "temperature": "300 degF"}])
+    text = str(exc.value)
+    assert 'exceeds max_steam 136.078 t/h (the file: min_steam = "320 klb/h", max_steam = "300 klb/h")' in text
+    # 300 degF = 148.9 degC, below the 151.8 degC of saturation at 5 bar(a); the pressure is
+    # in bar(a) already
+    assert 'saturation temperature' in text and '(the file: temperature = "300 degF")' in text

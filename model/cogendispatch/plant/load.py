@@ -143,7 +143,7 @@ def parse_site(raw: dict[str, Any], path: str | Path = "<site>") -> SiteConfig:
         cfg = SiteConfig.model_validate(raw)
     except ValidationError as err:
         raise InputErrors(validation_problems(path, raw, err)) from None
-    problems = check_site(cfg, path)
+    problems = check_site(cfg, path, raw)
     if problems:
         raise InputErrors(problems)
     return cfg
@@ -172,8 +172,14 @@ def load_site(path: str | Path) -> SiteConfig:
     return parse_site(raw, path)
 
 
-def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
-    """Cross-table checks: ids, references, pressure order, saturation, min <= max."""
+# the internal units (units.py): a value written in them needs no echo in a message
+_INTERNAL_UNITS = ("t/h", "bar(a)", "degC", "MW")
+
+
+def check_site(cfg: SiteConfig, path: Path, raw: dict[str, Any] | None = None) -> list[InputError]:
+    """Cross-table checks: ids, references, pressure order, saturation, min <= max. With
+    ``raw`` (the parsed file), a message that gives values in the internal units also
+    gives them as the file wrote them, when in other units (klb/h, psig, degF)."""
     problems: list[InputError] = []
 
     def bad(where: str, msg: str) -> None:
@@ -205,6 +211,17 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
     def where(kind: str, uid: str, key: str) -> str:
         return f"[[{kind}]] #{place[(kind, uid)] + 1} (id '{uid}') > {key}"
 
+    def written(kind: str, uid: str, *keys: str) -> str:
+        """'; the file: min_steam = "320 klb/h", ...' for those of ``keys`` written in other
+        than the internal units ("" when all are in them, or unknown)."""
+        rows = (raw or {}).get(kind)
+        k = place.get((kind, uid))
+        if not isinstance(rows, list) or k is None or k >= len(rows) or not isinstance(rows[k], dict):
+            return ""
+        shown = [f'{key} = "{v.strip()}"' for key in keys if isinstance(v := rows[k].get(key), str)
+                 and not v.strip().endswith(_INTERNAL_UNITS)]
+        return f" (the file: {', '.join(shown)})" if shown else ""
+
     def need_header(kind: str, uid: str, key: str, ref: str) -> bool:
         if ref not in headers:
             known = ", ".join(headers) or "none"
@@ -214,12 +231,13 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
 
     for h in cfg.headers:
         if h.pressure >= P_CRIT_BAR:
-            bad(where("header", h.id, "pressure"), f"{h.pressure:.2f} bar(a) is above the critical pressure")
+            bad(where("header", h.id, "pressure"), f"{h.pressure:.2f} bar(a) is above the critical pressure"
+                + written("header", h.id, "pressure"))
             continue
         try:
             header_state(h.pressure, h.temperature)
         except SteamPropertyError as exc:
-            bad(where("header", h.id, "temperature"), str(exc))
+            bad(where("header", h.id, "temperature"), str(exc) + written("header", h.id, "temperature", "pressure"))
         if h.pressure <= 0:
             bad(where("header", h.id, "pressure"), "pressure must be positive")
 
@@ -242,7 +260,8 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
         if b.min_steam < 0:
             bad(where("boiler", b.id, "min_steam"), "must not be negative")
         if b.min_steam > b.max_steam:
-            bad(where("boiler", b.id, "min_steam"), f"min_steam {b.min_steam:g} t/h exceeds max_steam {b.max_steam:g} t/h")
+            bad(where("boiler", b.id, "min_steam"), f"min_steam {b.min_steam:g} t/h exceeds max_steam {b.max_steam:g} t/h"
+                + written("boiler", b.id, "min_steam", "max_steam"))
         if b.efficiency_curve.load[-1] < 1.0 - 1e-9:
             bad(where("boiler", b.id, "efficiency_curve"), "the curve must reach full load (load = 1.0)")
         if b.max_steam > 0 and b.efficiency_curve.load[0] > b.min_steam / b.max_steam + 1e-9:
@@ -291,7 +310,8 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
                 bad(where("turbogenerator", t.id, f"[[section]] #{k + 1} > min_flow"),
                     f"min_flow {sec.min_flow:g} t/h exceeds max_flow {sec.max_flow:g} t/h")
         if t.min_throttle > t.max_throttle:
-            bad(where("turbogenerator", t.id, "min_throttle"), f"min_throttle {t.min_throttle:g} t/h exceeds max_throttle {t.max_throttle:g} t/h")
+            bad(where("turbogenerator", t.id, "min_throttle"), f"min_throttle {t.min_throttle:g} t/h exceeds max_throttle "
+                f"{t.max_throttle:g} t/h" + written("turbogenerator", t.id, "min_throttle", "max_throttle"))
         if t.max_throttle <= 0:
             bad(where("turbogenerator", t.id, "max_throttle"), "must be positive")
         if t.generator_rating <= 0:
@@ -384,7 +404,8 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
         if ld.max_flow <= 0:
             bad(where("letdown", ld.id, "max_flow"), "must be positive")
         if ld.min_flow > ld.max_flow:
-            bad(where("letdown", ld.id, "min_flow"), f"min_flow {ld.min_flow:g} t/h exceeds max_flow {ld.max_flow:g} t/h")
+            bad(where("letdown", ld.id, "min_flow"), f"min_flow {ld.min_flow:g} t/h exceeds max_flow {ld.max_flow:g} t/h"
+                + written("letdown", ld.id, "min_flow", "max_flow"))
 
     for v in cfg.vents:
         need_header("vent", v.id, "header", v.header)
@@ -399,7 +420,8 @@ def check_site(cfg: SiteConfig, path: Path) -> list[InputError]:
         if c.cooling_capacity <= 0:
             bad(where("condenser", c.id, "cooling_capacity"), "must be positive")
         if c.pressure >= 1.0:
-            bad(where("condenser", c.id, "pressure"), f"{c.pressure:.3f} bar(a) is not a vacuum; a back-pressure exhaust goes to a header")
+            bad(where("condenser", c.id, "pressure"), f"{c.pressure:.3f} bar(a) is not a vacuum; a back-pressure exhaust "
+                "goes to a header" + written("condenser", c.id, "pressure"))
         else:
             try:
                 saturation_temperature(c.pressure)
