@@ -1178,3 +1178,22 @@ def test_ctrl_c_while_the_table_waits_for_its_other_thread_stops_it() -> None:
         signal.signal(signal.SIGINT, before)
     assert not [t for t in threading.enumerate() if t.name == "cogen-advice"]
     assert hm.lm.stop is None  # the caller's stop as it was
+
+
+def test_a_driver_choice_priced_by_a_penalty_is_marked_under_the_table(tmp_path, capsys) -> None:  # noqa: ANN001
+    """A 3 MW machine whose turbine (HP -> LP, about 54 t/h at 3 MW) would pass more steam
+    to LP than the 30 t/h of LP demand and the deaerator take, with no vent: on steam the
+    LP header has steam nothing can take, and the saving of the motor is mostly penalty.
+    The table marks its choice with '*' and a line under it says why (in the column it
+    made the table some 250 characters wide: from the mill trial)."""
+    from test_plan_small import TINY_TOML
+
+    site_toml = TINY_TOML + ('[[drive]]\nid = "P1"\nduty = "3 MW"\nmotor = { efficiency = 0.95 }\n'
+                             'steam_turbine = { inlet = "HP", exhaust = "LP", efficiency = 0.5 }\n')
+    (tmp_path / "site.toml").write_text(site_toml)
+    (tmp_path / "s.csv").write_text("time,demand:HP [t/h],demand:LP [t/h],load [MW],price:import [per MWh]\n"
+                                    "2027-03-01T00:00,0,30,5,50\n")
+    rc = main(["advise", str(tmp_path / "site.toml"), "--series", str(tmp_path / "s.csv"), "--at", "2027-03-01T00:00"])
+    text = capsys.readouterr().out
+    assert rc == 0
+    assert "motor *" in text and "* P1: on steam, steam or power is left that nothing can take (the saving includes its penalty)" in text

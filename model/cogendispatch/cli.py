@@ -383,14 +383,18 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
                        else "unknown (no driver before the first hour in the site file)")
             dt = a.drivers[["machine", "now_on_steam", "cost_on_steam", "cost_on_motor", "saving", "saving_vs_now",
                             "better", "flip_import_price", "marginal_estimate"]].copy()
-            # a choice that leaves demand or the reserve short is priced by a penalty: say so
+            # a choice that leaves demand or the reserve short is priced by a penalty: marked
+            # in the table, said in full under it (in the column it made the table too wide)
+            penalised: list[str] = []
             for i, r in a.drivers.iterrows():
-                marks = [f"{drv} leaves {what}" for drv in ("steam", "motor")
-                         for what, hit in (("demand short", r[f"{drv}_leaves_short"]),
-                                           (f"the reserve {r[f'{drv}_reserve_short_t_h']:.1f} t/h short",
+                marks = [f"on {drv}, {what}" for drv in ("steam", "motor")
+                         for what, hit in (("demand goes short", r[f"{drv}_leaves_short"]),
+                                           ("steam or power is left that nothing can take", r[f"{drv}_leaves_surplus"]),
+                                           (f"the reserve is {r[f'{drv}_reserve_short_t_h']:.1f} t/h short",
                                             r[f"{drv}_reserve_short_t_h"] > 1e-4)) if hit]
                 if marks:
-                    dt.loc[i, "better"] = f"{r['better']} ({'; '.join(marks)}: the saving includes its penalty)"
+                    dt.loc[i, "better"] = f"{r['better']} *"
+                    penalised.append(f"* {r['machine']}: {'; '.join(marks)} (the saving includes its penalty)")
                 dt.loc[i, "change"] = _driver_change(r, unknown)
             # money per hour to a tenth, prices to a tenth: one precision a column
             for c in ("saving", "saving_vs_now", "flip_import_price", "marginal_estimate"):
@@ -407,6 +411,8 @@ def cmd_advise(args: argparse.Namespace, out: Console, err: Console) -> int:
             dt[f"marginal estimate [{cur}/MWh]"] = dt[f"marginal estimate [{cur}/MWh]"].where(
                 dt[f"marginal estimate [{cur}/MWh]"].notna(), "left out (a penalty sets a price)")
             _table(out, "Turbine or motor" + (" (hour as given)" if a.what_if else ""), dt)
+            for line in penalised:
+                out.print(Text(line))
             for note, machines in a.drivers.groupby("note", sort=False)["machine"]:
                 if note:  # machines with the same note on one line
                     out.print(f"{', '.join(machines)}: {note}", highlight=False)

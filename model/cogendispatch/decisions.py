@@ -769,6 +769,8 @@ def _driver_row(hm: HourModel, d: Drive, now: dict[str, int], prices: dict[str, 
         "flip_import_price": flip,
         "marginal_estimate": est,
         "steam_leaves_short": _short(on_steam), "motor_leaves_short": _short(on_motor),
+        # steam or power that nothing can take (no vent, export at its limit): a penalty too
+        "steam_leaves_surplus": _surplus(on_steam), "motor_leaves_surplus": _surplus(on_motor),
         "steam_reserve_short_t_h": on_steam.reserve_short, "motor_reserve_short_t_h": on_motor.reserve_short,
         "on_steam_hour_before": history[d.id].before if d.id in history else None,
         "steam_blocked_h": float(history[d.id].held_for(True)) if d.id in history else float("nan"),
@@ -785,6 +787,10 @@ def _in_range(n: int, bounds: tuple[int, int]) -> bool:
 
 def _short(st: HourState) -> bool:
     return any(v > 1e-4 for v in st.short.values()) or st.power_short > 1e-4
+
+
+def _surplus(st: HourState) -> bool:
+    return any(v > 1e-4 for v in st.surplus.values()) or st.power_surplus > 1e-4
 
 
 def _priced(hm: HourModel, w: WhatIf) -> tuple[float, float | None]:
