@@ -587,3 +587,17 @@ def test_a_reserve_no_schedule_can_hold_is_explained() -> None:
     assert "the others can never cover B1 above 60 t/h" in hint and "B2 above" not in hint
     assert "a lower [reserve] cover (now 1) or --no-reserve" in hint
     assert "never" not in reserve_hint(site(boiler=two, reserve={"enabled": True, "cover": 0.5}))
+
+
+def test_inspect_says_when_a_boiler_can_never_be_covered(tmp_path, capsys) -> None:  # noqa: ANN001
+    """The tiny site's one 50 t/h boiler can hold no reserve: inspect says so before any
+    plan shows the reserve short (reserve_uncoverable); without the reserve, nothing."""
+    from cogendispatch.cli import main
+
+    (tmp_path / "on.toml").write_text(TINY_TOML.replace("[reserve]\nenabled = false", "[reserve]\nenabled = true"))
+    (tmp_path / "off.toml").write_text(TINY_TOML)
+    assert main(["inspect", str(tmp_path / "on.toml")]) == 0
+    out = capsys.readouterr().out
+    assert "with the steam reserve's cover of 1, the others can never cover B1 above 0 t/h" in " ".join(out.split())
+    assert main(["inspect", str(tmp_path / "off.toml")]) == 0
+    assert "never cover" not in capsys.readouterr().out

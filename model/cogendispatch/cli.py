@@ -686,6 +686,12 @@ def cmd_inspect(args: argparse.Namespace, out: Console) -> int:
             if col in df and col not in explained:  # once, under the first table that has it
                 explained.add(col)
                 out.print(Text(f"  {col}: {meaning}"), style="dim")
+    from .results import reserve_uncoverable
+    if cfg.reserve.enabled and (never := reserve_uncoverable(cfg)):
+        # said before any plan: every hour such a boiler runs that high shows the reserve short
+        out.print(Text(f"note: with the steam reserve's cover of {cfg.reserve.cover:g}, the others can never cover "
+                       + ", ".join(never) + "; plans show the reserve short whenever it runs higher (a lower "
+                       "[reserve] cover, or --no-reserve, if the site accepts that risk)"))
     if args.csv:
         def write(tmp: Path) -> None:
             for name, df in tables.items():

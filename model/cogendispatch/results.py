@@ -279,21 +279,29 @@ def diagnose(sm: SiteModel, upto: int | None = None, first: int = 0) -> list[str
     return msgs
 
 
-def reserve_hint(cfg: SiteConfig) -> str:
-    """Why a steam reserve can be short, for the diagnosis: a boiler whose loss the others
-    cannot cover even at their full ratings is named, with the load [t/h] above which it is
-    always short; and how to plan without it when the site accepts that risk."""
+def reserve_uncoverable(cfg: SiteConfig) -> list[str]:
+    """Each available boiler whose loss the others cannot cover even at their full ratings,
+    with the load [t/h] above which its reserve is always short (the reserve row: the
+    others' spare rating >= cover x its steam)."""
     c = cfg.reserve.cover
     ok = [b for b in cfg.boilers if b.available]
-    never = []
+    out = []
     for b in ok:
         others = sum(o.max_steam for o in ok if o is not b)
         if c > 0 and c * b.max_steam > others + 1e-9:
-            never.append(f"{b.id} above {others / c:.4g} t/h (the others' ratings sum to {others:.4g} t/h)")
+            out.append(f"{b.id} above {others / c:.4g} t/h (the others' ratings sum to {others:.4g} t/h)")
+    return out
+
+
+def reserve_hint(cfg: SiteConfig) -> str:
+    """Why a steam reserve can be short, for the diagnosis: a boiler whose loss the others
+    cannot cover even at their full ratings is named (:func:`reserve_uncoverable`); and how
+    to plan without it when the site accepts that risk."""
+    never = reserve_uncoverable(cfg)
     return ("losing the largest running boiler could not be covered"
             + ("; the others can never cover " + ", ".join(never) if never else "")
-            + f"; a lower [reserve] cover (now {c:g}) or --no-reserve plans with less reserve, if the site "
-            "accepts that risk")
+            + f"; a lower [reserve] cover (now {cfg.reserve.cover:g}) or --no-reserve plans with less reserve, "
+            "if the site accepts that risk")
 
 
 def plan_results(sm: SiteModel) -> PlanResults:
